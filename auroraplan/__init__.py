@@ -1,0 +1,3 @@
+"""Plan aurora-viewing excursions from Kp, darkness, moonlight, cloud and horizons."""
+
+__version__ = "0.1.0"

@@ -1,0 +1,73 @@
+"""The auroraplan command line: one sub-command per job, heavy imports only when used."""
+
+import argparse
+import importlib
+import sys
+
+from auroraplan.errors import InputError
+
+# name -> (module under auroraplan.commands, one-line help)
+COMMANDS = {
+    "demo": ("demo", "run the main job on the bundled demo workspace and write every output"),
+    "sky": ("sky", "darkness windows and moonlight per night at one place"),
+    "oval": ("oval", "auroral oval boundary latitudes by magnetic local time for a Kp"),
+    "sites": ("sites", "each site's magnetic latitude and the Kp it needs"),
+    "week": ("week", "ranked nights and sites per trip, and the excursion plan"),
+    "tonight": ("tonight", "tonight's shortlist of sites; the guide's phone page"),
+    "itinerary": ("itinerary", "printable PDF itinerary for a trip"),
+    "season": ("season", "long-range chance per night and the best trip start dates"),
+    "arrival": ("arrival", "arrival window of a coronal mass ejection and the nights it touches"),
+}
+
+
+class OneLineParser(argparse.ArgumentParser):
+    """An argument parser whose errors are one line and exit code 2."""
+
+    def error(self, message):
+        sys.stderr.write(f"{self.prog}: error: {message}\n")
+        sys.exit(2)
+
+
+def build_parser() -> argparse.ArgumentParser:
+    parser = OneLineParser(
+        prog="auroraplan",
+        description="Plan aurora-viewing excursions: ranked nights and sites per trip.",
+    )
+    parser.add_argument("--debug", action="store_true", help="show tracebacks of internal errors")
+    sub = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=OneLineParser)
+    for name, (module_name, help_text) in COMMANDS.items():
+        module = importlib.import_module(f"auroraplan.commands.{module_name}")
+        p = sub.add_parser(name, help=help_text, description=module.__doc__)
+        p.add_argument("--debug", action="store_true", help="show tracebacks of internal errors")
+        module.add_arguments(p)
+        p.set_defaults(_run=module.run)
+    return parser
+
+
+def main(argv=None) -> int:
+    parser = build_parser()
+    args = parser.parse_args(argv)
+    if not getattr(args, "command", None):
+        parser.print_help()
+        return 2
+    try:
+        return int(args._run(args) or 0)
+    except InputError as exc:
+        for problem in exc.problems:
+            sys.stderr.write(f"auroraplan {args.command}: {problem}\n")
+        return 2
+    except KeyboardInterrupt:
+        sys.stderr.write("auroraplan: interrupted\n")
+        return 130
+    except Exception as exc:  # internal error: keep the traceback behind --debug
+        if args.debug:
+            raise
+        sys.stderr.write(
+            f"auroraplan {args.command}: internal error: {type(exc).__name__}: {exc} "
+            "(run again with --debug for the traceback)\n"
+        )
+        return 1
+
+
+if __name__ == "__main__":
+    sys.exit(main())

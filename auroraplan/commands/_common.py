@@ -1,0 +1,102 @@
+"""Option types and output helpers shared by the sub-commands (light imports only)."""
+
+import argparse
+import datetime as dt
+import json
+import sys
+
+DARKNESS_LEVELS = ("civil", "nautical", "astronomical")
+
+
+def latitude(text: str) -> float:
+    """Latitude in decimal degrees, -90 to 90."""
+    try:
+        value = float(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"{text!r} is not a number; give degrees, -90 to 90") from None
+    if not -90.0 <= value <= 90.0:
+        raise argparse.ArgumentTypeError(f"{text} is outside -90 to 90 degrees")
+    return value
+
+
+def longitude(text: str) -> float:
+    """Longitude in decimal degrees, -180 to 180 (east positive)."""
+    try:
+        value = float(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"{text!r} is not a number; give degrees, -180 to 180") from None
+    if not -180.0 <= value <= 180.0:
+        raise argparse.ArgumentTypeError(f"{text} is outside -180 to 180 degrees")
+    return value
+
+
+def iso_date(text: str) -> dt.date:
+    """A calendar date as YYYY-MM-DD."""
+    try:
+        return dt.date.fromisoformat(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(
+            f"{text!r} is not a date; give YYYY-MM-DD, for example 2027-01-12"
+        ) from None
+
+
+def utc_time(text: str) -> dt.datetime:
+    """An ISO 8601 time; without a zone it is taken as UTC."""
+    try:
+        value = dt.datetime.fromisoformat(text.replace("Z", "+00:00").replace("z", "+00:00"))
+    except ValueError:
+        raise argparse.ArgumentTypeError(
+            f"{text!r} is not an ISO 8601 time; give for example 2027-01-10T12:00Z"
+        ) from None
+    if value.tzinfo is None:
+        value = value.replace(tzinfo=dt.timezone.utc)
+    return value.astimezone(dt.timezone.utc)
+
+
+def int_range(low: int, high: int):
+    """An option type for a whole number from ``low`` to ``high``."""
+
+    def parse(text: str) -> int:
+        try:
+            value = int(text)
+        except ValueError:
+            raise argparse.ArgumentTypeError(f"{text!r} is not a whole number; give {low} to {high}") from None
+        if not low <= value <= high:
+            raise argparse.ArgumentTypeError(f"{text} is outside {low} to {high}")
+        return value
+
+    return parse
+
+
+def time_zone(text: str) -> str:
+    """An IANA time-zone name such as Europe/Oslo."""
+    import zoneinfo
+
+    try:
+        zoneinfo.ZoneInfo(text)
+    except (zoneinfo.ZoneInfoNotFoundError, ValueError):
+        raise argparse.ArgumentTypeError(
+            f"{text!r} is not a known IANA time zone; give a name such as Europe/Oslo"
+        ) from None
+    return text
+
+
+def print_json(obj) -> None:
+    """Print a result as JSON on standard output."""
+    json.dump(obj, sys.stdout, indent=2, ensure_ascii=False, default=_json_default)
+    sys.stdout.write("\n")
+
+
+def _json_default(value):
+    if isinstance(value, dt.datetime | dt.date):
+        return value.isoformat()
+    if hasattr(value, "item"):  # numpy scalars
+        return value.item()
+    raise TypeError(f"cannot write {type(value).__name__} as JSON")
+
+
+def console():
+    """A rich console for tables; honours NO_COLOR and plain pipes."""
+    from rich.console import Console
+
+    return Console(highlight=False)

@@ -1,0 +1,11 @@
+"""The `season` command (not built yet)."""
+
+from auroraplan.errors import InputError
+
+
+def add_arguments(parser):
+    parser.add_argument("rest", nargs="*", help="(not built yet)")
+
+
+def run(args):
+    raise InputError("the season command is not built yet")

@@ -1,0 +1,1 @@
+"""Outputs people use: text tables, phone page, PDF itinerary, calendar, charts."""
