@@ -2,11 +2,21 @@
 
 from __future__ import annotations
 
+import csv
 import datetime as dt
+import io
+import json
+import math
+import re
+import tomllib
+import zoneinfo
 from dataclasses import dataclass, field
 from pathlib import Path
 
 import numpy as np
+
+from auroraplan.activity import BLOCK_HOURS, SPREAD_LIMITS, parse_kp
+from auroraplan.errors import InputError, ProblemList
 
 
 @dataclass(frozen=True)
@@ -23,7 +33,7 @@ class Operator:
     min_elevation_deg: float = 5.0
     emission_height_km: float = 110.0
     oval_model: str = "starkov1994"
-    settings: dict = field(default_factory=dict)
+    settings: dict = field(default_factory=dict)  # the whole operator.toml, e.g. ["activity"]
 
 
 @dataclass(frozen=True)
@@ -73,3 +83,844 @@ class Workspace:
     clouds: object  # pandas.DataFrame: site, time_utc (UTC), cloud_pct (float)
     files: dict = field(default_factory=dict)  # role -> Path actually read
     warnings: list = field(default_factory=list)
+
+
+# ---------------------------------------------------------------------------------------
+# What the files may hold
+# ---------------------------------------------------------------------------------------
+
+DARKNESS_LEVELS = ("civil", "nautical", "astronomical")
+"""Keys of sky.DARKNESS_DEG: sun 6, 12 or 18 degrees below the horizon."""
+
+OVAL_MODELS = ("starkov1994", "gussenhoven1983")
+"""Keys of oval.MODELS."""
+
+FILE_NAMES = {
+    "operator": "operator.toml",
+    "sites": "sites.geojson",
+    "sites_gpkg": "sites.gpkg",
+    "trips": "trips.csv",
+    "activity": "activity.csv",
+    "clouds": "clouds.csv",
+}
+
+CSV_COLUMNS = {
+    # role: (required columns, optional columns)
+    "trips": (("trip", "group", "guests", "arrive", "depart", "outings"), ("blocked",)),
+    "activity": (("start_utc", "kp"), ("kp_sd",)),
+    "clouds": (("site", "time_utc", "cloud_pct"), ()),
+}
+
+SITE_LIMITS = {
+    # property: (low, high, unit) -- plausible ranges, to catch typos
+    "drive_min": (0.0, 600.0, "minutes"),
+    "capacity": (1, 1000, "guests"),
+    "sky_mag": (16.0, 22.5, "V mag/arcsec²"),
+    "height_m": (-500.0, 9000.0, "m"),
+}
+SITE_DEFAULTS = {"drive_min": 0.0, "capacity": 8, "sky_mag": 21.5}
+"""sky_mag 21.5: a dark rural sky; the natural zenith sky is about 21.9-22.0 V mag/arcsec²
+(Krisciunas & Schaefer 1991, from memory)."""
+
+HORIZON_EL_RANGE = (-5.0, 90.0)
+KP_SD_RANGE = (0.0, 5.0)
+
+TIME_EXAMPLE = "2027-01-12T18:00Z"
+_ISO_TIME_RE = re.compile(r"^\d{4}-\d{2}-\d{2}[T ]\d{2}:\d{2}")
+
+
+# ---------------------------------------------------------------------------------------
+# Small value checkers: each returns the value or raises ValueError saying what is allowed
+# ---------------------------------------------------------------------------------------
+
+
+def _is_missing(value) -> bool:
+    return value is None or (isinstance(value, float) and math.isnan(value))
+
+
+def _number(low, high, unit=""):
+    unit_text = f" {unit}" if unit else ""
+
+    def check(value):
+        if isinstance(value, bool) or not isinstance(value, int | float):
+            raise ValueError(f"{value!r} is not a number; give {low} to {high}{unit_text}")
+        if not (math.isfinite(value) and low <= value <= high):
+            raise ValueError(f"{value:g} is outside {low} to {high}{unit_text}")
+        return float(value)
+
+    return check
+
+
+def _whole(low, high, unit=""):
+    as_number = _number(low, high, unit)
+
+    def check(value):
+        value = as_number(value)
+        if value != int(value):
+            raise ValueError(f"{value:g} is not a whole number; give {low} to {high}")
+        return int(value)
+
+    return check
+
+
+def _choice(allowed):
+    def check(value):
+        if value not in allowed:
+            raise ValueError(f"{value!r} is not known; allowed: {', '.join(allowed)}")
+        return value
+
+    return check
+
+
+def _text(value):
+    if not isinstance(value, str) or not value.strip():
+        raise ValueError("must be a non-empty text")
+    return value.strip()
+
+
+def _zone(value):
+    _text(value)
+    try:
+        zoneinfo.ZoneInfo(value)
+    except (zoneinfo.ZoneInfoNotFoundError, ValueError):
+        raise ValueError(
+            f"{value!r} is not a known IANA time zone; give a name such as Europe/Oslo"
+        ) from None
+    return value
+
+
+def parse_utc(text) -> dt.datetime:
+    """An ISO 8601 date and time as an aware UTC datetime.
+
+    "Z" or an offset ("+01:00") is honoured; a time without a zone is taken as UTC (the
+    files hold UTC, and the command line reads times the same way).
+    """
+    if isinstance(text, dt.datetime):
+        value = text
+    else:
+        raw = str(text).strip()
+        if not _ISO_TIME_RE.match(raw):
+            raise ValueError(
+                f"{raw!r} is not an ISO 8601 date and time; give for example {TIME_EXAMPLE}"
+            )
+        try:
+            value = dt.datetime.fromisoformat(re.sub(r"[zZ]$", "+00:00", raw))
+        except ValueError:
+            raise ValueError(
+                f"{raw!r} is not an ISO 8601 date and time; give for example {TIME_EXAMPLE}"
+            ) from None
+    if value.tzinfo is None:
+        return value.replace(tzinfo=dt.UTC)
+    return value.astimezone(dt.UTC)
+
+
+def _date(text) -> dt.date:
+    raw = str(text).strip()
+    try:
+        return dt.date.fromisoformat(raw)
+    except ValueError:
+        raise ValueError(f"{raw!r} is not a date; give YYYY-MM-DD, for example 2027-01-12") from None
+
+
+def _csv_number(low, high, unit=""):
+    as_number = _number(low, high, unit)
+
+    def check(text):
+        raw = str(text).strip()
+        try:
+            value = float(raw)
+        except ValueError:
+            raise ValueError(f"{raw!r} is not a number; give {low} to {high} {unit}".rstrip()) from None
+        return as_number(value)
+
+    return check
+
+
+def _csv_whole(low, high, unit=""):
+    as_whole = _whole(low, high, unit)
+
+    def check(text):
+        raw = str(text).strip()
+        try:
+            value = float(raw)
+        except ValueError:
+            raise ValueError(f"{raw!r} is not a whole number; give {low} to {high}") from None
+        return as_whole(value)
+
+    return check
+
+
+# ---------------------------------------------------------------------------------------
+# Reading files as text
+# ---------------------------------------------------------------------------------------
+
+
+def _read_text(path: Path, label: str, problems: ProblemList) -> str | None:
+    """The file's text, or None with a problem added (not UTF-8, empty, unreadable)."""
+    try:
+        data = path.read_bytes()
+    except OSError as exc:
+        problems.add(f"{label}: cannot be read ({exc.strerror}); check the file's permissions")
+        return None
+    try:
+        text = data.decode("utf-8-sig")
+    except UnicodeDecodeError as exc:
+        line = data[: exc.start].count(b"\n") + 1
+        problems.add(
+            f"{label} line {line}: not UTF-8 text (byte 0x{data[exc.start]:02x}); "
+            "save the file with UTF-8 encoding"
+        )
+        return None
+    if not text.strip():
+        problems.add(f"{label}: the file is empty")
+        return None
+    return text
+
+
+def _read_csv_rows(text: str, label: str, role: str, problems: ProblemList):
+    """(line number, {column: text}) for each data row; header problems are added.
+
+    Blank lines are skipped. An empty list when the header is unusable.
+    """
+    required, optional = CSV_COLUMNS[role]
+    reader = csv.reader(io.StringIO(text))
+    try:
+        header = next(reader)
+    except (StopIteration, csv.Error) as exc:
+        problems.add(f"{label} line 1: cannot read the header ({exc})")
+        return []
+    header = [h.strip().lower() for h in header]
+    wanted = ", ".join(required + optional)
+    missing = [c for c in required if c not in header]
+    if missing:
+        problems.add(
+            f"{label} line 1: missing column{'s' if len(missing) > 1 else ''} "
+            f"{', '.join(missing)}; the header needs {wanted}"
+        )
+        return []
+    seen = set()
+    for col in header:
+        if col in seen and col:
+            problems.add(f"{label} line 1: column {col} appears twice; keep one")
+        seen.add(col)
+    rows = []
+    try:
+        for fields in reader:
+            line = reader.line_num
+            if not any(f.strip() for f in fields):
+                continue
+            if len(fields) > len(header):
+                problems.add(
+                    f"{label} line {line}: {len(fields)} fields but the header has "
+                    f"{len(header)}; quote values that contain commas"
+                )
+                continue
+            fields = fields + [""] * (len(header) - len(fields))
+            rows.append((line, dict(zip(header, fields, strict=True))))
+    except csv.Error as exc:
+        problems.add(f"{label} line {reader.line_num}: cannot be read as CSV ({exc})")
+    return rows
+
+
+def _check_field(problems, where, name, checker, value):
+    """checker(value), or None with one problem line naming where and the field."""
+    try:
+        return checker(value)
+    except ValueError as exc:
+        problems.add(f"{where}, {name}: {exc}" if name else f"{where}: {exc}")
+        return None
+
+
+# ---------------------------------------------------------------------------------------
+# operator.toml
+# ---------------------------------------------------------------------------------------
+
+
+def _time_setting(value):
+    return parse_utc(value)
+
+
+def _spread_checkers():
+    checks = {key: (_number(low, high, "Kp"), False) for key, (low, high) in SPREAD_LIMITS.items()}
+    checks["issued_utc"] = (_time_setting, False)
+    return checks
+
+
+OPERATOR_SCHEMA = {
+    # table: {key: (checker, required)}
+    "base": {
+        "name": (_text, True),
+        "lat": (_number(-90, 90, "degrees"), True),
+        "lon": (_number(-180, 180, "degrees"), True),
+        "timezone": (_zone, True),
+    },
+    "operator": {"name": (_text, False)},
+    "fleet": {"vehicles": (_whole(1, 100, "vehicles"), False)},
+    "viewing": {
+        "darkness": (_choice(DARKNESS_LEVELS), False),
+        "min_elevation_deg": (_number(0, 30, "degrees"), False),
+        "emission_height_km": (_number(80, 400, "km"), False),
+        "oval_model": (_choice(OVAL_MODELS), False),
+    },
+    "activity": _spread_checkers(),
+}
+FREE_TABLES = ("chance", "planner")
+"""Tables read by later stages with their own settings; their keys are not checked here."""
+
+
+def _load_operator(path: Path, label: str, problems: ProblemList) -> Operator | None:
+    text = _read_text(path, label, problems)
+    if text is None:
+        return None
+    try:
+        doc = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        problems.add(f"{label}: not valid TOML ({exc}); check quotes and [table] headers")
+        return None
+    known = tuple(OPERATOR_SCHEMA) + FREE_TABLES
+    values = {}
+    for table, value in doc.items():
+        if table not in known:
+            problems.add(f"{label} [{table}]: unknown table; allowed: {', '.join(known)}")
+        elif not isinstance(value, dict):
+            problems.add(f"{label} {table}: must be a [{table}] table")
+    for table, keys in OPERATOR_SCHEMA.items():
+        given = doc.get(table, {})
+        if not isinstance(given, dict):
+            continue
+        for key in given:
+            if key not in keys:
+                problems.add(
+                    f"{label} [{table}] {key}: unknown key; allowed: {', '.join(keys)}"
+                )
+        for key, (checker, required) in keys.items():
+            if key not in given:
+                if required:
+                    problems.add(f"{label} [{table}] {key}: missing; it is required")
+                continue
+            checked = _check_field(problems, f"{label} [{table}] {key}", None, checker,
+                                   given[key])
+            if checked is not None:
+                values[(table, key)] = checked
+    if problems:
+        return None
+    viewing = {key: values[("viewing", key)] for key in OPERATOR_SCHEMA["viewing"]
+               if ("viewing", key) in values}
+    return Operator(
+        name=values.get(("operator", "name"), values[("base", "name")]),
+        base_name=values[("base", "name")],
+        base_lat=values[("base", "lat")],
+        base_lon=values[("base", "lon")],
+        timezone=values[("base", "timezone")],
+        vehicles=values.get(("fleet", "vehicles"), 1),
+        settings=doc,
+        **viewing,
+    )
+
+
+# ---------------------------------------------------------------------------------------
+# sites.geojson / sites.gpkg
+# ---------------------------------------------------------------------------------------
+
+
+def _horizon(value):
+    """A horizon polyline [[azimuth°, elevation°], ...] as an (M, 2) array sorted by azimuth."""
+    if _is_missing(value):
+        return None
+    if isinstance(value, str):
+        try:
+            value = json.loads(value)
+        except json.JSONDecodeError:
+            raise ValueError("is not a list of [azimuth, elevation] pairs") from None
+    allowed = "give a list of [azimuth 0-360, elevation -5 to 90] pairs in degrees"
+    if not isinstance(value, list) or len(value) < 2:
+        raise ValueError(f"needs at least two points; {allowed}")
+    points = []
+    for i, point in enumerate(value, start=1):
+        if (
+            not isinstance(point, list | tuple)
+            or len(point) != 2
+            or not all(isinstance(v, int | float) and not isinstance(v, bool) for v in point)
+        ):
+            raise ValueError(f"point {i} ({json.dumps(point)}) is not an [azimuth, elevation] pair; {allowed}")
+        az, el = float(point[0]), float(point[1])
+        if not (math.isfinite(az) and 0.0 <= az <= 360.0):
+            raise ValueError(f"point {i}: azimuth {point[0]} is outside 0 to 360 degrees")
+        low, high = HORIZON_EL_RANGE
+        if not (math.isfinite(el) and low <= el <= high):
+            raise ValueError(f"point {i}: elevation {point[1]} is outside {low} to {high} degrees")
+        points.append((az, el))
+    arr = np.array(points, dtype=float)
+    return arr[np.argsort(arr[:, 0], kind="stable")]
+
+
+def _clear_by_month(value):
+    if _is_missing(value):
+        return None
+    if isinstance(value, str):
+        try:
+            value = json.loads(value)
+        except json.JSONDecodeError:
+            raise ValueError("is not a list of 12 fractions") from None
+    if not isinstance(value, list) or len(value) != 12:
+        raise ValueError("give 12 fractions 0 to 1, January first")
+    check = _number(0, 1)
+    return tuple(check(v) for v in value)
+
+
+def _closed(value):
+    if _is_missing(value):
+        return False
+    if isinstance(value, bool) or value in (0, 1):
+        return bool(value)
+    raise ValueError(f"{value!r} is not true or false")
+
+
+def _notes(value):
+    if _is_missing(value):
+        return ""
+    if not isinstance(value, str):
+        raise ValueError("must be text")
+    return value
+
+
+SITE_PROPERTIES = {
+    # property: checker; name and coordinates are checked separately
+    "drive_min": _number(*SITE_LIMITS["drive_min"]),
+    "capacity": _whole(*SITE_LIMITS["capacity"]),
+    "sky_mag": _number(*SITE_LIMITS["sky_mag"]),
+    "horizon": _horizon,
+    "clear_by_month": _clear_by_month,
+    "closed": _closed,
+    "notes": _notes,
+}
+
+
+def _site_features_geojson(text: str, label: str, problems: ProblemList):
+    try:
+        doc = json.loads(text)
+    except json.JSONDecodeError as exc:
+        problems.add(f"{label} line {exc.lineno}: not valid JSON ({exc.msg}, column {exc.colno})")
+        return None
+    if not isinstance(doc, dict) or doc.get("type") != "FeatureCollection":
+        problems.add(f"{label}: must be a GeoJSON FeatureCollection (RFC 7946)")
+        return None
+    features = doc.get("features")
+    if not isinstance(features, list):
+        problems.add(f"{label} features: must be a list of Point features")
+        return None
+    return features
+
+
+def _plain(value):
+    """A numpy value from a GIS reader as plain Python, so it checks like GeoJSON."""
+    if isinstance(value, np.ndarray):
+        return value.tolist()
+    if isinstance(value, np.generic):
+        return value.item()
+    return value
+
+
+def _site_features_gpkg(path: Path, label: str, problems: ProblemList):
+    """Features of a GeoPackage layer in the same shape as GeoJSON features."""
+    import geopandas
+
+    try:
+        frame = geopandas.read_file(path)
+    except Exception as exc:  # any reader failure is a problem of the file
+        problems.add(f"{label}: cannot be read as a GeoPackage ({exc})")
+        return None
+    if frame.crs is not None and frame.crs.to_epsg() != 4326:
+        frame = frame.to_crs(4326)
+    features = []
+    for _, row in frame.iterrows():
+        geom = row.geometry
+        props = {k: row[k] for k in frame.columns if k != "geometry"}
+        props = {k: _plain(v) for k, v in props.items()}
+        if geom is None or geom.geom_type != "Point":
+            coords = None
+        else:
+            coords = [geom.x, geom.y] + ([geom.z] if geom.has_z else [])
+        features.append({"type": "Feature",
+                         "geometry": {"type": "Point", "coordinates": coords},
+                         "properties": props})
+    return features
+
+
+def _point(geometry):
+    """(lon, lat, height_m) of a GeoJSON Point; ValueError saying what is allowed."""
+    allowed = "give a Point with coordinates [longitude, latitude] or [lon, lat, height m]"
+    if not isinstance(geometry, dict) or geometry.get("type") != "Point":
+        raise ValueError(f"not a Point; {allowed}")
+    coords = geometry.get("coordinates")
+    if not isinstance(coords, list) or len(coords) not in (2, 3):
+        raise ValueError(allowed)
+    return coords
+
+
+def _site_from_feature(i, feature, label, problems: ProblemList) -> Site | None:
+    props = feature.get("properties") if isinstance(feature, dict) else None
+    if not isinstance(props, dict):
+        problems.add(f"{label} feature {i}: not a Feature with properties")
+        return None
+    name = props.get("name")
+    where = f"{label} feature {i}" + (f" {name!r}" if isinstance(name, str) else "")
+    before = len(problems)
+    name = _check_field(problems, where, "name", _text, name)
+    coords = _check_field(problems, where, "geometry", _point, feature.get("geometry"))
+    lon = lat = None
+    height = 0.0
+    if coords is not None:
+        lon = _check_field(problems, where, "longitude", _number(-180, 180, "degrees"), coords[0])
+        lat = _check_field(problems, where, "latitude", _number(-90, 90, "degrees"), coords[1])
+        if len(coords) == 3:
+            height = _check_field(problems, where, "height_m",
+                                  _number(*SITE_LIMITS["height_m"]), coords[2])
+    values = {}
+    for key, checker in SITE_PROPERTIES.items():
+        raw = props.get(key)
+        if _is_missing(raw) and key in SITE_DEFAULTS:
+            values[key] = SITE_DEFAULTS[key]
+            continue
+        values[key] = _check_field(problems, where, key, checker, raw)
+    if len(problems) > before:
+        return None
+    return Site(name=name, lat=lat, lon=lon, height_m=height, **values)
+
+
+def _load_sites(path: Path, label: str, problems: ProblemList) -> list[Site] | None:
+    if path.suffix == ".gpkg":
+        features = _site_features_gpkg(path, label, problems)
+    else:
+        text = _read_text(path, label, problems)
+        features = None if text is None else _site_features_geojson(text, label, problems)
+    if features is None:
+        return None
+    if not features:
+        problems.add(f"{label}: holds no sites; add at least one Point feature")
+        return None
+    sites = []
+    first_of = {}
+    for i, feature in enumerate(features, start=1):
+        site = _site_from_feature(i, feature, label, problems)
+        if site is None:
+            continue
+        if site.name in first_of:
+            problems.add(
+                f"{label} feature {i} {site.name!r}, name: also used by feature "
+                f"{first_of[site.name]}; site names must be unique"
+            )
+            continue
+        first_of[site.name] = i
+        sites.append(site)
+    return None if problems else sites
+
+
+# ---------------------------------------------------------------------------------------
+# trips.csv
+# ---------------------------------------------------------------------------------------
+
+
+def _blocked(text):
+    parts = [p.strip() for p in str(text).split(";") if p.strip()]
+    return tuple(_date(p) for p in parts)
+
+
+def _trip_from_row(line, row, label, largest, problems: ProblemList) -> Trip | None:
+    where = f"{label} line {line}"
+    before = len(problems)
+    trip = _check_field(problems, where, "trip", _text, row["trip"])
+    group = _check_field(problems, where, "group", _text, row["group"])
+    high = largest[0] if largest else 1000
+    guests = _check_field(problems, where, "guests", _csv_whole(1, 1000, "guests"), row["guests"])
+    if guests is not None and largest and guests > largest[0]:
+        problems.add(
+            f"{where}, guests: {guests} is more than any site holds (largest: {high} at "
+            f"{largest[1]}); split the group into smaller trips"
+        )
+    arrive = _check_field(problems, where, "arrive", _date, row["arrive"])
+    depart = _check_field(problems, where, "depart", _date, row["depart"])
+    outings = _check_field(problems, where, "outings", _csv_whole(1, 60, "outings"), row["outings"])
+    blocked = _check_field(problems, where, "blocked", _blocked, row.get("blocked", ""))
+    if arrive and depart and depart <= arrive:
+        problems.add(f"{where}, depart: {depart} is not after arrive {arrive}; give a later date")
+    elif arrive and depart and blocked:
+        for night in blocked:
+            if not arrive <= night < depart:
+                problems.add(
+                    f"{where}, blocked: {night} is not an evening of the stay "
+                    f"({arrive} to {depart - dt.timedelta(days=1)})"
+                )
+    if len(problems) > before:
+        return None
+    return Trip(trip=trip, group=group, guests=guests, arrive=arrive, depart=depart,
+                outings=outings, blocked=tuple(sorted(blocked)))
+
+
+def _load_trips(path, label, sites, problems: ProblemList, warnings: list) -> list[Trip] | None:
+    text = _read_text(path, label, problems)
+    if text is None:
+        return None
+    open_sites = [s for s in (sites or []) if not s.closed] or list(sites or [])
+    biggest = max(open_sites, key=lambda s: s.capacity, default=None)
+    largest = (biggest.capacity, biggest.name) if biggest else None
+    trips = []
+    first_line = {}
+    for line, row in _read_csv_rows(text, label, "trips", problems):
+        trip = _trip_from_row(line, row, label, largest, problems)
+        if trip is None:
+            continue
+        if trip.trip in first_line:
+            problems.add(
+                f"{label} line {line}, trip: {trip.trip!r} is also on line "
+                f"{first_line[trip.trip]}; trip ids must be unique"
+            )
+            continue
+        first_line[trip.trip] = line
+        free = len(trip.nights()) - len(set(trip.blocked))
+        if trip.outings > free:
+            warnings.append(
+                f"{label} line {line}: trip {trip.trip} wants {trip.outings} outings but has "
+                f"{free} free evenings; at most {free} can be planned"
+            )
+        trips.append(trip)
+    return None if problems else trips
+
+
+# ---------------------------------------------------------------------------------------
+# activity.csv and clouds.csv
+# ---------------------------------------------------------------------------------------
+
+
+def _kp_sd(text):
+    if not str(text).strip():
+        return math.nan
+    return _csv_number(*KP_SD_RANGE, "Kp")(text)
+
+
+def _block_start(text):
+    start = parse_utc(text)
+    if start.minute or start.second or start.microsecond or start.hour % BLOCK_HOURS:
+        raise ValueError(
+            f"{str(text).strip()!r} is not the start of a 3-hour Kp block; "
+            "give 00, 03, 06, ... 21 h UTC"
+        )
+    return start
+
+
+def _utc_column(values):
+    """Aware UTC datetimes as a pandas datetime64[ns, UTC] column."""
+    import pandas as pd
+
+    return pd.Series(pd.to_datetime([v.replace(tzinfo=None) for v in values], utc=True))
+
+
+def _empty_activity():
+    import pandas as pd
+
+    return pd.DataFrame({"start_utc": pd.Series([], dtype="datetime64[ns, UTC]"),
+                         "kp": pd.Series([], dtype=float), "kp_sd": pd.Series([], dtype=float)})
+
+
+def _empty_clouds():
+    import pandas as pd
+
+    return pd.DataFrame({"site": pd.Series([], dtype=object),
+                         "time_utc": pd.Series([], dtype="datetime64[ns, UTC]"),
+                         "cloud_pct": pd.Series([], dtype=float)})
+
+
+def _load_activity(path, label, problems: ProblemList):
+    import pandas as pd
+
+    text = _read_text(path, label, problems)
+    if text is None:
+        return None
+    starts, kps, sds = [], [], []
+    first_line = {}
+    for line, row in _read_csv_rows(text, label, "activity", problems):
+        where = f"{label} line {line}"
+        before = len(problems)
+        start = _check_field(problems, where, "start_utc", _block_start, row["start_utc"])
+        kp = _check_field(problems, where, "kp", parse_kp, row["kp"])
+        sd = _check_field(problems, where, "kp_sd", _kp_sd, row.get("kp_sd", ""))
+        if len(problems) > before:
+            continue
+        if start in first_line:
+            problems.add(
+                f"{where}, start_utc: block {start:%Y-%m-%dT%H:%MZ} is also on line "
+                f"{first_line[start]}; give each block once"
+            )
+            continue
+        first_line[start] = line
+        starts.append(start)
+        kps.append(kp)
+        sds.append(sd)
+    if problems:
+        return None
+    frame = pd.DataFrame({"start_utc": _utc_column(starts), "kp": np.array(kps, dtype=float),
+                          "kp_sd": np.array(sds, dtype=float)})
+    return frame.sort_values("start_utc", kind="stable").reset_index(drop=True)
+
+
+def _load_clouds(path, label, site_names, problems: ProblemList):
+    import pandas as pd
+
+    text = _read_text(path, label, problems)
+    if text is None:
+        return None
+    names, times, clouds = [], [], []
+    unknown = {}  # site name -> (first line, rows)
+    first_line = {}
+    for line, row in _read_csv_rows(text, label, "clouds", problems):
+        where = f"{label} line {line}"
+        before = len(problems)
+        name = _check_field(problems, where, "site", _text, row["site"])
+        when = _check_field(problems, where, "time_utc", parse_utc, row["time_utc"])
+        cloud = _check_field(problems, where, "cloud_pct", _csv_number(0, 100, "%"),
+                             row["cloud_pct"])
+        if name is not None and site_names is not None and name not in site_names:
+            first, count = unknown.get(name, (line, 0))
+            unknown[name] = (first, count + 1)
+            continue
+        if len(problems) > before:
+            continue
+        if (name, when) in first_line:
+            problems.add(
+                f"{where}, time_utc: {name} at {when:%Y-%m-%dT%H:%MZ} is also on line "
+                f"{first_line[(name, when)]}; give each hour once"
+            )
+            continue
+        first_line[(name, when)] = line
+        names.append(name)
+        times.append(when)
+        clouds.append(cloud)
+    for name, (first, count) in unknown.items():
+        listed = sorted(site_names)
+        shown = ", ".join(listed[:12]) + (", ..." if len(listed) > 12 else "")
+        problems.add(
+            f"{label} line {first}, site: {name!r} is not a site in {FILE_NAMES['sites']} "
+            f"({count} row{'s' if count > 1 else ''}); known sites: {shown}"
+        )
+    if problems:
+        return None
+    frame = pd.DataFrame({"site": pd.Series(names, dtype=object), "time_utc": _utc_column(times),
+                          "cloud_pct": np.array(clouds, dtype=float)})
+    return frame.sort_values(["site", "time_utc"], kind="stable").reset_index(drop=True)
+
+
+# ---------------------------------------------------------------------------------------
+# The folder
+# ---------------------------------------------------------------------------------------
+
+
+def _folder(path) -> Path:
+    folder = Path(path).expanduser()
+    if not folder.exists():
+        raise InputError(
+            f"{folder}: folder not found; give the workspace folder that holds "
+            "operator.toml, sites.geojson and trips.csv"
+        )
+    if not folder.is_dir():
+        raise InputError(
+            f"{folder}: is a file, not a folder; give the workspace folder that holds it"
+        )
+    return folder
+
+
+def _find_files(folder: Path) -> tuple[dict, list]:
+    """Role -> path of the files present, and the problems for required ones missing."""
+    found, missing = {}, []
+    for role in ("operator", "trips", "activity", "clouds"):
+        candidate = folder / FILE_NAMES[role]
+        if candidate.is_file():
+            found[role] = candidate
+        elif role in ("operator", "trips"):
+            missing.append(f"{candidate}: not found; every workspace needs {FILE_NAMES[role]}")
+    for role in ("sites", "sites_gpkg"):
+        candidate = folder / FILE_NAMES[role]
+        if candidate.is_file():
+            found["sites"] = candidate
+            break
+    else:
+        missing.append(
+            f"{folder / FILE_NAMES['sites']}: not found; give the sites as sites.geojson "
+            "(or sites.gpkg)"
+        )
+    return found, missing
+
+
+def load_workspace(path) -> Workspace:
+    """Read and check every file of a workspace folder.
+
+    Parameters
+    ----------
+    path : str or Path
+        The folder holding operator.toml, sites.geojson (or sites.gpkg), trips.csv and,
+        optionally, activity.csv and clouds.csv.
+
+    Returns
+    -------
+    Workspace
+        ``operator.settings`` is the whole operator.toml as a dict (later stages read their
+        own tables, e.g. ["activity"], ["chance"]). ``activity`` and ``clouds`` are pandas
+        DataFrames with aware UTC times; a missing optional file gives an empty frame and a
+        line in ``warnings``.
+
+    Raises
+    ------
+    InputError
+        One line per problem, naming the file, the CSV line (the header is line 1) or the
+        GeoJSON feature (counted from 1, with its name), the field and what is allowed;
+        all problems of a file are reported together (at most ProblemList.LIMIT each).
+        The files are only read, never changed.
+
+    Notes
+    -----
+    Times in the files are ISO 8601; "Z" or an offset is honoured and a time without a
+    zone is taken as UTC. Dates in trips.csv are local calendar dates; ``blocked`` dates
+    outside the stay are errors (a typo there would leave the intended night unblocked).
+    """
+    folder = _folder(path)
+    found, missing = _find_files(folder)
+    if missing:
+        raise InputError(missing)
+    lines: list[str] = []
+    warnings: list[str] = []
+
+    def step(role, loader, *args):
+        problems = ProblemList()
+        result = loader(found[role], str(found[role]), *args, problems)
+        try:
+            problems.raise_if_any()
+        except InputError as exc:
+            lines.extend(exc.problems)
+        return result
+
+    operator = step("operator", _load_operator)
+    sites = step("sites", _load_sites)
+    trips = step("trips", lambda p, label, probs: _load_trips(p, label, sites, probs, warnings))
+    site_names = None if sites is None else {s.name for s in sites}
+    activity = clouds = None
+    if "activity" in found:
+        activity = step("activity", _load_activity)
+    else:
+        warnings.append(f"{folder / FILE_NAMES['activity']}: not found; no Kp forecast, "
+                        "chances come from climatology")
+    if "clouds" in found:
+        clouds = step("clouds", lambda p, label, probs: _load_clouds(p, label, site_names, probs))
+    else:
+        warnings.append(f"{folder / FILE_NAMES['clouds']}: not found; no cloud forecast, "
+                        "chances use each site's monthly clear-sky fraction")
+    if lines:
+        raise InputError(lines)
+    return Workspace(
+        path=folder,
+        operator=operator,
+        sites=sites,
+        trips=trips,
+        activity=activity if activity is not None else _empty_activity(),
+        clouds=clouds if clouds is not None else _empty_clouds(),
+        files=dict(found),
+        warnings=warnings,
+    )

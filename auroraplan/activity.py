@@ -1,0 +1,282 @@
+"""How likely geomagnetic activity reaches the Kp a site needs, from a 3-hourly Kp forecast."""
+
+from __future__ import annotations
+
+import datetime as dt
+import math
+import re
+from dataclasses import dataclass
+
+import numpy as np
+
+BLOCK_HOURS = 3
+"""Kp is defined for the eight 3-hour UT intervals of a day (Bartels et al., 1939)."""
+
+KP_MAX = 9.0
+
+KP_THIRDS = {"-": -1.0 / 3.0, "o": 0.0, "+": 1.0 / 3.0}
+"""Offsets of the thirds notation of the Kp index (Bartels et al., 1939; GFZ Potsdam):
+"5-" is 4 2/3, "5o" is 5 and "5+" is 5 1/3. The scale runs 0o, 0+, 1-, ... 9-, 9o,
+so "0-" and "9+" do not exist."""
+
+G_SCALE_KP = {"G1": 5.0, "G2": 6.0, "G3": 7.0, "G4": 8.0, "G5": 9.0}
+"""NOAA Space Weather Scales, geomagnetic storms: the Kp that each level starts at
+(G1 = Kp 5, G2 = Kp 6, G3 = Kp 7, G4 = Kp 8, G5 = Kp 9)."""
+
+_THIRDS_RE = re.compile(r"^([0-9])\s*([-+oO\u2212])$")
+
+KP_ALLOWED = (
+    "give a Kp from 0 to 9 as a number (4.33), in thirds (4-, 4o, 4+; 0o to 9o) "
+    "or a NOAA storm level G1 to G5"
+)
+
+
+def parse_kp(text) -> float:
+    """Read one Kp value as written in a forecast.
+
+    Parameters
+    ----------
+    text : str or float
+        A number from 0 to 9 ("4", "4.33"), the thirds notation ("4-", "4o", "4+";
+        the unicode minus sign is accepted too) or a NOAA G-scale level ("G1" to "G5").
+
+    Returns
+    -------
+    float
+        Kp, 0 to 9. Thirds are exact: "4-" is 3.667, "4+" is 4.333. A G level gives the
+        Kp at which that level starts.
+
+    Raises
+    ------
+    ValueError
+        With a message saying what is allowed.
+
+    References
+    ----------
+    Bartels, J., Heck, N. H. & Johnston, H. F. (1939), The three-hour-range index
+    measuring geomagnetic activity, Terr. Magn. Atmos. Electr. 44, 411-454.
+    NOAA Space Weather Prediction Center, NOAA Space Weather Scales (geomagnetic storms).
+    """
+    raw = str(text).strip()
+    if not raw:
+        raise ValueError(f"empty; {KP_ALLOWED}")
+    g_level = G_SCALE_KP.get(raw.upper())
+    if g_level is not None:
+        return g_level
+    thirds = _THIRDS_RE.match(raw)
+    if thirds:
+        base = int(thirds.group(1))
+        sign = thirds.group(2).replace("\u2212", "-").lower()
+        value = base + KP_THIRDS[sign]
+        if value < 0 or value > KP_MAX:
+            raise ValueError(f"{raw!r} is not on the Kp scale (0o to 9o); {KP_ALLOWED}")
+        return value
+    try:
+        value = float(raw)
+    except ValueError:
+        raise ValueError(f"{raw!r} is not a Kp value; {KP_ALLOWED}") from None
+    if not (math.isfinite(value) and 0.0 <= value <= KP_MAX):
+        raise ValueError(f"{raw!r} is outside 0 to 9; {KP_ALLOWED}")
+    return value
+
+
+# The spread of a Kp forecast. The numbers are common practice, no source: about half a Kp
+# unit for the next block, growing over the three days of an outlook. No published
+# verification found gives the Kp error by lead time as a number to copy: NOAA SWPC's
+# verification pages plot the error of its 1-3 day maximum-Kp forecasts, and Sharpe &
+# Murray (2017) verify storm probabilities (forecasts over-predict storms); both are why
+# the spread is a setting in operator.toml rather than a constant.
+SPREAD_DEFAULTS = {"sd0": 0.5, "rate_per_day": 0.4, "sd_max": 2.0}
+SPREAD_LIMITS = {"sd0": (0.0, 3.0), "rate_per_day": (0.0, 3.0), "sd_max": (0.1, 5.0)}
+"""Allowed ranges of the operator.toml [activity] settings (Kp units; per day)."""
+
+
+@dataclass(frozen=True)
+class ForecastSpread:
+    """How uncertain a Kp forecast is: kp_sd = sd0 + rate_per_day * lead_days, at most sd_max.
+
+    ``issued_utc`` is when the forecast was made (numpy datetime64, UTC); None means the
+    start of the forecast's first block.
+    """
+
+    sd0: float = SPREAD_DEFAULTS["sd0"]
+    rate_per_day: float = SPREAD_DEFAULTS["rate_per_day"]
+    sd_max: float = SPREAD_DEFAULTS["sd_max"]
+    issued_utc: np.datetime64 | None = None
+
+    @classmethod
+    def from_table(cls, table) -> ForecastSpread:
+        """Settings from the [activity] table of operator.toml (a dict; missing keys default).
+
+        A dict holding a whole operator.toml (with an "activity" table) is accepted too.
+        Values are expected to be checked already (workspace loader); this only converts.
+        """
+        if table is None:
+            return cls()
+        if isinstance(table, cls):
+            return table
+        if isinstance(table.get("activity"), dict):
+            table = table["activity"]
+        issued = table.get("issued_utc")
+        return cls(
+            sd0=float(table.get("sd0", SPREAD_DEFAULTS["sd0"])),
+            rate_per_day=float(table.get("rate_per_day", SPREAD_DEFAULTS["rate_per_day"])),
+            sd_max=float(table.get("sd_max", SPREAD_DEFAULTS["sd_max"])),
+            issued_utc=None if issued is None else utc_datetime64([issued])[0],
+        )
+
+
+def kp_spread(lead_days, spread: ForecastSpread):
+    """Standard deviation of the forecast Kp at a lead time.
+
+    Parameters
+    ----------
+    lead_days : array_like
+        Time from the forecast's issue to the block's start, days. Negative leads (blocks
+        before the issue time) count as 0.
+    spread : ForecastSpread
+
+    Returns
+    -------
+    numpy.ndarray
+        kp_sd = min(sd0 + rate_per_day * lead_days, sd_max), Kp units.
+
+    References
+    ----------
+    Linear growth with a cap and the default numbers: common practice, no source.
+    Sharpe, M. A. & Murray, S. A. (2017), Verification of space weather forecasts issued by
+    the Met Office Space Weather Operations Centre, Space Weather 15, 1383-1395 (skill of
+    multi-day geomagnetic storm forecasts, for context).
+    """
+    lead = np.maximum(np.asarray(lead_days, dtype=float), 0.0)
+    return np.minimum(spread.sd0 + spread.rate_per_day * lead, spread.sd_max)
+
+
+def utc_datetime64(values) -> np.ndarray:
+    """UTC times as numpy datetime64[s], from numpy, pandas (aware or naive) or datetime.
+
+    Naive times are taken as UTC; aware ones are converted.
+    """
+    tz = getattr(getattr(values, "dt", values), "tz", None)
+    if tz is not None:
+        import pandas as pd
+
+        index = pd.DatetimeIndex(values).tz_convert("UTC").tz_localize(None)
+        return index.to_numpy().astype("datetime64[s]")
+    arr = np.asarray(values)
+    if arr.dtype.kind == "M":
+        return arr.astype("datetime64[s]")
+    flat = [_one_utc(v) for v in arr.ravel()]
+    return np.array(flat, dtype="datetime64[s]").reshape(arr.shape)
+
+
+def _one_utc(value) -> np.datetime64:
+    if isinstance(value, str):
+        value = dt.datetime.fromisoformat(value.strip().replace("Z", "+00:00"))
+    if isinstance(value, dt.datetime):
+        if value.tzinfo is not None:
+            value = value.astimezone(dt.UTC).replace(tzinfo=None)
+        return np.datetime64(value, "s")
+    return np.datetime64(value, "s")
+
+
+def forecast_at(activity_df, times_utc, settings=None):
+    """Forecast Kp and its spread at given times.
+
+    Parameters
+    ----------
+    activity_df : pandas.DataFrame
+        Columns ``start_utc`` (UTC), ``kp`` (float) and optionally ``kp_sd`` (float, NaN =
+        use the spread rule), one row per 3-hour block, as read by ``load_workspace``.
+    times_utc : array_like of datetime64, shape (T,)
+        UTC times.
+    settings : ForecastSpread, dict or None
+        The spread rule; a dict is the [activity] table of operator.toml. None = defaults.
+
+    Returns
+    -------
+    kp_mean : numpy.ndarray (T,)
+        Kp of the block holding each time (a time t is in a block when
+        start <= t < start + 3 h); NaN where no block covers the time.
+    kp_sd : numpy.ndarray (T,)
+        The explicit ``kp_sd`` of the block if given, else ``kp_spread`` at the lead time of
+        the block's start; NaN where not covered.
+    covered : numpy.ndarray of bool (T,)
+        False where the forecast says nothing. Such times are never treated as quiet: the
+        caller falls back to climatology.
+
+    References
+    ----------
+    Bartels et al. (1939) for the 3-hour blocks; see ``kp_spread`` for the spread rule.
+    """
+    times = utc_datetime64(times_utc).astype("int64")
+    spread = ForecastSpread.from_table(settings)
+    shape = times.shape
+    nan = np.full(shape, np.nan)
+    if activity_df is None or len(activity_df) == 0:
+        return nan, nan.copy(), np.zeros(shape, dtype=bool)
+
+    starts = utc_datetime64(activity_df["start_utc"]).astype("int64")
+    order = np.argsort(starts, kind="stable")
+    starts = starts[order]
+    kp = np.asarray(activity_df["kp"], dtype=float)[order]
+    if "kp_sd" in activity_df:
+        explicit_sd = np.asarray(activity_df["kp_sd"], dtype=float)[order]
+    else:
+        explicit_sd = np.full(kp.shape, np.nan)
+
+    issued = starts[0] if spread.issued_utc is None else spread.issued_utc.astype("int64")
+    lead_days = (starts - issued) / 86400.0
+    block_sd = np.where(np.isnan(explicit_sd), kp_spread(lead_days, spread), explicit_sd)
+
+    block = np.searchsorted(starts, times, side="right") - 1
+    safe = np.clip(block, 0, len(starts) - 1)
+    covered = (block >= 0) & (times < starts[safe] + BLOCK_HOURS * 3600)
+    kp_mean = np.where(covered, kp[safe], np.nan)
+    kp_sd = np.where(covered, block_sd[safe], np.nan)
+    return kp_mean, kp_sd, covered
+
+
+def prob_kp_at_least(kp_needed, kp_mean, kp_sd):
+    """Chance that the true Kp reaches the Kp a site needs.
+
+    The true Kp is taken as normally distributed about the forecast:
+    P = Phi((kp_mean - kp_needed) / kp_sd), with Phi the standard normal distribution
+    function (``scipy.special.ndtr``). The normal error model ignores that Kp is bounded
+    to 0-9 and quantised in thirds; it is the usual way to turn a forecast and its spread
+    into a probability (common practice, no source).
+
+    Parameters
+    ----------
+    kp_needed : array_like (N, T)
+        Kp needed per site and time; ``inf`` means not reachable.
+    kp_mean : array_like (T,)
+        Forecast Kp; NaN where there is no forecast.
+    kp_sd : array_like (T,)
+        Spread of the forecast, Kp units. Zero means certain: P is 1 when the forecast
+        reaches the need and 0 otherwise.
+
+    Returns
+    -------
+    numpy.ndarray (N, T)
+        Probability 0-1; NaN where ``kp_mean`` is NaN, except 0 where ``kp_needed`` is inf.
+
+    References
+    ----------
+    Wilks, D. S. (2011), Statistical Methods in the Atmospheric Sciences, 3rd ed.,
+    Academic Press, ch. 4 (the Gaussian distribution).
+    """
+    from scipy.special import ndtr
+
+    needed = np.asarray(kp_needed, dtype=float)
+    mean = np.broadcast_to(np.asarray(kp_mean, dtype=float), needed.shape)
+    sd = np.broadcast_to(np.asarray(kp_sd, dtype=float), needed.shape)
+    margin = mean - needed
+    with np.errstate(divide="ignore", invalid="ignore"):
+        z = margin / sd
+    certain = np.where(margin >= 0, 1.0, 0.0)
+    p = np.where(sd > 0, ndtr(z), certain)
+    p = np.where(np.isnan(mean) | np.isnan(sd), np.nan, p)
+    # an unreachable need stays unreachable with or without a forecast
+    p = np.where(np.isposinf(needed), 0.0, p)
+    return np.where(np.isneginf(needed), 1.0, p)

@@ -1,0 +1,129 @@
+"""P(clear sky) per site: hourly cloud forecast, else the site's month, else a default."""
+
+import numpy as np
+import pandas as pd
+import pytest
+
+from auroraplan.weather import DEFAULT_CLEAR, clear_probability, cloud_at, local_month_index
+from auroraplan.workspace import Site
+
+JANUARY = (0.25, 0.3, 0.35, 0.4, 0.35, 0.3, 0.25, 0.25, 0.3, 0.3, 0.25, 0.2)
+
+
+def site(name, lon=19.0, clear_by_month=JANUARY):
+    return Site(name=name, lat=69.6, lon=lon, clear_by_month=clear_by_month)
+
+
+def clouds(rows):
+    return pd.DataFrame({
+        "site": [r[0] for r in rows],
+        "time_utc": pd.to_datetime([r[1] for r in rows], utc=True),
+        "cloud_pct": [float(r[2]) for r in rows],
+    })
+
+
+def utc(*texts):
+    return np.array(texts, dtype="datetime64[s]")
+
+
+def seconds(*texts):
+    return utc(*texts).astype(np.int64)
+
+
+# --- interpolation in time, hand-checked -------------------------------------------------
+
+
+def test_cloud_between_two_hours_is_linear():
+    hours = seconds("2027-01-12T10:00", "2027-01-12T11:00")
+    got = cloud_at(seconds("2027-01-12T10:00", "2027-01-12T10:15", "2027-01-12T10:40"),
+                   hours, np.array([40.0, 80.0]))
+    # by hand: 40 + 40 * 15/60 = 50; 40 + 40 * 40/60 = 66.67
+    np.testing.assert_allclose(got, [40.0, 50.0, 200 / 3])
+
+
+def test_cloud_is_held_at_most_an_hour_past_either_end_never_sloped():
+    hours = seconds("2027-01-12T10:00", "2027-01-12T11:00")
+    got = cloud_at(seconds("2027-01-12T08:59", "2027-01-12T09:30", "2027-01-12T11:30",
+                           "2027-01-12T12:00", "2027-01-12T12:01"),
+                   hours, np.array([40.0, 80.0]))
+    assert np.isnan(got[0]) and np.isnan(got[4])
+    np.testing.assert_allclose(got[1:4], [40.0, 80.0, 80.0])
+
+
+def test_a_long_gap_is_not_bridged_in_its_middle():
+    hours = seconds("2027-01-12T10:00", "2027-01-12T13:00")
+    got = cloud_at(seconds("2027-01-12T11:00", "2027-01-12T11:30", "2027-01-12T12:00"),
+                   hours, np.array([10.0, 70.0]))
+    # 11:00 is an hour from 10:00: 10 + 60 * 1/3 = 30; 11:30 is 1.5 h from both: unknown
+    assert got[0] == pytest.approx(30.0)
+    assert np.isnan(got[1])
+    assert got[2] == pytest.approx(50.0)
+
+
+def test_clear_chance_is_the_cloud_free_fraction():
+    sites = [site("Open Fell")]
+    df = clouds([("Open Fell", "2027-01-12T18:00Z", 20), ("Open Fell", "2027-01-12T19:00Z", 60)])
+    p, cloud, warnings = clear_probability(sites, df, utc("2027-01-12T18:30"))
+    assert cloud[0, 0] == pytest.approx(40.0)
+    assert p[0, 0] == pytest.approx(0.6)
+    assert warnings == []
+
+
+# --- the fallback chain ------------------------------------------------------------------
+
+
+def test_without_forecast_the_sites_month_is_used_then_the_default_with_a_warning():
+    sites = [site("Forecast Point"), site("Climate Only"), site("Unknown Sky", clear_by_month=None)]
+    df = clouds([("Forecast Point", "2027-01-12T18:00Z", 90),
+                 ("Forecast Point", "2027-01-12T19:00Z", 90)])
+    times = utc("2027-01-12T18:00", "2027-01-12T23:00")
+    p, cloud, warnings = clear_probability(sites, df, times)
+    assert p.shape == cloud.shape == (3, 2)
+    np.testing.assert_allclose(p[0], [0.1, JANUARY[0]])  # forecast, then past its reach
+    np.testing.assert_allclose(p[1], [JANUARY[0], JANUARY[0]])
+    np.testing.assert_allclose(p[2], [DEFAULT_CLEAR, DEFAULT_CLEAR])
+    assert np.isnan(cloud[1:]).all() and np.isnan(cloud[0, 1])
+    assert len(warnings) == 1 and "'Unknown Sky'" in warnings[0]
+
+
+def test_a_site_with_a_forecast_everywhere_needs_no_climatology():
+    sites = [site("Covered", clear_by_month=None)]
+    df = clouds([("Covered", "2027-01-12T18:00Z", 30), ("Covered", "2027-01-12T19:00Z", 30)])
+    p, _, warnings = clear_probability(sites, df, utc("2027-01-12T18:10", "2027-01-12T18:50"))
+    np.testing.assert_allclose(p, [[0.7, 0.7]])
+    assert warnings == []
+
+
+def test_climatology_follows_the_local_month_not_the_utc_month():
+    # 31 Jan 23:30 UTC is 1 Feb 00:30 in Oslo (UTC+1 in winter; IANA tz database)
+    times = utc("2027-01-31T22:30", "2027-01-31T23:30")
+    sites = [site("Fjord", lon=19.0)]
+    p, _, _ = clear_probability(sites, None, times, tz="Europe/Oslo")
+    np.testing.assert_allclose(p, [[JANUARY[0], JANUARY[1]]])
+    # without a zone: mean solar time, 19 E is UTC + 1 h 16 min: same months here
+    p_solar, _, _ = clear_probability(sites, None, times)
+    np.testing.assert_allclose(p_solar, p)
+
+
+def test_local_month_at_a_western_longitude():
+    # 1 Feb 03:00 UTC at 150 W is 31 Jan 17:00 mean solar time
+    months = local_month_index([-150.0, 0.0], utc("2027-02-01T03:00"))
+    assert months.tolist() == [[0], [1]]
+
+
+def test_demo_storm_night_is_clearer_inland(demo_dir):
+    from auroraplan.workspace import load_workspace
+
+    ws = load_workspace(demo_dir)
+    times = np.arange(np.datetime64("2027-01-12T19:00"), np.datetime64("2027-01-13T03:00"),
+                      np.timedelta64(10, "m")).astype("datetime64[s]")
+    p, cloud, warnings = clear_probability(ws.sites, ws.clouds, times, tz=ws.operator.timezone)
+    assert not np.isnan(cloud).any() and warnings == []
+    by_name = {s.name: i for i, s in enumerate(ws.sites)}
+    assert p[by_name["Delta Flats"]].mean() > 0.7
+    assert p[by_name["Sound Bay"]].mean() < 0.2
+    # every value lies between two forecast hours of that site
+    raw = ws.clouds[ws.clouds.site == "Delta Flats"].set_index("time_utc")["cloud_pct"]
+    at_2210 = p[by_name["Delta Flats"], 19]  # 22:10Z
+    lo, hi = sorted(raw[["2027-01-12T22:00Z", "2027-01-12T23:00Z"]].to_numpy())
+    assert 1 - hi / 100 <= at_2210 <= 1 - lo / 100

@@ -1,0 +1,453 @@
+"""Reading the operator's folder: the demo loads, and every broken file gets a clear line."""
+
+import datetime as dt
+import hashlib
+import json
+
+import numpy as np
+import pandas as pd
+import pytest
+from pyproj import Geod
+
+from auroraplan.errors import InputError, ProblemList
+from auroraplan.workspace import load_workspace
+
+WGS84 = Geod(ellps="WGS84")  # pyproj: geodesic distances, an outside reference
+
+
+def horizon_elevation(site, azimuth_deg):
+    """Horizon elevation of a site at given azimuths (linear between the polyline points)."""
+    if site.horizon is None:
+        return np.zeros_like(np.asarray(azimuth_deg, dtype=float))
+    return np.interp(azimuth_deg, site.horizon[:, 0], site.horizon[:, 1])
+
+
+def distance_km(a, b):
+    return WGS84.inv(a.lon, a.lat, b.lon, b.lat)[2] / 1000.0
+
+
+def fingerprint(folder):
+    return {p.name: hashlib.sha256(p.read_bytes()).hexdigest() for p in sorted(folder.iterdir())}
+
+
+def problems_after(folder):
+    """Load a broken workspace; return the problem lines, checking the files are untouched."""
+    before = fingerprint(folder)
+    with pytest.raises(InputError) as caught:
+        load_workspace(folder)
+    assert fingerprint(folder) == before, "the loader must never change the user's files"
+    for line in caught.value.problems:
+        assert "\n" not in line
+    return caught.value.problems
+
+
+def one_problem(folder, *fragments):
+    """Exactly one problem line, holding every fragment (file, row or feature, field, allowed)."""
+    lines = problems_after(folder)
+    assert len(lines) == 1, lines
+    for fragment in fragments:
+        assert fragment in lines[0], (fragment, lines[0])
+    return lines[0]
+
+
+def edit_csv(path, line_no, column, value):
+    """Set one field of a CSV file; line numbers as an editor shows them (header = 1)."""
+    lines = path.read_text(encoding="utf-8").splitlines()
+    header = lines[0].split(",")
+    fields = lines[line_no - 1].split(",")
+    fields[header.index(column)] = value
+    lines[line_no - 1] = ",".join(fields)
+    path.write_text("\n".join(lines) + "\n", encoding="utf-8")
+
+
+def edit_sites(folder, change):
+    path = folder / "sites.geojson"
+    doc = json.loads(path.read_text(encoding="utf-8"))
+    change(doc["features"])
+    path.write_text(json.dumps(doc), encoding="utf-8")
+
+
+def edit_toml(folder, old, new):
+    path = folder / "operator.toml"
+    text = path.read_text(encoding="utf-8")
+    assert old in text
+    path.write_text(text.replace(old, new), encoding="utf-8")
+
+
+# --- the demo workspace ------------------------------------------------------------------
+
+
+@pytest.fixture(scope="module")
+def demo():
+    from pathlib import Path
+
+    return load_workspace(Path(__file__).resolve().parents[1] / "demo_sites")
+
+
+def test_demo_loads_with_expected_counts_and_types(demo):
+    assert demo.operator.name == "Polar Lantern Excursions"
+    assert demo.operator.timezone == "Europe/Oslo"
+    assert demo.operator.vehicles == 2
+    assert demo.operator.darkness == "nautical"
+    assert demo.operator.oval_model == "starkov1994"
+    assert len(demo.sites) == 14
+    assert len({s.name for s in demo.sites}) == 14
+    assert sum(s.closed for s in demo.sites) == 1
+    assert len(demo.trips) == 6
+    assert all(isinstance(t.arrive, dt.date) for t in demo.trips)
+    assert len(demo.activity) == 32  # 4 days x 8 blocks
+    assert str(demo.activity["start_utc"].dt.tz) == "UTC"
+    assert len(demo.clouds) == 14 * 73  # hourly, 11 Jan 12Z to 14 Jan 12Z inclusive
+    assert demo.warnings == []
+
+
+def test_demo_sites_lie_around_69_to_70_north_in_northern_scandinavia(demo):
+    lats = np.array([s.lat for s in demo.sites])
+    lons = np.array([s.lon for s in demo.sites])
+    assert lats.min() > 68.9 and lats.max() < 70.1
+    assert lons.min() > 17.5 and lons.max() < 21.5
+    drives = [s.drive_min for s in demo.sites]
+    caps = [s.capacity for s in demo.sites]
+    assert min(drives) <= 15 and max(drives) >= 120
+    assert min(caps) <= 8 and max(caps) >= 50
+
+
+def test_demo_has_a_ridge_site_and_an_open_neighbour_within_5_km(demo):
+    by_name = {s.name: s for s in demo.sites}
+    ridge, flat = by_name["Ridgeback Hollow"], by_name["Delta Flats"]
+    north = np.r_[np.arange(300, 360, 5), np.arange(0, 61, 5)]
+    assert horizon_elevation(ridge, north).min() >= 14.0
+    assert horizon_elevation(flat, np.arange(0, 361, 5)).max() <= 2.0
+    assert distance_km(ridge, flat) < 5.0  # pyproj geodesic
+    assert "Delta Flats" in ridge.notes
+
+
+def test_demo_has_a_site_with_open_sea_to_the_north(demo):
+    beach = {s.name: s for s in demo.sites}["Northgate Beach"]
+    north = np.r_[np.arange(315, 360, 5), np.arange(0, 46, 5)]
+    assert horizon_elevation(beach, north).max() <= 2.0
+    assert horizon_elevation(beach, [180.0])[0] >= 10.0
+
+
+def test_demo_inland_sites_are_clearer_by_climate_than_the_coast(demo):
+    by_name = {s.name: s for s in demo.sites}
+    assert by_name["Border Lakes"].clear_by_month[0] > by_name["Sound Bay"].clear_by_month[0]
+
+
+def test_demo_forecast_has_a_quiet_stretch_and_a_storm_on_the_evening_of_the_12th(demo):
+    act = demo.activity.set_index("start_utc")["kp"]
+    quiet = act["2027-01-11T00:00Z":"2027-01-11T21:00Z"]
+    storm = act["2027-01-12T18:00Z":"2027-01-13T03:00Z"]
+    assert quiet.max() <= 2.0 and quiet.min() >= 1.0
+    assert storm.min() >= 6.0
+    assert demo.activity["kp_sd"].notna().sum() >= 2
+    assert demo.activity["kp_sd"].isna().sum() > 20
+
+
+def test_demo_storm_night_is_cloudy_on_the_coast_and_clear_inland(demo):
+    clouds = demo.clouds
+    night = clouds[(clouds.time_utc >= "2027-01-12T19:00Z") & (clouds.time_utc <= "2027-01-13T02:00Z")]
+    mean = night.groupby("site")["cloud_pct"].mean()
+    for coastal in ("Sound Bay", "Northgate Beach", "Harbour Steps"):
+        assert mean[coastal] > 80
+    for inland in ("Delta Flats", "Border Lakes", "Eastshore Bench"):
+        assert mean[inland] < 30
+
+
+def test_demo_trips_overlap_on_the_storm_nights(demo):
+    storm_night = dt.date(2027, 1, 12)
+    staying = [t for t in demo.trips if storm_night in t.nights()]
+    assert len(staying) >= 4
+    assert len({t.guests for t in demo.trips}) >= 4
+    assert min(t.guests for t in demo.trips) == 2 and max(t.guests for t in demo.trips) == 20
+    assert any(t.blocked for t in demo.trips)
+
+
+# --- the folder itself -------------------------------------------------------------------
+
+
+def test_missing_folder_is_one_line(tmp_path):
+    with pytest.raises(InputError) as caught:
+        load_workspace(tmp_path / "no_such_workspace")
+    assert len(caught.value.problems) == 1
+    assert "no_such_workspace" in caught.value.problems[0]
+    assert "folder not found" in caught.value.problems[0]
+
+
+def test_missing_required_file_is_named(workspace_copy):
+    (workspace_copy / "trips.csv").unlink()
+    one_problem(workspace_copy, "trips.csv", "not found")
+
+
+def test_missing_optional_files_give_empty_frames_and_warnings(workspace_copy):
+    (workspace_copy / "activity.csv").unlink()
+    (workspace_copy / "clouds.csv").unlink()
+    ws = load_workspace(workspace_copy)
+    assert len(ws.activity) == 0 and list(ws.activity.columns) == ["start_utc", "kp", "kp_sd"]
+    assert len(ws.clouds) == 0 and list(ws.clouds.columns) == ["site", "time_utc", "cloud_pct"]
+    assert any("activity.csv" in w for w in ws.warnings)
+    assert any("clouds.csv" in w for w in ws.warnings)
+
+
+def test_a_file_that_is_not_utf8(workspace_copy):
+    path = workspace_copy / "trips.csv"
+    text = path.read_text(encoding="utf-8") + "T09,Søndre ski club,4,2027-01-18,2027-01-20,1,\n"
+    path.write_bytes(text.encode("latin-1"))
+    one_problem(workspace_copy, "trips.csv line 8", "not UTF-8")
+
+
+def test_an_empty_file(workspace_copy):
+    (workspace_copy / "clouds.csv").write_text("", encoding="utf-8")
+    one_problem(workspace_copy, "clouds.csv", "empty")
+
+
+def test_a_missing_required_column(workspace_copy):
+    path = workspace_copy / "trips.csv"
+    path.write_text(path.read_text(encoding="utf-8").replace("guests,", "people,", 1),
+                    encoding="utf-8")
+    one_problem(workspace_copy, "trips.csv line 1", "guests", "trip, group, guests")
+
+
+# --- operator.toml -----------------------------------------------------------------------
+
+
+def test_unknown_time_zone(workspace_copy):
+    edit_toml(workspace_copy, 'timezone = "Europe/Oslo"', 'timezone = "Europe/Tromso"')
+    one_problem(workspace_copy, "operator.toml [base] timezone", "Europe/Tromso", "IANA")
+
+
+def test_unknown_darkness_lists_the_levels(workspace_copy):
+    edit_toml(workspace_copy, 'darkness = "nautical"', 'darkness = "pitch"')
+    one_problem(workspace_copy, "operator.toml [viewing] darkness", "'pitch'",
+                "civil, nautical, astronomical")
+
+
+def test_unknown_oval_model_lists_the_models(workspace_copy):
+    edit_toml(workspace_copy, 'oval_model = "starkov1994"', 'oval_model = "feldstein"')
+    one_problem(workspace_copy, "[viewing] oval_model", "starkov1994, gussenhoven1983")
+
+
+def test_misspelt_key_is_reported_not_ignored(workspace_copy):
+    edit_toml(workspace_copy, "darkness =", "darknes =")
+    one_problem(workspace_copy, "[viewing] darknes", "unknown key", "darkness")
+
+
+def test_spread_setting_out_of_range(workspace_copy):
+    edit_toml(workspace_copy, "sd0 = 0.5", "sd0 = -1")
+    one_problem(workspace_copy, "[activity] sd0", "outside")
+
+
+# --- sites.geojson -----------------------------------------------------------------------
+
+
+def test_site_latitude_95(workspace_copy):
+    def change(features):
+        features[2]["geometry"]["coordinates"][1] = 95.0
+
+    edit_sites(workspace_copy, change)
+    one_problem(workspace_copy, "sites.geojson feature 3 'Sound Bay'", "latitude", "-90 to 90")
+
+
+def test_two_sites_with_the_same_name(workspace_copy):
+    def change(features):
+        features[4]["properties"]["name"] = "Sound Bay"
+
+    edit_sites(workspace_copy, change)
+    one_problem(workspace_copy, "feature 5 'Sound Bay', name", "feature 3", "unique")
+
+
+def test_horizon_azimuth_400(workspace_copy):
+    def change(features):
+        features[0]["properties"]["horizon"][2] = [400, 5]
+
+    edit_sites(workspace_copy, change)
+    one_problem(workspace_copy, "feature 1 'Harbour Steps', horizon", "azimuth 400", "0 to 360")
+
+
+def test_horizon_that_is_not_a_list_of_pairs(workspace_copy):
+    def change(features):
+        features[1]["properties"]["horizon"] = [0, 1, 90, 2]
+
+    edit_sites(workspace_copy, change)
+    one_problem(workspace_copy, "feature 2 'Northgate Beach', horizon", "[azimuth, elevation]")
+
+
+def test_site_capacity_must_be_a_whole_number_of_guests(workspace_copy):
+    def change(features):
+        features[5]["properties"]["capacity"] = "twelve"
+
+    edit_sites(workspace_copy, change)
+    one_problem(workspace_copy, "feature 6 'Island Lake', capacity", "not a number")
+
+
+def test_several_site_problems_are_all_reported(workspace_copy):
+    def change(features):
+        features[0]["geometry"]["coordinates"][0] = 200.0
+        features[3]["properties"]["sky_mag"] = 30
+        features[7]["properties"]["clear_by_month"] = [0.3] * 11
+
+    edit_sites(workspace_copy, change)
+    lines = problems_after(workspace_copy)
+    assert len(lines) == 3
+    assert "feature 1" in lines[0] and "longitude" in lines[0]
+    assert "feature 4" in lines[1] and "sky_mag" in lines[1]
+    assert "feature 8" in lines[2] and "clear_by_month" in lines[2]
+
+
+def test_sites_from_a_geopackage_match_the_geojson(workspace_copy, demo):
+    import geopandas
+
+    doc = json.loads((workspace_copy / "sites.geojson").read_text(encoding="utf-8"))
+    for feature in doc["features"]:  # a GeoPackage keeps lists as JSON text
+        props = feature["properties"]
+        props["horizon"] = json.dumps(props["horizon"])
+        props["clear_by_month"] = json.dumps(props["clear_by_month"])
+    frame = geopandas.GeoDataFrame.from_features(doc["features"], crs="EPSG:4326")
+    frame.to_file(workspace_copy / "sites.gpkg", driver="GPKG")
+    (workspace_copy / "sites.geojson").unlink()
+    ws = load_workspace(workspace_copy)
+    assert [s.name for s in ws.sites] == [s.name for s in demo.sites]
+    ridge = {s.name: s for s in ws.sites}["Ridgeback Hollow"]
+    assert ridge.lat == pytest.approx(69.356) and ridge.height_m == pytest.approx(90.0)
+    assert horizon_elevation(ridge, [0.0])[0] == pytest.approx(15.0)
+
+
+# --- trips.csv ---------------------------------------------------------------------------
+
+
+def test_trip_departing_before_it_arrives(workspace_copy):
+    edit_csv(workspace_copy / "trips.csv", 3, "depart", "2027-01-10")
+    one_problem(workspace_copy, "trips.csv line 3, depart", "2027-01-10", "arrive 2027-01-11")
+
+
+def test_trip_departing_the_day_it_arrives(workspace_copy):
+    edit_csv(workspace_copy / "trips.csv", 3, "depart", "2027-01-11")
+    one_problem(workspace_copy, "trips.csv line 3, depart", "not after")
+
+
+def test_trip_with_no_guests(workspace_copy):
+    edit_csv(workspace_copy / "trips.csv", 2, "guests", "0")
+    one_problem(workspace_copy, "trips.csv line 2, guests", "1 to 1000")
+
+
+def test_trip_bigger_than_any_site(workspace_copy):
+    edit_csv(workspace_copy / "trips.csv", 4, "guests", "60")
+    one_problem(workspace_copy, "trips.csv line 4, guests", "largest: 50 at Harbour Steps")
+
+
+def test_blocked_evening_outside_the_stay_is_an_error(workspace_copy):
+    edit_csv(workspace_copy / "trips.csv", 2, "blocked", "2027-01-10;2027-01-20")
+    one_problem(workspace_copy, "trips.csv line 2, blocked", "2027-01-20",
+                "2027-01-09 to 2027-01-14")
+
+
+def test_more_outings_than_free_evenings_is_a_warning(workspace_copy):
+    edit_csv(workspace_copy / "trips.csv", 5, "outings", "3")  # the couple has 2 evenings
+    ws = load_workspace(workspace_copy)
+    assert any("trips.csv line 5" in w and "T04" in w for w in ws.warnings)
+
+
+def test_several_trip_problems_are_all_reported(workspace_copy):
+    path = workspace_copy / "trips.csv"
+    edit_csv(path, 2, "arrive", "9 January")
+    edit_csv(path, 4, "outings", "many")
+    edit_csv(path, 6, "guests", "-3")
+    lines = problems_after(workspace_copy)
+    assert [line.split(",")[0] for line in lines] == [
+        f"{path} line 2", f"{path} line 4", f"{path} line 6"]
+    assert "arrive" in lines[0] and "outings" in lines[1] and "guests" in lines[2]
+
+
+def test_problems_in_different_files_are_reported_together(workspace_copy):
+    edit_csv(workspace_copy / "trips.csv", 2, "guests", "0")
+    edit_csv(workspace_copy / "activity.csv", 3, "kp", "12")
+    lines = problems_after(workspace_copy)
+    assert len(lines) == 2
+    assert "trips.csv line 2" in lines[0] and "activity.csv line 3" in lines[1]
+
+
+def test_problem_list_is_cut_at_its_limit(workspace_copy):
+    path = workspace_copy / "clouds.csv"
+    for line in range(2, 2 + 40):
+        edit_csv(path, line, "cloud_pct", "150")
+    lines = problems_after(workspace_copy)
+    assert len(lines) == ProblemList.LIMIT + 1
+    assert lines[-1] == "... and 10 more problems"
+
+
+# --- activity.csv ------------------------------------------------------------------------
+
+
+def test_kp_12(workspace_copy):
+    edit_csv(workspace_copy / "activity.csv", 2, "kp", "12")
+    one_problem(workspace_copy, "activity.csv line 2, kp", "outside 0 to 9", "G1 to G5")
+
+
+def test_kp_7x(workspace_copy):
+    edit_csv(workspace_copy / "activity.csv", 5, "kp", "7x")
+    one_problem(workspace_copy, "activity.csv line 5, kp", "'7x'", "4-, 4o, 4+")
+
+
+def test_block_time_that_is_not_iso_8601(workspace_copy):
+    edit_csv(workspace_copy / "activity.csv", 4, "start_utc", "11/01/2027 06:00")
+    one_problem(workspace_copy, "activity.csv line 4, start_utc", "ISO 8601", "2027-01-12T18:00Z")
+
+
+def test_block_that_does_not_start_on_a_3_hour_boundary(workspace_copy):
+    edit_csv(workspace_copy / "activity.csv", 4, "start_utc", "2027-01-11T07:00Z")
+    one_problem(workspace_copy, "activity.csv line 4, start_utc", "3-hour")
+
+
+def test_times_with_offsets_are_converted_and_naive_times_are_utc(workspace_copy):
+    path = workspace_copy / "activity.csv"
+    edit_csv(path, 2, "start_utc", "2027-01-11T01:00+01:00")  # = 00:00Z
+    edit_csv(path, 3, "start_utc", "2027-01-11T03:00")  # naive: UTC
+    ws = load_workspace(workspace_copy)
+    starts = ws.activity["start_utc"]
+    assert starts.iloc[0] == pd.Timestamp("2027-01-11T00:00Z")
+    assert starts.iloc[1] == pd.Timestamp("2027-01-11T03:00Z")
+
+
+def test_kp_in_thirds_and_g_scale_are_read(demo):
+    kp = demo.activity.set_index("start_utc")["kp"]
+    assert kp["2027-01-11T00:00Z"] == pytest.approx(5 / 3)  # "2-"
+    assert kp["2027-01-12T18:00Z"] == pytest.approx(6.0)  # "G2", NOAA scales
+    assert kp["2027-01-12T21:00Z"] == pytest.approx(20 / 3)  # "7-"
+
+
+# --- clouds.csv --------------------------------------------------------------------------
+
+
+def test_cloud_150_percent(workspace_copy):
+    edit_csv(workspace_copy / "clouds.csv", 2, "cloud_pct", "150")
+    one_problem(workspace_copy, "clouds.csv line 2, cloud_pct", "0 to 100")
+
+
+def test_cloud_time_that_is_not_iso_8601(workspace_copy):
+    edit_csv(workspace_copy / "clouds.csv", 7, "time_utc", "tomorrow")
+    one_problem(workspace_copy, "clouds.csv line 7, time_utc", "ISO 8601")
+
+
+def test_clouds_for_a_site_that_is_not_in_sites_geojson(workspace_copy):
+    path = workspace_copy / "clouds.csv"
+    for line in (10, 11, 12):
+        edit_csv(path, line, "site", "Sound Bey")
+    one_problem(workspace_copy, "clouds.csv line 10, site", "'Sound Bey'", "3 rows",
+                "Sound Bay")
+
+
+def test_unknown_table_is_reported_with_the_known_ones(workspace_copy):
+    path = workspace_copy / "operator.toml"
+    path.write_text(path.read_text(encoding="utf-8") + "\n[vehicles]\ncount = 3\n",
+                    encoding="utf-8")
+    one_problem(workspace_copy, "operator.toml [vehicles]", "unknown table", "fleet")
+
+
+def test_tables_of_later_stages_pass_through_unchecked(workspace_copy):
+    path = workspace_copy / "operator.toml"
+    path.write_text(path.read_text(encoding="utf-8")
+                    + "\n[chance]\nmoon_beta = 0.5\n[planner]\ndrive_cost_per_min = 0.001\n",
+                    encoding="utf-8")
+    ws = load_workspace(workspace_copy)
+    assert ws.operator.settings["planner"]["drive_cost_per_min"] == 0.001
+    assert ws.operator.settings["chance"]["moon_beta"] == 0.5
