@@ -1,11 +1,89 @@
-"""The `oval` command (not built yet)."""
+"""Auroral oval boundary latitudes by magnetic local time for one Kp, as a table, JSON or a chart."""
 
-from auroraplan.errors import InputError
+import argparse
+
+from auroraplan.commands._common import console, print_json
+
+# Model names, repeated here so that --help stays light (auroraplan.oval needs only numpy,
+# but the command module keeps its imports to the standard library).
+MODEL_NAMES = ("starkov1994", "starkov1994-published", "gussenhoven1983")
+
+
+def kp_value(text: str) -> float:
+    """Kp from 0 to 9 as a decimal (thirds as 4.33 / 4.67)."""
+    try:
+        value = float(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"{text!r} is not a number; give a Kp from 0 to 9") from None
+    if not 0.0 <= value <= 9.0:
+        raise argparse.ArgumentTypeError(f"Kp {text} is outside 0 to 9; give a Kp from 0 to 9")
+    return value
 
 
 def add_arguments(parser):
-    parser.add_argument("rest", nargs="*", help="(not built yet)")
+    parser.add_argument("--kp", type=kp_value, required=True,
+                        help="planetary K index, 0 to 9 (decimals allowed, e.g. 4.33)")
+    parser.add_argument("--model", default="starkov1994",
+                        help=f"oval model: {', '.join(MODEL_NAMES)} (default starkov1994, "
+                        "which keeps moving equatorward above Kp 6)")
+    parser.add_argument("--json", action="store_true", help="print the result as JSON")
+    parser.add_argument("--png", metavar="FILE", help="also draw the oval around the magnetic pole")
+
+
+def oval_report(kp: float, model: str) -> dict:
+    """Boundaries at MLT 0..23 h as a JSON-ready dict."""
+    import numpy as np
+
+    from auroraplan import oval
+
+    mlt = np.arange(24.0)
+    b = oval.boundaries(kp, mlt, model)
+
+    def deg(x):
+        return None if not np.isfinite(x) else round(float(x), 2)
+
+    rows = [
+        {"mlt": int(h), **{name: deg(b[name][i]) for name in oval.BOUNDARY_NAMES}}
+        for i, h in enumerate(mlt)
+    ]
+    return {"model": model, "kp": kp, "storm_handling": oval.STORM_HANDLING[model],
+            "units": "degrees magnetic latitude (AACGM), northern hemisphere; south: same |MLAT|",
+            "boundaries": rows}
 
 
 def run(args):
-    raise InputError("the oval command is not built yet")
+    from auroraplan import oval
+    from auroraplan.outfiles import check_output_path
+
+    oval.check_model(args.model)
+    png_path = check_output_path(args.png) if args.png else None
+    report = oval_report(args.kp, args.model)
+    if png_path is not None:
+        from auroraplan.render.oval_png import write_oval_png
+
+        write_oval_png(png_path, args.kp, args.model)
+    if args.json:
+        print_json(report)
+    else:
+        _print_table(report)
+        if png_path is not None:
+            console().print(f"chart written: {png_path}")
+    return 0
+
+
+def _print_table(report: dict) -> None:
+    from rich.table import Table
+
+    def cell(v):
+        return "—" if v is None else f"{v:.1f}°"
+
+    table = Table(title=f"Oval boundaries at Kp {report['kp']:g} ({report['model']})",
+                  caption="magnetic latitude by magnetic local time (MLT)")
+    for head in ("MLT", "poleward", "equatorward", "diffuse"):
+        table.add_column(head, justify="right")
+    for row in report["boundaries"]:
+        table.add_row(f"{row['mlt']:02d}", cell(row["poleward"]), cell(row["equatorward"]),
+                      cell(row["diffuse"]))
+    out = console()
+    out.print(table)
+    out.print(f"storm handling: {report['storm_handling']}")

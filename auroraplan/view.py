@@ -1,0 +1,623 @@
+"""Can the aurora be seen from a site: line of sight to the oval band, horizon masks, Kp needed.
+
+The band is the discrete oval between its equatorward and poleward edges
+(:mod:`auroraplan.oval`), at the emission height (default 110 km, the lower
+border of typical green aurora). Along the site's own magnetic meridian
+(same AACGM longitude) points of the band are turned back into geographic
+positions with AACGM-v2 at that height and seen from the site on a
+spherical Earth (R = 6371.2 km, the IGRF reference radius): elevation from
+the central angle, azimuth as the great-circle initial bearing (true north).
+A point counts as visible when its elevation exceeds the site's horizon mask
+at that azimuth plus the operator's margin (``min_elevation_deg``).
+
+- A site equatorward of the band looks poleward, at the band's nearest
+  visible part (usually its equatorward edge).
+- A site under the band (equatorward edge <= |MLAT| <= poleward edge) sees it
+  overhead: elevation 90, and we give the magnetic-poleward azimuth (the
+  direction along the magnetic meridian toward the magnetic pole) as the way
+  to face.
+- A site poleward of the band (polar cap) looks equatorward, at the band's
+  poleward edge.
+
+Southern sites use ``|MLAT|`` against the northern boundaries (hemispheric
+symmetry, see :mod:`auroraplan.oval`) and look toward the southern pole.
+
+The geometry of a point on the meridian does not depend on MLT or Kp, only
+on its magnetic latitude. So, per site, we tabulate the clearance above the
+mask on a grid of magnetic latitudes once, and then search Kp for all sites
+and MLTs together with array operations (a coarse Kp grid, then bisection).
+
+References
+----------
+Shepherd (2014), AACGM-v2, J. Geophys. Res. Space Physics 119, 7501.
+Starkov (1994a), Geomagnetism and Aeronomy 34(3), 331-336.
+Spherical-Earth line of sight and great-circle bearing: e.g. Bowditch,
+The American Practical Navigator (NGA Pub. 9), chapter on great-circle
+sailing; the elevation is atan2(r_p cos g - r_s, r_p sin g) for a point at
+radius r_p seen from radius r_s across central angle g.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from auroraplan import magnetic, oval
+from auroraplan.errors import InputError
+
+R_EARTH_KM = 6371.2  # IGRF reference radius, used as a spherical Earth
+MLT_STEP_H = 0.25  # Kp-needed table resolution in MLT (96 columns)
+KP_FINE_STEP = 0.01  # resolution of Kp needed
+KP_COARSE_EVERY = 25  # the first scan looks at every 25th fine Kp (0.25 Kp)
+LAT_STEP_DEG = 0.5  # spacing of band sample points along the magnetic meridian
+MASK_STEP_DEG = 0.5  # horizon masks are resampled on this azimuth grid
+MASK_ELEVATION_RANGE = (-10.0, 90.0)  # allowed horizon elevations, degrees
+SITE_CHUNK = 256  # sites per block in the Kp search (bounds memory)
+NIGHT_MLT = (18.0, 6.0)  # MLT span treated as the night side for the best hour
+
+
+@dataclass
+class KpNeeded:
+    """Kp needed per site and magnetic local time.
+
+    Attributes
+    ----------
+    mlt_h : ndarray (M,)
+        Magnetic local time of each column, 0 to 23.75 h in 15-minute steps.
+    horizon : ndarray (N, M)
+        Least Kp at which some part of the band is above the site's horizon
+        mask plus margin; ``inf`` when not reached by Kp 9.
+    overhead : ndarray (N, M)
+        Least Kp at which the site is under the band; ``inf`` when never.
+    look_azimuth_deg, look_elevation_deg : ndarray (N, M)
+        Where to look at the Kp in ``horizon`` (true bearing, degrees; NaN
+        where ``horizon`` is inf).
+    mlat, mlon : ndarray (N,)
+        AACGM-v2 latitude and longitude of the sites.
+    """
+
+    mlt_h: np.ndarray
+    horizon: np.ndarray
+    overhead: np.ndarray
+    look_azimuth_deg: np.ndarray
+    look_elevation_deg: np.ndarray
+    mlat: np.ndarray
+    mlon: np.ndarray
+    model: str = oval.DEFAULT_MODEL
+    settings: dict = field(default_factory=dict)
+
+
+# --- spherical geometry ---------------------------------------------------------------------
+
+
+def central_angle_and_bearing(lat1, lon1, lat2, lon2):
+    """Central angle (radians) and initial true bearing (degrees) from point 1 to point 2.
+
+    Haversine central angle and the great-circle initial course on a sphere
+    (Bowditch, NGA Pub. 9, great-circle sailing).
+
+    Parameters
+    ----------
+    lat1, lon1, lat2, lon2 : array_like
+        Degrees; broadcast together.
+
+    Returns
+    -------
+    gamma_rad, bearing_deg : ndarray
+    """
+    p1, p2 = np.radians(lat1), np.radians(lat2)
+    dl = np.radians(np.asarray(lon2) - np.asarray(lon1))
+    hav = np.sin((p2 - p1) / 2) ** 2 + np.cos(p1) * np.cos(p2) * np.sin(dl / 2) ** 2
+    gamma = 2.0 * np.arcsin(np.sqrt(np.clip(hav, 0.0, 1.0)))
+    y = np.sin(dl) * np.cos(p2)
+    x = np.cos(p1) * np.sin(p2) - np.sin(p1) * np.cos(p2) * np.cos(dl)
+    bearing = np.mod(np.degrees(np.arctan2(y, x)), 360.0)
+    return gamma, bearing
+
+
+def elevation_deg(gamma_rad, site_height_km, target_height_km):
+    """Elevation of a point at ``target_height_km`` seen across central angle ``gamma_rad``.
+
+    Parameters
+    ----------
+    gamma_rad : array_like
+        Central angle between the site and the point's foot, radians.
+    site_height_km, target_height_km : array_like
+        Heights above the sphere of radius ``R_EARTH_KM``.
+
+    Returns
+    -------
+    ndarray
+        Geometric elevation in degrees (no refraction), 90 straight up.
+    """
+    r_s = R_EARTH_KM + np.asarray(site_height_km, dtype=float)
+    r_p = R_EARTH_KM + np.asarray(target_height_km, dtype=float)
+    return np.degrees(np.arctan2(r_p * np.cos(gamma_rad) - r_s, r_p * np.sin(gamma_rad)))
+
+
+def ground_distance_km(elevation, target_height_km, site_height_km=0.0):
+    """Ground distance to the foot of a point at a height seen at a given elevation.
+
+    Inverse of :func:`elevation_deg`: the angle at the point in the triangle
+    (Earth centre, site, point) is asin(r_s cos(e) / r_p) by the sine rule,
+    so the central angle is 90 - e - that angle.
+
+    Parameters
+    ----------
+    elevation : array_like
+        Elevation in degrees.
+    target_height_km, site_height_km : float
+        Heights above the sphere.
+
+    Returns
+    -------
+    ndarray
+        Distance along the ground in km.
+    """
+    e = np.radians(np.asarray(elevation, dtype=float))
+    r_s = R_EARTH_KM + site_height_km
+    r_p = R_EARTH_KM + target_height_km
+    gamma = np.pi / 2 - e - np.arcsin(r_s * np.cos(e) / r_p)
+    return R_EARTH_KM * gamma
+
+
+# --- horizon masks --------------------------------------------------------------------------
+
+
+def check_horizons(horizons, n: int, names=None) -> list:
+    """Validate per-site horizon masks; one line per bad site.
+
+    Parameters
+    ----------
+    horizons : sequence of (None or array_like (M, 2)) or None
+        ``[azimuth_deg, elevation_deg]`` pairs per site; None = flat horizon.
+    n : int
+        Number of sites.
+    names : sequence of str, optional
+        Site names for the messages.
+
+    Returns
+    -------
+    list of (ndarray (M, 2) or None)
+    """
+    if horizons is None:
+        return [None] * n
+    horizons = list(horizons)
+    if len(horizons) != n:
+        raise InputError(f"horizon masks: got {len(horizons)} for {n} sites; give one per site")
+    out, problems = [], []
+    lo, hi = MASK_ELEVATION_RANGE
+    for i, h in enumerate(horizons):
+        label = f"site {names[i]!r}" if names is not None else f"site #{i + 1}"
+        if h is None:
+            out.append(None)
+            continue
+        try:
+            arr = np.asarray(h, dtype=float)
+        except (TypeError, ValueError):
+            arr = None
+        if arr is None or arr.ndim != 2 or arr.shape[1] != 2 or arr.shape[0] < 1:
+            problems.append(f"{label}: horizon must be a list of [azimuth, elevation] pairs")
+            out.append(None)
+            continue
+        az, el = arr[:, 0], arr[:, 1]
+        if not np.all(np.isfinite(arr)):
+            problems.append(f"{label}: horizon has a value that is not a number")
+        elif np.any((az < 0) | (az > 360)):
+            problems.append(f"{label}: horizon azimuth must be 0 to 360 degrees")
+        elif np.any((el < lo) | (el > hi)):
+            problems.append(f"{label}: horizon elevation must be {lo:g} to {hi:g} degrees")
+        out.append(arr)
+    if problems:
+        raise InputError(problems)
+    return out
+
+
+def horizon_table(horizons: list, n: int) -> np.ndarray:
+    """Horizon masks resampled on a common azimuth grid, all sites at once.
+
+    Elevation at an azimuth is linear interpolation between the mask's
+    points, periodic in azimuth (360 = 0). Sites without a mask get 0.
+
+    Parameters
+    ----------
+    horizons : list of (ndarray (M, 2) or None)
+        Validated masks (see :func:`check_horizons`).
+    n : int
+        Number of sites.
+
+    Returns
+    -------
+    ndarray (N, 360 / MASK_STEP_DEG)
+        Mask elevation in degrees at azimuths 0, MASK_STEP_DEG, ...
+    """
+    grid = np.arange(0.0, 360.0, MASK_STEP_DEG)
+    table = np.zeros((n, grid.size))
+    have = [i for i, h in enumerate(horizons) if h is not None]
+    if not have:
+        return table
+    sizes = np.array([len(horizons[i]) for i in have])
+    pts = np.concatenate([horizons[i] for i in have])
+    site = np.repeat(np.array(have), sizes)
+    az = np.mod(pts[:, 0], 360.0)
+    # Copies one turn either side make every query have neighbours in its own site.
+    az3 = np.concatenate([az - 360.0, az, az + 360.0])
+    el3 = np.tile(pts[:, 1], 3)
+    key = np.tile(site, 3) * 2000.0 + az3 + 500.0
+    order = np.argsort(key, kind="stable")
+    key, el3 = key[order], el3[order]
+    qsite = np.array(have)
+    qkey = (qsite[:, None] * 2000.0 + grid[None, :] + 500.0).ravel()
+    hi = np.clip(np.searchsorted(key, qkey, side="right"), 1, key.size - 1)
+    lo = hi - 1
+    span = key[hi] - key[lo]
+    w = np.where(span > 0, (qkey - key[lo]) / np.where(span > 0, span, 1.0), 0.0)
+    table[qsite] = (el3[lo] + w * (el3[hi] - el3[lo])).reshape(len(have), grid.size)
+    return table
+
+
+def mask_at(table: np.ndarray, azimuth_deg) -> np.ndarray:
+    """Horizon elevation of each site (rows of ``table``) at azimuths (N, ...)."""
+    az = np.asarray(azimuth_deg, dtype=float)
+    n, m = table.shape
+    f = np.mod(az, 360.0).reshape(n, -1) / MASK_STEP_DEG
+    lo = np.floor(f).astype(int) % m
+    hi = (lo + 1) % m
+    w = f - np.floor(f)
+    a = np.take_along_axis(table, lo, axis=1)
+    b = np.take_along_axis(table, hi, axis=1)
+    return (a + w * (b - a)).reshape(az.shape)
+
+
+# --- Kp needed ------------------------------------------------------------------------------
+
+
+def _as_site_arrays(lat, lon, height_m):
+    lat = np.atleast_1d(np.asarray(lat, dtype=float))
+    lon = np.atleast_1d(np.asarray(lon, dtype=float))
+    if lat.shape != lon.shape or lat.ndim != 1:
+        raise InputError("site latitudes and longitudes must be two lists of the same length")
+    if np.any(~np.isfinite(lat) | (np.abs(lat) > 90)) or np.any(~np.isfinite(lon)):
+        raise InputError("site latitude must be -90 to 90 and longitude a number")
+    height = np.broadcast_to(np.asarray(height_m, dtype=float), lat.shape).astype(float)
+    return lat, lon, np.nan_to_num(height)
+
+
+def _discrete_edges(kp, mlt_h, model):
+    b = oval.MODELS[model](kp, mlt_h)
+    return b["equatorward"], b["poleward"]
+
+
+class _Sky:
+    """Clearance above the mask along each site's magnetic meridian, on a latitude grid."""
+
+    def __init__(self, lat, lon, height_km, mlat, mlon, mask, lam, emission_km, margin, when):
+        self.lam0 = lam[0]
+        self.lam = lam
+        hemi = np.where(mlat < 0, -1.0, 1.0)
+        self.m = np.abs(mlat)
+        plat, plon = magnetic.aacgm_to_geo(hemi[:, None] * lam[None, :], mlon[:, None],
+                                           emission_km, when)
+        gamma, az = central_angle_and_bearing(lat[:, None], lon[:, None], plat, plon)
+        el = elevation_deg(gamma, height_km[:, None], emission_km)
+        clear = el - mask_at(mask, np.nan_to_num(az)) - margin
+        self.el = np.where(np.isfinite(el), el, -90.0)
+        self.az = np.where(np.isfinite(az), az, np.nan)
+        self.clear = np.where(np.isfinite(clear), clear, -np.inf)
+        visible = self.clear > 0
+        self.count = np.concatenate(
+            [np.zeros((len(lat), 1), dtype=np.int32), np.cumsum(visible, axis=1, dtype=np.int32)],
+            axis=1,
+        )
+        # Facing the magnetic pole from under the band: bearing to the next point poleward.
+        k = np.clip(np.nan_to_num(np.ceil((self.m - self.lam0) / LAT_STEP_DEG)).astype(int) + 1,
+                    0, lam.size - 1)
+        self.poleward_az = self.az[np.arange(len(lat)), k]
+
+    def _index(self, edge):
+        """Fractional position of latitudes on the grid: (lower index, weight)."""
+        f = np.clip((edge - self.lam0) / LAT_STEP_DEG, 0.0, self.lam.size - 1.0)
+        lo = np.minimum(np.floor(f).astype(np.intp), self.lam.size - 2)
+        return lo, f - lo
+
+    @staticmethod
+    def _pick(values, idx, shared):
+        """values (n, L) at idx: shared by every site (K, M) -> (n, K, M), or per site (n, M)."""
+        if shared:
+            return values[:, idx]
+        return np.take_along_axis(values, idx, axis=1)
+
+    def _interp(self, values, edge, shared=False):
+        lo, w = self._index(edge)
+        a = self._pick(values, lo, shared)
+        return a + w * (self._pick(values, lo + 1, shared) - a)
+
+    def visible(self, rows, eq, pw, shared=False):
+        """Is some part of the band [eq, pw] visible from each site, and is the site under it?
+
+        ``eq`` and ``pw`` are either shared by all sites, shape (K, M), giving
+        (n, K, M) results, or one row per site, shape (n, M).
+        """
+        clear, count = self.clear[rows], self.count[rows]
+        m = self.m[rows].reshape((-1,) + (1,) * (eq.ndim if shared else 1))
+        under = (eq <= m) & (m <= pw)
+        seen = (self._interp(clear, eq, shared) > 0) | (self._interp(clear, pw, shared) > 0)
+        n_lam = self.lam.size
+        a = np.clip(np.floor((eq - self.lam0) / LAT_STEP_DEG).astype(np.intp) + 1, 0, n_lam)
+        b = np.clip(np.ceil((pw - self.lam0) / LAT_STEP_DEG).astype(np.intp), 0, n_lam)
+        inside = (self._pick(count, b, shared) - self._pick(count, a, shared)) > 0
+        return under | seen | (inside & (b > a)), under
+
+    def look(self, rows, eq, pw):
+        """Azimuth and elevation of the band's best-cleared point, (n, M) each."""
+        clear = self.clear[rows]
+        within = (self.lam[None, None, :] > eq[..., None]) & (self.lam[None, None, :] < pw[..., None])
+        inner = np.where(within, clear[:, None, :], -np.inf)
+        k_in = np.argmax(inner, axis=2)
+        c_in = np.take_along_axis(inner, k_in[..., None], axis=2)[..., 0]
+        n_lam = self.lam.size
+        k_e = np.clip(np.rint((eq - self.lam0) / LAT_STEP_DEG).astype(np.intp), 0, n_lam - 1)
+        k_p = np.clip(np.rint((pw - self.lam0) / LAT_STEP_DEG).astype(np.intp), 0, n_lam - 1)
+        choice = np.argmax(np.stack([self._interp(clear, eq), self._interp(clear, pw), c_in]),
+                           axis=0)
+        k = np.choose(choice, [k_e, k_p, k_in])
+        el_rows = self.el[rows]
+        el = np.choose(choice, [self._interp(el_rows, eq), self._interp(el_rows, pw),
+                                np.take_along_axis(el_rows, k, axis=1)])
+        az = np.take_along_axis(self.az[rows], k, axis=1)
+        m = self.m[rows][:, None]
+        under = (eq <= m) & (m <= pw)
+        az = np.where(under, self.poleward_az[rows][:, None], az)
+        el = np.where(under, 90.0, el)
+        return az, el
+
+
+def _lat_grid(eq, pw):
+    """Magnetic latitudes sampled along the meridian: all the band can reach, with a margin."""
+    return np.arange(np.floor(np.min(eq)) - 1.0, np.ceil(np.max(pw)) + 1.0 + 1e-9, LAT_STEP_DEG)
+
+
+def sightline(lat, lon, height_m, horizons, kp, mlt_h, min_elevation_deg=5.0,
+              emission_height_km=110.0, model=oval.DEFAULT_MODEL, when=None, names=None):
+    """Whether, and where, each site sees the band at given Kp and MLT.
+
+    Parameters
+    ----------
+    lat, lon, height_m, horizons, min_elevation_deg, emission_height_km, model, when, names
+        As for :func:`kp_needed_table`.
+    kp : array_like (N, T)
+        Kp at each site and time (broadcast with ``mlt_h``).
+    mlt_h : array_like (N, T)
+        Magnetic local time of each site at each time, hours.
+
+    Returns
+    -------
+    dict
+        ``visible`` (N, T) bool, ``look_azimuth_deg`` and ``look_elevation_deg``
+        (N, T): the band's best-cleared point (elevation 90 when under the band).
+    """
+    oval.check_model(model)
+    lat, lon, height_m = _as_site_arrays(lat, lon, height_m)
+    n = lat.size
+    horizons = check_horizons(horizons, n, names)
+    kp = oval.check_kp(kp)
+    mlt_h = np.asarray(mlt_h, dtype=float)
+    shape = np.broadcast_shapes(kp.shape, mlt_h.shape)
+    if len(shape) < 2:
+        shape = (n, shape[0] if shape else 1)
+    kp, mlt_h = np.broadcast_to(kp, shape), np.broadcast_to(mlt_h, shape)
+    eq, pw = _discrete_edges(kp, mlt_h, model)
+    if not (np.all(np.isfinite(eq)) and np.all(np.isfinite(pw))):
+        raise InputError(f"oval model {model!r} has no discrete-oval edges")
+    mlat, mlon = magnetic.geo_to_aacgm(lat, lon, height_m / 1000.0, when)
+    sky = _Sky(lat, lon, height_m / 1000.0, mlat, mlon, horizon_table(horizons, n),
+               _lat_grid(eq, pw), float(emission_height_km), float(min_elevation_deg), when)
+    rows = np.arange(n)
+    visible = sky.visible(rows, eq, pw)[0]
+    az, el = sky.look(rows, eq, pw)
+    return {"visible": visible, "look_azimuth_deg": az, "look_elevation_deg": el}
+
+
+def _first_index(flags, coarse):
+    """Fine-grid index where ``flags`` (n, K, M) first turns true along K; -1 if never."""
+    hit = flags.any(axis=1)
+    return np.where(hit, coarse[np.argmax(flags, axis=1)], -1)
+
+
+def _bisect(test, first, coarse_step):
+    """Least fine-grid index where ``test(idx (n, M)) -> bool`` holds, searched below ``first``.
+
+    ``first`` is the first true coarse index (or -1 for never); the index
+    ``coarse_step`` below it was false, so bisection between them finds the
+    first true fine index assuming a single change within the coarse step.
+    """
+    todo = first > 0
+    hi = first.copy()
+    lo = np.where(todo, first - coarse_step, first)
+    while np.any(hi - lo > 1):
+        mid = np.where(hi - lo > 1, (lo + hi) // 2, hi)
+        ok = test(np.maximum(mid, 0))
+        hi = np.where(ok, mid, hi)
+        lo = np.where(ok, lo, mid)
+    return hi
+
+
+def kp_needed_table(lat, lon, height_m, horizons, min_elevation_deg=5.0,
+                    emission_height_km=110.0, model=oval.DEFAULT_MODEL, when=None,
+                    names=None) -> KpNeeded:
+    """Least Kp at which each site sees the oval band, per magnetic local time.
+
+    Parameters
+    ----------
+    lat, lon : array_like (N,)
+        Site latitude and longitude in degrees (north and east positive).
+    height_m : float or array_like (N,)
+        Site height above sea level in metres.
+    horizons : sequence of (None or array_like (M, 2)) or None
+        Per-site horizon mask, ``[azimuth_deg, elevation_deg]`` pairs (true
+        azimuth 0-360, elevation -10 to 90); None = flat horizon at 0.
+    min_elevation_deg : float
+        Margin above the mask the aurora must clear, degrees (default 5).
+    emission_height_km : float
+        Height of the band's lower border in km (default 110).
+    model : str
+        Oval model name with discrete-oval edges (see ``oval.MODELS``).
+    when : datetime or None
+        Epoch for AACGM-v2 (UTC); None = now.
+    names : sequence of str, optional
+        Site names, used only in error messages.
+
+    Returns
+    -------
+    KpNeeded
+        Tables (N, 96) of Kp needed on the horizon and overhead, where to
+        look, and the sites' magnetic coordinates. Kp not reached by 9 is
+        inf. Resolution 0.01 Kp: a 0.25 Kp scan, then bisection on a 0.01
+        grid (a change of visibility and back within 0.25 Kp is not seen).
+
+    References
+    ----------
+    See the module docstring.
+    """
+    oval.check_model(model)
+    lat, lon, height_m = _as_site_arrays(lat, lon, height_m)
+    n = lat.size
+    horizons = check_horizons(horizons, n, names)
+    mlt_h = np.arange(0.0, 24.0, MLT_STEP_H)
+    kp_fine = np.round(np.arange(0.0, oval.KP_MAX + 1e-9, KP_FINE_STEP), 6)
+    eq, pw = _discrete_edges(kp_fine[:, None], mlt_h[None, :], model)  # (F, M)
+    if not (np.all(np.isfinite(eq)) and np.all(np.isfinite(pw))):
+        raise InputError(
+            f"oval model {model!r} has no discrete-oval edges; use one of "
+            f"{', '.join(k for k in oval.MODELS if k.startswith('starkov'))} for Kp needed"
+        )
+    coarse = np.arange(0, kp_fine.size, KP_COARSE_EVERY)
+    mlat, mlon = magnetic.geo_to_aacgm(lat, lon, height_m / 1000.0, when)
+    sky = _Sky(lat, lon, height_m / 1000.0, mlat, mlon, horizon_table(horizons, n),
+               _lat_grid(eq, pw), float(emission_height_km), float(min_elevation_deg), when)
+    cols = np.arange(mlt_h.size)[None, :]
+
+    shape = (n, mlt_h.size)
+    horizon, overhead = np.full(shape, np.inf), np.full(shape, np.inf)
+    look_az, look_el = np.full(shape, np.nan), np.full(shape, np.nan)
+    for start in range(0, n, SITE_CHUNK):
+        rows = np.arange(start, min(start + SITE_CHUNK, n))
+        vis, under = sky.visible(rows, eq[coarse], pw[coarse], shared=True)  # (n, K, M)
+        first_h = _first_index(vis, coarse)
+        first_o = _first_index(under, coarse)
+        first_h = _bisect(lambda k, rows=rows: sky.visible(rows, eq[k, cols], pw[k, cols])[0],
+                          first_h, KP_COARSE_EVERY)
+        first_o = _bisect(lambda k, rows=rows: sky.visible(rows, eq[k, cols], pw[k, cols])[1],
+                          first_o, KP_COARSE_EVERY)
+        horizon[rows] = np.where(first_h >= 0, kp_fine[np.maximum(first_h, 0)], np.inf)
+        overhead[rows] = np.where(first_o >= 0, kp_fine[np.maximum(first_o, 0)], np.inf)
+        k = np.maximum(first_h, 0)
+        az, el = sky.look(rows, eq[k, cols], pw[k, cols])
+        look_az[rows] = np.where(first_h >= 0, az, np.nan)
+        look_el[rows] = np.where(first_h >= 0, el, np.nan)
+    bad = ~np.isfinite(mlat)  # near the magnetic equator AACGM is undefined: never
+    horizon[bad], overhead[bad] = np.inf, np.inf
+    return KpNeeded(
+        mlt_h=mlt_h, horizon=horizon, overhead=overhead, look_azimuth_deg=look_az,
+        look_elevation_deg=look_el, mlat=mlat, mlon=mlon, model=model,
+        settings={"min_elevation_deg": float(min_elevation_deg),
+                  "emission_height_km": float(emission_height_km)},
+    )
+
+
+def _mlt_columns(table: KpNeeded, mlt_h):
+    mlt_h = np.asarray(mlt_h, dtype=float)
+    m = table.mlt_h.size
+    f = np.mod(mlt_h, 24.0) / MLT_STEP_H
+    lo = np.floor(f).astype(int) % m
+    return lo, (lo + 1) % m, f - np.floor(f)
+
+
+def kp_needed_at(table: KpNeeded, mlt_h) -> np.ndarray:
+    """Kp needed on the horizon at any MLT per site, interpolated periodically.
+
+    Parameters
+    ----------
+    table : KpNeeded
+    mlt_h : array_like (N, T)
+        Magnetic local time of each site at each time, hours.
+
+    Returns
+    -------
+    ndarray (N, T)
+        Linear interpolation between the 15-minute columns; where a
+        neighbour is inf (not reachable) the larger, i.e. inf, is kept.
+    """
+    lo, hi, w = _mlt_columns(table, mlt_h)
+    values = table.horizon
+    a = np.take_along_axis(values, lo.reshape(len(values), -1), axis=1).reshape(lo.shape)
+    b = np.take_along_axis(values, hi.reshape(len(values), -1), axis=1).reshape(lo.shape)
+    finite = np.isfinite(a) & np.isfinite(b)
+    with np.errstate(invalid="ignore"):
+        lin = a + w * (b - a)
+    return np.where(finite, lin, np.where(w == 0, a, np.maximum(a, b)))
+
+
+def look_at(table: KpNeeded, mlt_h) -> np.ndarray:
+    """Azimuth (degrees true) to look at, per site and MLT (N, T), from the nearest column."""
+    lo, hi, w = _mlt_columns(table, mlt_h)
+    col = np.where(w < 0.5, lo, hi)
+    az = table.look_azimuth_deg
+    return np.take_along_axis(az, col.reshape(len(az), -1), axis=1).reshape(col.shape)
+
+
+def best_night_mlt(table: KpNeeded) -> tuple[np.ndarray, np.ndarray]:
+    """The night-side MLT (18-06 h) of least Kp needed on the horizon, and that Kp, per site.
+
+    Ties (for example a site that sees the band at Kp 0 all night) go to the
+    MLT closest to magnetic midnight, where substorm aurora is most frequent.
+    """
+    t = table.mlt_h
+    night = (t >= NIGHT_MLT[0]) | (t <= NIGHT_MLT[1])
+    kp = np.where(night[None, :], table.horizon, np.inf)
+    from_midnight = np.minimum(t, 24.0 - t)
+    score = np.where(np.isfinite(kp), kp * 100.0 + from_midnight[None, :], np.inf)
+    k = np.argmin(np.where(night[None, :], score, np.inf), axis=1)
+    all_inf = ~np.isfinite(score).any(axis=1)
+    k = np.where(all_inf, 0, k)
+    return t[k], kp[np.arange(len(kp)), k]
+
+
+def band_outline(kp, when_utc, model=oval.DEFAULT_MODEL, height_km=110.0,
+                 hemisphere="north") -> dict:
+    """Geographic outline of the oval band at one time, for maps.
+
+    Parameters
+    ----------
+    kp : float
+        Kp, 0-9.
+    when_utc : datetime or numpy.datetime64
+        The time (fixes which magnetic longitude is at which MLT).
+    model : str
+        Oval model name.
+    height_km : float
+        Height of the outline (emission height), km.
+    hemisphere : {"north", "south"}
+
+    Returns
+    -------
+    dict
+        ``mlt_h`` (97,) 0..24 closing the ring, and ``equatorward_lat``,
+        ``equatorward_lon``, ``poleward_lat``, ``poleward_lon``,
+        ``diffuse_lat``, ``diffuse_lon`` in geographic degrees (NaN where the
+        model has no such edge).
+    """
+    signs = {"north": 1.0, "south": -1.0}
+    if hemisphere not in signs:
+        raise InputError(f"hemisphere {hemisphere!r}: give north or south")
+    b_mlt = np.linspace(0.0, 24.0, 97)
+    bounds = oval.boundaries(kp, b_mlt, model)
+    mlt_at_zero = magnetic.mlt(np.array([0.0]), np.array([when_utc]))[0, 0]
+    mlon = np.mod((b_mlt - mlt_at_zero) * 15.0 + 180.0, 360.0) - 180.0
+    out = {"mlt_h": b_mlt, "kp": float(kp), "model": model, "hemisphere": hemisphere}
+    for name in oval.BOUNDARY_NAMES:
+        lat, lon = magnetic.aacgm_to_geo(signs[hemisphere] * bounds[name], mlon, height_km,
+                                         when_utc, refine=1)
+        out[f"{name}_lat"], out[f"{name}_lon"] = lat, lon
+    return out
