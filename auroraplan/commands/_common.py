@@ -49,8 +49,8 @@ def utc_time(text: str) -> dt.datetime:
             f"{text!r} is not an ISO 8601 time; give for example 2027-01-10T12:00Z"
         ) from None
     if value.tzinfo is None:
-        value = value.replace(tzinfo=dt.timezone.utc)
-    return value.astimezone(dt.timezone.utc)
+        value = value.replace(tzinfo=dt.UTC)
+    return value.astimezone(dt.UTC)
 
 
 def int_range(low: int, high: int):
@@ -93,6 +93,15 @@ def _json_default(value):
     if hasattr(value, "item"):  # numpy scalars
         return value.item()
     raise TypeError(f"cannot write {type(value).__name__} as JSON")
+
+
+def table(**kwargs):
+    """A compact rich table in the project's terminal style (fits 80 columns)."""
+    from rich import box
+    from rich.table import Table
+
+    kwargs.setdefault("title_justify", "left")
+    return Table(box=box.SIMPLE_HEAD, pad_edge=False, **kwargs)
 
 
 def console():

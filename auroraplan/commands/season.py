@@ -1,11 +1,95 @@
-"""The `season` command (not built yet)."""
+"""Long-range chance per night for a season, and the best start dates for a trip.
 
-from auroraplan.errors import InputError
+Beyond any Kp forecast: darkness and moon from the ephemeris, the Kp
+climatology of the month and the solar-cycle phase, and each site's
+clear-sky climatology. Every night is an outlook, never a forecast.
+"""
+
+from auroraplan.commands._common import int_range, iso_date
+
+MAX_SEASON_DAYS = 731
 
 
 def add_arguments(parser):
-    parser.add_argument("rest", nargs="*", help="(not built yet)")
+    parser.add_argument("workspace", help="folder with operator.toml and sites.geojson")
+    parser.add_argument("--from", dest="first", type=iso_date, required=True,
+                        help="first night, YYYY-MM-DD")
+    parser.add_argument("--to", dest="last", type=iso_date, required=True,
+                        help="last night, YYYY-MM-DD (at most 2 years after --from)")
+    parser.add_argument("--trip-nights", type=int_range(1, 30), default=5,
+                        help="length of the trip to find the best start dates for (default 5)")
+    parser.add_argument("--png", metavar="FILE", help="also write a calendar chart PNG")
+    parser.add_argument("--json", action="store_true", help="print the result as JSON")
 
 
 def run(args):
-    raise InputError("the season command is not built yet")
+    from auroraplan import report
+    from auroraplan.commands._common import print_json
+    from auroraplan.commands._progress import progress_bar
+    from auroraplan.errors import InputError
+    from auroraplan.outfiles import check_output_path, write_bytes_atomic
+    from auroraplan.workspace import load_workspace
+
+    if args.last < args.first:
+        raise InputError(f"--to {args.last} is before --from {args.first}; give --to on or after --from")
+    nights = (args.last - args.first).days + 1
+    if nights > MAX_SEASON_DAYS:
+        raise InputError(f"--from {args.first} to --to {args.last} spans {nights} nights; "
+                         f"the most is {MAX_SEASON_DAYS} (2 years)")
+    if args.trip_nights > nights:
+        raise InputError(f"--trip-nights {args.trip_nights} is longer than the range ({nights} nights)")
+    ws = load_workspace(args.workspace)
+    png = check_output_path(args.png, list(ws.files.values())) if args.png else None
+    with progress_bar(nights, "Season outlook (nights)", quiet=args.json) as bar:
+        result = report.season_report(ws, args.first, args.last, args.trip_nights, progress=bar)
+    if png:
+        from auroraplan.render.charts import season_calendar_png
+
+        write_bytes_atomic(png, season_calendar_png(season_chart_data(result)))
+    if args.json:
+        print_json(result)
+    else:
+        print_season(result)
+        if png:
+            print(f"wrote {png}")
+    return 0
+
+
+def season_chart_data(result):
+    """The season calendar chart's input from a season report."""
+    return {
+        "title": f"{result['base']['name']}: outlook per night, {result['from']} to {result['to']}",
+        "dates": [n["date"] for n in result["nights"]],
+        "chance": [n["chance"] for n in result["nights"]],
+        "dark_hours": [n["dark_hours"] for n in result["nights"]],
+        "kinds": [n["kind"] for n in result["nights"]],
+    }
+
+
+def print_season(result):
+    from auroraplan.commands._common import console
+    from auroraplan.commands._common import table as new_table
+    from auroraplan.commands._text import chance_cell
+
+    out = console()
+    out.print(f"[bold]Season outlook[/] · {result['base']['name']} · {result['from']} to {result['to']}")
+    out.print(f"[dim]{result['method']}[/]")
+    # One line per week: the mean of its nights, so a season fits a screen.
+    weeks = new_table(title="Week by week (mean over nights)")
+    for col in ("week from", "dark h", "chance, best site", "chance, base", "moon lit"):
+        weeks.add_column(col, justify="right" if col != "week from" else "left")
+    nights = result["nights"]
+    for i in range(0, len(nights), 7):
+        chunk = nights[i:i + 7]
+        mean = lambda key, c=chunk: sum(n[key] or 0 for n in c) / len(c)  # noqa: E731
+        weeks.add_row(chunk[0]["date"], f"{mean('dark_hours'):.1f}", chance_cell(mean("chance")),
+                      chance_cell(mean("chance_base"), plain=True),
+                      f"{100 * mean('moon_illumination'):.0f}%")
+    out.print(weeks)
+    best = new_table(title=f"Best start dates for {result['trip_nights']} nights")
+    for col in ("start", "leave", "P(at least one night)", "expected nights"):
+        best.add_column(col)
+    for b in result["best_starts"]:
+        best.add_row(b["start"], b["end"], chance_cell(b["chance_any"]), f"{b['expected_nights']:.1f}")
+    out.print(best)
+    out.print(f"[dim]{result['notice']}[/]")

@@ -1,11 +1,122 @@
-"""The `week` command (not built yet)."""
+"""Rank nights and sites for every booked trip in a week, and plan the excursions.
 
-from auroraplan.errors import InputError
+Reads the workspace folder (operator.toml, sites.geojson, trips.csv,
+activity.csv, clouds.csv) and prints, per trip, the best sites for each
+night of its stay, then the plan that fits the fleet and the sites.
+"""
+
+from auroraplan.commands._common import int_range, iso_date
 
 
 def add_arguments(parser):
-    parser.add_argument("rest", nargs="*", help="(not built yet)")
+    parser.add_argument("workspace", help="folder with operator.toml, sites.geojson, trips.csv ...")
+    parser.add_argument("--start", type=iso_date, required=True,
+                        help="first night, local date YYYY-MM-DD")
+    parser.add_argument("--nights", type=int_range(1, 31), default=7,
+                        help="number of nights (1 to 31, default 7)")
+    parser.add_argument("--json", action="store_true", help="print the result as JSON")
+    parser.add_argument("--csv", metavar="FILE", help="also write ranked nights × sites as CSV")
+    parser.add_argument("--ics", metavar="FILE",
+                        help="also write the planned outings as an iCalendar file")
 
 
 def run(args):
-    raise InputError("the week command is not built yet")
+    from auroraplan import report
+    from auroraplan.commands._common import print_json
+    from auroraplan.commands._progress import working
+    from auroraplan.outfiles import check_output_path
+    from auroraplan.workspace import load_workspace
+
+    ws = load_workspace(args.workspace)
+    protected = list(ws.files.values())
+    outputs = {k: check_output_path(v, protected) for k, v in (("csv", args.csv), ("ics", args.ics)) if v}
+    with working(f"Planning {args.nights} nights for {len(ws.trips)} trips at {len(ws.sites)} sites",
+                 quiet=args.json):
+        result = report.week_report(ws, args.start, args.nights)
+    payloads = {}
+    if "csv" in outputs:
+        payloads["csv"] = week_csv(result).encode("utf-8")
+    if "ics" in outputs:
+        from auroraplan.render.calendar import plan_ics
+
+        payloads["ics"] = plan_ics(result)
+    _write_all(outputs, payloads)
+    if args.json:
+        print_json({k: v for k, v in result.items() if k != "heatmap"})
+    else:
+        print_week(result)
+        for path in outputs.values():
+            print(f"wrote {path}")
+    return 0
+
+
+def _write_all(outputs, payloads):
+    """Write every output only after all of them were made, so a failure writes nothing."""
+    from auroraplan.outfiles import write_bytes_atomic
+
+    for key, path in outputs.items():
+        write_bytes_atomic(path, payloads[key])
+
+
+def week_csv(result) -> str:
+    """Ranked nights × sites per trip as CSV (one row per trip, night and ranked site)."""
+    import csv
+    import io
+
+    buf = io.StringIO()
+    w = csv.writer(buf, lineterminator="\n")
+    w.writerow(["trip", "date", "rank", "site", "chance", "kind", "blocked", "planned"])
+    planned = {(p["trip"], p["date"], p["site"]) for p in result["plan"]}
+    for trip in result["trips"]:
+        for night in trip["nights"]:
+            for rank, item in enumerate(night["ranked"], start=1):
+                w.writerow([trip["trip"], night["date"], rank, item["site"], item["chance"],
+                            night["kind"], int(night["blocked"]),
+                            int((trip["trip"], night["date"], item["site"]) in planned)])
+    return buf.getvalue()
+
+
+def print_week(result):
+    """Readable terminal tables: per trip nights × best sites, then the plan."""
+    from auroraplan.commands._common import console
+    from auroraplan.commands._common import table as new_table
+    from auroraplan.commands._text import chance_cell, clock, kind_mark, short_date
+
+    out = console()
+    out.print(f"[bold]{result['operator']}[/] · base {result['base']['name']} · "
+              f"nights from {result['start']} ({result['nights']}) · "
+              f"times in {result['base']['timezone']}")
+    out.print(f"[dim]{result['forecast']['note']}[/]")
+    planned = {(p["trip"], p["date"]): p for p in result["plan"]}
+    for trip in result["trips"]:
+        table = new_table(title=f"{trip['trip']} · {trip['group']} · {trip['guests']} guests · "
+                            f"{trip['outings']} outings wanted")
+        table.add_column("night", no_wrap=True)
+        table.add_column("best site")
+        table.add_column("chance", justify="right", no_wrap=True)
+        table.add_column("window", no_wrap=True)
+        table.add_column("limited by")
+        table.add_column("plan")
+        for night in trip["nights"]:
+            p = planned.get((trip["trip"], night["date"]))
+            table.add_row(
+                short_date(night["date"]) + kind_mark(night["kind"]),
+                night["site"] or "—",
+                chance_cell(night["chance"]),
+                f"{clock(night['window_start'])}–{clock(night['window_end'])}"
+                if night["window_start"] else "—",
+                night["limiting"] or "—",
+                "blocked" if night["blocked"] else (f"→ {p['site']}" if p else ""),
+            )
+        out.print(table)
+    plan = new_table(title="Excursion plan")
+    for col in ("night", "trip", "site", "chance", "pick-up", "return", "backup"):
+        plan.add_column(col, no_wrap=col in ("night", "chance", "pick-up", "return"))
+    for p in sorted(result["plan"], key=lambda p: (p["date"], p["trip"])):
+        plan.add_row(short_date(p["date"]) + kind_mark(p["kind"]), p["trip"], p["site"], chance_cell(p["chance"]),
+                     clock(p["pickup"]), clock(p["return"]), p["backup"] or "—")
+    out.print(plan)
+    out.print("[dim]* outlook: beyond the Kp forecast, from climatology. "
+              "Chances are forecasts, not promises.[/]")
+    for w in result.get("warnings", []):
+        out.print(f"[yellow]note:[/] {w}")

@@ -1,0 +1,478 @@
+"""Combining darkness, moonlight, activity and cloud into the chance of seeing the aurora.
+
+Per site and time step the chance is the product of four factors (DESIGN):
+
+    chance = darkness × moon factor × P(aurora visible) × P(clear)
+
+and per local night it is summarised as the best window, the expected
+visible minutes and the probability of at least one visible display.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field, replace
+
+import numpy as np
+
+# Factor names in the order used for "what limits it".
+FACTORS = ("darkness", "moon", "activity", "cloud")
+
+DEFAULT_SETTINGS = {
+    # Spread of the oval boundary itself, in Kp units, added in quadrature to
+    # the forecast's own spread. Assumption: the observed equatorward boundary
+    # scatters about 1 degree of latitude around a model (Starkov 1994 quotes
+    # boundary errors of this order) and moves about 2 degrees per Kp
+    # (Gussenhoven et al. 1983), hence about 0.5 Kp.
+    "boundary_sd_kp": 0.5,
+    # Moon rule: the share of displays that still stand out against a sky
+    # brightened by dm magnitudes is 10**(-0.4 * beta * dm). It follows from
+    # a display-brightness distribution P(I >= x) proportional to x**-beta
+    # (a power law; beta is an assumption, common practice, no source) and a
+    # fixed contrast threshold against the sky (Weber's law).
+    "moon_beta": 0.5,
+    # The band being within view is not yet a display bright enough to see:
+    # displays come and go with substorms. Chance of a visible display in one
+    # decorrelation time when the band is just within reach (quiet) and when
+    # activity exceeds the need by `strong_margin_kp` (active). Assumptions,
+    # common practice, no source: substorm expansions recur every 2-4 h and
+    # a stronger driver gives brighter, longer displays.
+    "display_quiet": 0.3,
+    "display_active": 0.8,
+    "strong_margin_kp": 2.0,
+    # Displays are taken as independent from one decorrelation time to the
+    # next (about one substorm cycle; assumption, see above).
+    "decorrelation_min": 120.0,
+    # Local clock hours when groups are taken out (operator.toml [planner]
+    # outing_from / outing_until); chances and windows count only these.
+    # Common practice, no source: evening tours leave after dinner and are
+    # back before the small hours.
+    "outing_from": "18:00",
+    "outing_until": "02:00",
+    # A best window is never shorter than this, nor longer than the other.
+    "min_window_min": 30.0,
+    "max_window_min": 180.0,
+}
+
+
+def display_probability(p_reach, p_strong, cfg=None):
+    """Chance of a visible display in one decorrelation time, given activity.
+
+    ``p_reach`` = P(Kp ≥ Kp needed), ``p_strong`` = P(Kp ≥ Kp needed + margin).
+    q = q_quiet · p_reach + (q_active − q_quiet) · p_strong; both terms rise
+    with Kp, so q never falls when the forecast rises.
+    """
+    cfg = cfg or DEFAULT_SETTINGS
+    q0, q1 = cfg["display_quiet"], cfg["display_active"]
+    return q0 * np.asarray(p_reach) + (q1 - q0) * np.asarray(p_strong)
+
+
+@dataclass
+class ChanceGrid:
+    """Chance and its factors per site (N) and time step (T)."""
+
+    times_utc: np.ndarray  # (T,) datetime64[s]
+    night_index: np.ndarray  # (T,) int, 0..nights-1
+    step_min: float
+    darkness: np.ndarray  # (N, T) 0 or 1: dark and inside the outing hours
+    moon: np.ndarray  # (N, T) 0..1
+    activity: np.ndarray  # (N, T) chance of a display per decorrelation time; NaN without data
+    cloud: np.ndarray  # (N, T) P(clear) 0..1
+    chance: np.ndarray  # (N, T)
+    kp_needed: np.ndarray  # (N, T)
+    look_azimuth_deg: np.ndarray  # (N, T)
+    look_elevation_deg: np.ndarray  # (N, T)
+    cloud_pct: np.ndarray  # (N, T), NaN where no cloud forecast
+    kp_mean: np.ndarray  # (T,) forecast Kp, NaN beyond the forecast
+    kp_sd: np.ndarray  # (T,)
+    kind: np.ndarray  # (T,) "forecast" | "outlook" | "none"
+    mlt: np.ndarray  # (N, T) magnetic local time, hours
+    dark_sky: np.ndarray  # (N, T) bool: dark at the operator's level, at any hour
+    outing: np.ndarray  # (T,) bool: inside the operator's outing hours
+    sun_alt: np.ndarray  # (N, T)
+    moon_alt: np.ndarray  # (N, T)
+    moon_illumination: np.ndarray  # (T,)
+    warnings: list = field(default_factory=list)
+
+
+def moon_factor(dark_sky_mag, moonlit_sky_mag, beta=DEFAULT_SETTINGS["moon_beta"]):
+    """Share of aurora displays still visible when moonlight brightens the sky.
+
+    Parameters
+    ----------
+    dark_sky_mag : array_like
+        The site's moonless sky brightness, V mag/arcsec².
+    moonlit_sky_mag : array_like
+        Sky brightness toward the aurora with the moon, V mag/arcsec²
+        (Krisciunas & Schaefer 1991, via :func:`auroraplan.sky.moonlit_sky_mag`).
+    beta : float
+        Exponent of the display-brightness distribution P(I ≥ x) ∝ x^-beta.
+
+    Returns
+    -------
+    ndarray
+        Factor in (0, 1]; 1 when the moon adds nothing.
+
+    Notes
+    -----
+    A display is seen when its surface brightness exceeds a fixed fraction of
+    the sky's (a constant-contrast threshold, Weber's law). Moonlight raises
+    the sky by dm = dark − moonlit magnitudes, i.e. by a factor 10^(0.4 dm)
+    in intensity, so only displays that much brighter remain: a share
+    10^(-0.4 · beta · dm) of them. For scale: a green-line display of 1 kR has
+    a surface brightness near 21.7 V mag/arcsec² (about the dark sky), the
+    International Brightness Coefficient classes I–IV are 1, 10, 100 and
+    1000 kR (Hunten 1955; Chamberlain 1961, Physics of the Aurora and
+    Airglow).
+    """
+    dm = np.maximum(np.asarray(dark_sky_mag, float) - np.asarray(moonlit_sky_mag, float), 0.0)
+    return 10.0 ** (-0.4 * beta * dm)
+
+
+def p_aurora_from_forecast(kp_needed, kp_mean, kp_sd, boundary_sd_kp):
+    """P(aurora visible) = P(Kp + boundary error ≥ Kp needed), both normal.
+
+    The forecast's spread and the boundary's own spread add in quadrature.
+    """
+    from auroraplan.activity import prob_kp_at_least
+
+    total_sd = np.sqrt(np.asarray(kp_sd, float) ** 2 + boundary_sd_kp**2)
+    return prob_kp_at_least(kp_needed, kp_mean, total_sd)
+
+
+# Three-point Gauss–Hermite rule for E[f(X)], X ~ N(0, 1) (Abramowitz &
+# Stegun 1964, table 25.10, rescaled to the standard normal).
+_GH_NODES = np.array([-np.sqrt(3.0), 0.0, np.sqrt(3.0)])
+_GH_WEIGHTS = np.array([1.0 / 6.0, 2.0 / 3.0, 1.0 / 6.0])
+
+
+def p_aurora_from_climatology(climatology, kp_needed, times_utc, boundary_sd_kp):
+    """P(Kp ≥ Kp needed) from the climatology, smeared by the boundary's spread."""
+    total = np.zeros(np.shape(kp_needed))
+    for node, weight in zip(_GH_NODES, _GH_WEIGHTS, strict=True):
+        total += weight * climatology.prob_kp_at_least(kp_needed + node * boundary_sd_kp, times_utc)
+    return total
+
+
+def site_arrays(sites):
+    """Columns of the site list as arrays (N,)."""
+    return {
+        "lat": np.array([s.lat for s in sites], float),
+        "lon": np.array([s.lon for s in sites], float),
+        "height_m": np.array([s.height_m for s in sites], float),
+        "sky_mag": np.array([s.sky_mag for s in sites], float),
+        "horizons": [s.horizon for s in sites],
+    }
+
+
+def compute_grid(
+    ws, sites, times_utc, night_index, step_min, *, use_forecast=True, use_clouds=True,
+    climatology=None, settings=None, table=None,
+):
+    """Chance per site and time step for the workspace's sites.
+
+    Parameters
+    ----------
+    ws : auroraplan.workspace.Workspace
+        Operator settings, activity forecast and clouds.
+    sites : list of Site
+        The sites to evaluate (usually ``ws.sites``).
+    times_utc : ndarray of datetime64, shape (T,)
+    night_index : ndarray of int, shape (T,)
+    step_min : float
+        Step between times, minutes.
+    use_forecast, use_clouds : bool
+        Set False for long-range work (season) to use climatology only.
+    climatology : object with ``prob_kp_at_least(kp_needed, times_utc)``, optional
+        Used beyond the forecast; without it such steps have NaN activity.
+    settings : dict, optional
+        Overrides of :data:`DEFAULT_SETTINGS`.
+    table : auroraplan.view.KpNeeded, optional
+        A Kp-needed table already computed for these sites (long ranges reuse it).
+    """
+    from auroraplan import magnetic, sky, view, weather
+    from auroraplan.activity import forecast_at
+
+    cfg = settings_for(ws, settings)
+    op = ws.operator
+    arr = site_arrays(sites)
+    times_utc = np.asarray(times_utc, dtype="datetime64[s]")
+    warnings: list[str] = []
+
+    track = sky.sun_moon_altaz(arr["lat"], arr["lon"], arr["height_m"], times_utc)
+    dark = track.sun_alt < sky.DARKNESS_DEG[op.darkness]
+    outing = outing_mask(times_utc, op.timezone, cfg["outing_from"], cfg["outing_until"])
+    darkness = (dark & outing[None, :]).astype(float)
+
+    if table is None:
+        table = kp_table(ws, sites, times_utc[len(times_utc) // 2])
+    mlt = magnetic.mlt(table.mlon, times_utc)
+    kp_needed = view.kp_needed_at(table, mlt)
+    look_az = view.look_at(table, mlt)
+    look_el = view.look_at(replace(table, look_azimuth_deg=table.look_elevation_deg), mlt)
+
+    target_alt = np.clip(np.nan_to_num(look_el, nan=op.min_elevation_deg), op.min_elevation_deg, 90.0)
+    target_az = np.nan_to_num(look_az, nan=0.0)
+    moonlit = sky.moonlit_sky_mag(
+        arr["sky_mag"][:, None], track.moon_alt, track.moon_az, target_alt, target_az,
+        track.moon_phase_angle_deg[None, :],
+    )
+    moon = moon_factor(arr["sky_mag"][:, None], moonlit, cfg["moon_beta"])
+
+    settings_activity = op.settings.get("activity", {}) if op.settings else {}
+    if use_forecast and ws.activity is not None and len(ws.activity):
+        kp_mean, kp_sd, covered = forecast_at(ws.activity, times_utc, settings_activity)
+    else:
+        kp_mean = np.full(times_utc.shape, np.nan)
+        kp_sd = np.full(times_utc.shape, np.nan)
+        covered = np.zeros(times_utc.shape, bool)
+    kind = np.where(covered, "forecast", "none").astype(object)
+    rest = ~covered if climatology is not None else np.zeros_like(covered)
+    kind[rest] = "outlook"
+
+    def p_reach(offset):
+        """P(Kp ≥ Kp needed + offset) from the forecast, else the climatology."""
+        p = np.full(kp_needed.shape, np.nan)
+        if covered.any():
+            p[:, covered] = p_aurora_from_forecast(
+                kp_needed[:, covered] + offset, kp_mean[covered], kp_sd[covered],
+                cfg["boundary_sd_kp"])
+        if rest.any():
+            p[:, rest] = p_aurora_from_climatology(
+                climatology, kp_needed[:, rest] + offset, times_utc[rest], cfg["boundary_sd_kp"])
+        return p
+
+    activity = display_probability(p_reach(0.0), p_reach(cfg["strong_margin_kp"]), cfg)
+
+    if use_clouds:
+        p_clear, cloud_pct, cloud_warnings = weather.clear_probability(sites, ws.clouds, times_utc, tz=op.timezone)
+    else:
+        empty = ws.clouds.iloc[0:0] if ws.clouds is not None else None
+        p_clear, cloud_pct, cloud_warnings = weather.clear_probability(sites, empty, times_utc, tz=op.timezone)
+    warnings.extend(cloud_warnings)
+
+    # Per step: the chance of a visible display in one decorrelation time
+    # around it; also the expected share of the step with a display in sight.
+    chance = darkness * moon * activity * p_clear
+    return ChanceGrid(
+        times_utc=times_utc, night_index=np.asarray(night_index), step_min=float(step_min),
+        darkness=darkness, moon=moon, activity=activity, cloud=p_clear, chance=chance,
+        kp_needed=kp_needed, look_azimuth_deg=look_az, look_elevation_deg=look_el,
+        cloud_pct=cloud_pct, kp_mean=kp_mean, kp_sd=kp_sd, kind=kind,
+        mlt=mlt, sun_alt=track.sun_alt, moon_alt=track.moon_alt, dark_sky=dark, outing=outing,
+        moon_illumination=track.moon_illumination, warnings=warnings,
+    )
+
+
+def settings_for(ws, overrides=None) -> dict:
+    """Chance settings: defaults, then operator.toml [chance] and [planner], then overrides."""
+    from auroraplan.errors import InputError
+
+    cfg = dict(DEFAULT_SETTINGS)
+    doc = ws.operator.settings or {}
+    for table in ("chance", "planner"):
+        for key, value in (doc.get(table) or {}).items():
+            if key in DEFAULT_SETTINGS:
+                cfg[key] = value
+    cfg.update(overrides or {})
+    for key in ("outing_from", "outing_until"):
+        try:
+            _clock_minutes(cfg[key])
+        except (TypeError, ValueError):
+            raise InputError(
+                f"operator.toml: [planner] {key} = {cfg[key]!r} is not a clock time; "
+                "give HH:MM, for example \"18:00\"") from None
+    for key, value in cfg.items():
+        if key not in ("outing_from", "outing_until") and not isinstance(value, int | float):
+            raise InputError(f"operator.toml: [chance] {key} = {value!r} is not a number")
+    return cfg
+
+
+def _clock_minutes(text) -> int:
+    hours, minutes = str(text).split(":")
+    value = int(hours) * 60 + int(minutes)
+    if not (0 <= int(minutes) < 60 and 0 <= value <= 24 * 60):
+        raise ValueError(text)
+    return value
+
+
+def outing_mask(times_utc, tz, outing_from, outing_until):
+    """True at times whose local clock time lies in [from, until), wrapping past midnight."""
+    import pandas as pd
+
+    local = pd.DatetimeIndex(np.asarray(times_utc, "datetime64[s]")).tz_localize("UTC").tz_convert(tz)
+    minute = np.asarray(local.hour * 60 + local.minute)
+    start, end = _clock_minutes(outing_from), _clock_minutes(outing_until)
+    if start == end:
+        return np.ones(minute.shape, bool)
+    if start < end:
+        return (minute >= start) & (minute < end)
+    return (minute >= start) | (minute < end)
+
+
+def kp_table(ws, sites, when_utc):
+    """The Kp-needed table (sites × MLT) for the workspace's viewing settings."""
+    from auroraplan import view
+
+    op = ws.operator
+    arr = site_arrays(sites)
+    when = np.datetime64(when_utc, "s").astype(object)
+    return view.kp_needed_table(
+        arr["lat"], arr["lon"], arr["height_m"], arr["horizons"],
+        min_elevation_deg=op.min_elevation_deg, emission_height_km=op.emission_height_km,
+        model=op.oval_model, when=when,
+    )
+
+
+@dataclass
+class NightSummary:
+    """Per site (N) and night (D) summaries of a :class:`ChanceGrid`."""
+
+    p_any: np.ndarray  # (N, D) P(at least one visible display), NaN without activity data
+    expected_min: np.ndarray  # (N, D) expected visible minutes
+    peak: np.ndarray  # (N, D) highest step chance
+    window_start: np.ndarray  # (N, D) datetime64[s] or NaT
+    window_end: np.ndarray  # (N, D) datetime64[s] or NaT
+    peak_step: np.ndarray  # (N, D) index into the time axis, -1 when none
+    limiting: np.ndarray  # (N, D) object: one of FACTORS or None
+    dark_hours: np.ndarray  # (N, D)
+    kind: np.ndarray  # (D,) "forecast" | "outlook" | "none" (worst over the dark steps)
+
+
+def p_display_seen(display, p_clear, step_min, decorrelation_min):
+    """P(at least one display seen) over the steps along the last axis.
+
+    Parameters
+    ----------
+    display : ndarray (..., K)
+        Chance of a visible display per decorrelation time at each step, with
+        darkness and moonlight already applied (0 where it is light).
+    p_clear : ndarray (..., K)
+        P(clear line of sight) at each step.
+    step_min, decorrelation_min : float
+        Step length and decorrelation time τ, minutes.
+
+    Returns
+    -------
+    ndarray (...)
+
+    Notes
+    -----
+    Displays are independent from one decorrelation time to the next, so
+    with a clear sky throughout P = 1 − Π (1 − d_i)^(Δt/τ). Cloud over one
+    site through one night is one weather state, not independent hour by
+    hour: hours are coupled comonotonically (a single uniform U per night;
+    step i is clear when U < c_i). Then
+    P = Σ_k (c_(k) − c_(k+1)) · [1 − Π_{j ≤ k} (1 − d_(j))^(Δt/τ)]
+    with the c sorted from clearest down and c_(K+1) = 0. Both couplings are
+    stated assumptions. More cloud or less display never raises P.
+    """
+    d = np.clip(np.nan_to_num(display, nan=0.0), 0.0, 1.0 - 1e-12)
+    c = np.clip(np.nan_to_num(p_clear, nan=0.0), 0.0, 1.0)
+    order = np.argsort(-c, axis=-1, kind="stable")
+    c_sorted = np.take_along_axis(c, order, axis=-1)
+    d_sorted = np.take_along_axis(d, order, axis=-1)
+    seen_if_clear = -np.expm1(np.cumsum(np.log1p(-d_sorted), axis=-1) * (step_min / decorrelation_min))
+    c_next = np.concatenate([c_sorted[..., 1:], np.zeros(c_sorted.shape[:-1] + (1,))], axis=-1)
+    return np.sum((c_sorted - c_next) * seen_if_clear, axis=-1)
+
+
+def summarise_nights(grid: ChanceGrid, nights: int, settings=None) -> NightSummary:
+    """Best window, expected minutes and P(at least one display) per site and night.
+
+    The best window is the block of at most ``max_window_min`` with the most
+    expected display time, ties going to the block nearest magnetic
+    midnight (where substorm onsets cluster: Frey et al. 2004, JGR 109,
+    A10304), trimmed of dark-less or chance-less ends down to at least
+    ``min_window_min``. "What limits it" is the factor with the lowest mean
+    over that window, activity measured against its most active value.
+    """
+    cfg = dict(DEFAULT_SETTINGS)
+    cfg.update(settings or {})
+    n_sites = grid.chance.shape[0]
+    shape = (n_sites, nights)
+    out = NightSummary(
+        p_any=np.full(shape, np.nan), expected_min=np.zeros(shape), peak=np.zeros(shape),
+        window_start=np.full(shape, np.datetime64("NaT"), dtype="datetime64[s]"),
+        window_end=np.full(shape, np.datetime64("NaT"), dtype="datetime64[s]"),
+        peak_step=np.full(shape, -1), limiting=np.full(shape, None, dtype=object),
+        dark_hours=np.zeros(shape), kind=np.full(nights, "none", dtype=object),
+    )
+    rows = np.arange(n_sites)
+    for d in range(nights):
+        cols = np.flatnonzero(grid.night_index == d)
+        if cols.size == 0:
+            continue
+        dark = grid.darkness[:, cols]
+        shown = dark * grid.moon[:, cols] * grid.activity[:, cols]
+        c = grid.chance[:, cols]
+        out.dark_hours[:, d] = grid.dark_sky[:, cols].sum(axis=1) * grid.step_min / 60.0
+        kinds = set(grid.kind[cols][dark.any(axis=0)]) or {"none"}
+        out.kind[d] = next(k for k in ("none", "outlook", "forecast") if k in kinds)
+        has_data = (~np.isnan(shown) | (dark == 0)).all(axis=1)
+        p = p_display_seen(shown, grid.cloud[:, cols], grid.step_min, cfg["decorrelation_min"])
+        out.p_any[:, d] = np.where(has_data, p, np.nan)
+        filled = np.nan_to_num(c, nan=0.0)
+        out.expected_min[:, d] = filled.sum(axis=1) * grid.step_min
+        lo, hi = best_windows(filled, dark > 0, grid.mlt[:, cols], grid.step_min, cfg)
+        peak = np.argmax(np.where(
+            (np.arange(cols.size)[None, :] >= lo[:, None]) & (np.arange(cols.size)[None, :] <= hi[:, None]),
+            filled, -1.0), axis=1)
+        any_dark = dark.any(axis=1)
+        out.peak[:, d] = np.where(any_dark, filled[rows, peak], 0.0)
+        out.peak_step[:, d] = np.where(any_dark, cols[peak], -1)
+        step = np.timedelta64(int(round(grid.step_min * 60)), "s")
+        out.window_start[:, d] = np.where(any_dark, grid.times_utc[cols[lo]], np.datetime64("NaT"))
+        out.window_end[:, d] = np.where(any_dark, grid.times_utc[cols[hi]] + step, np.datetime64("NaT"))
+        out.limiting[:, d] = limiting_factor(grid, cols, lo, hi, any_dark, cfg)
+    return out
+
+
+def best_windows(chance, dark, mlt, step_min, cfg):
+    """First and last step (inclusive) of each row's best window; rows without dark get 0, 0."""
+    n, k = chance.shape
+    length = max(1, min(k, int(round(cfg["max_window_min"] / step_min))))
+    min_steps = max(1, int(np.ceil(cfg["min_window_min"] / step_min)))
+    sums = np.cumsum(np.concatenate([np.zeros((n, 1)), chance], axis=1), axis=1)
+    block = sums[:, length:] - sums[:, :-length]  # (n, k - length + 1)
+    centre = np.arange(block.shape[1]) + length // 2
+    from_midnight = np.minimum(mlt[:, centre] % 24.0, 24.0 - mlt[:, centre] % 24.0)
+    best = block.max(axis=1, keepdims=True)
+    near_best = block >= best * (1.0 - 1e-3) - 1e-12
+    start = np.argmin(np.where(near_best, from_midnight, np.inf), axis=1)
+    no_chance = best[:, 0] <= 0
+    # Without any chance, describe the dark period itself.
+    first_dark = np.argmax(dark, axis=1)
+    last_dark = k - 1 - np.argmax(dark[:, ::-1], axis=1)
+    lo = np.where(no_chance, first_dark, start)
+    hi = np.where(no_chance, np.minimum(last_dark, first_dark + length - 1), start + length - 1)
+    # Trim ends without darkness or chance, keeping at least min_steps.
+    idx = np.arange(k)[None, :]
+    useful = dark & ((chance > 0) | no_chance[:, None])
+    inside = (idx >= lo[:, None]) & (idx <= hi[:, None]) & useful
+    has = inside.any(axis=1)
+    lo = np.where(has, np.argmax(inside, axis=1), lo)
+    hi = np.where(has, k - 1 - np.argmax(inside[:, ::-1], axis=1), hi)
+    short = hi - lo + 1 < min_steps
+    hi = np.where(short, np.minimum(k - 1, lo + min_steps - 1), hi)
+    lo = np.where(short, np.maximum(0, hi - min_steps + 1), lo)
+    none = ~dark.any(axis=1)
+    return np.where(none, 0, lo), np.where(none, 0, hi)
+
+
+def limiting_factor(grid, cols, lo, hi, any_dark, cfg):
+    """Name of the factor with the lowest mean over each row's window."""
+    idx = np.arange(cols.size)[None, :]
+    inside = (idx >= lo[:, None]) & (idx <= hi[:, None])
+    count = np.maximum(inside.sum(axis=1), 1)
+
+    def mean(values):
+        return np.where(inside, np.nan_to_num(values, nan=0.0), 0.0).sum(axis=1) / count
+
+    factors = np.stack([
+        mean(grid.darkness[:, cols]),
+        mean(grid.moon[:, cols]),
+        mean(grid.activity[:, cols]) / cfg["display_active"],
+        mean(grid.cloud[:, cols]),
+    ])
+    names = np.array(FACTORS, dtype=object)[np.argmin(factors, axis=0)]
+    return np.where(any_dark, names, "darkness")

@@ -1,0 +1,30 @@
+"""Small text formats shared by the terminal tables."""
+
+
+def clock(iso: str | None) -> str:
+    """HH:MM from a local ISO time, or a dash."""
+    return iso[11:16] if iso else "—"
+
+
+def chance_cell(chance, plain=False) -> str:
+    """A chance as a percentage, bold when good; 'n/a' without data."""
+    if chance is None:
+        return "n/a"
+    text = f"{100 * chance:.0f}%"
+    if plain:
+        return text
+    if chance >= 0.45:
+        return f"[bold]{text}[/]"
+    return text if chance >= 0.10 else f"[dim]{text}[/]"
+
+
+def kind_mark(kind: str) -> str:
+    """A mark after a night that is an outlook rather than a forecast."""
+    return {"forecast": "", "outlook": " *", "none": " ?"}.get(kind, "")
+
+
+def short_date(iso_date: str) -> str:
+    """'Tue 12 Jan' from '2027-01-12'."""
+    import datetime as dt
+
+    return dt.date.fromisoformat(iso_date).strftime("%a %d %b")

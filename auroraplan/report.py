@@ -1,0 +1,533 @@
+"""Building the reports (plain, JSON-ready dicts) that the commands print and the renderers draw.
+
+Each builder runs the stages of the pipeline for one question (tonight,
+a week, a season) and turns arrays into the fields named in DESIGN.md.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+import math
+from zoneinfo import ZoneInfo
+
+import numpy as np
+
+from auroraplan.cautions import CAUTIONS, FORECAST_NOT_PROMISE
+from auroraplan.render.style import chance_in_words, compass_point
+
+DEFAULT_STEP_MIN = 10
+
+
+
+def local_iso(t64, tz: str) -> str | None:
+    """A UTC datetime64 as local ISO 8601 with offset, to the minute; None for NaT."""
+    if t64 is None or np.isnat(t64):
+        return None
+    seconds = int(np.asarray(t64, dtype="datetime64[s]").astype(np.int64))
+    t = dt.datetime.fromtimestamp(seconds, dt.UTC).astimezone(ZoneInfo(tz))
+    return t.replace(second=0, microsecond=0).isoformat(timespec="minutes")
+
+
+def utc_iso(t64) -> str | None:
+    """A datetime64 as ISO 8601 UTC with a Z."""
+    if t64 is None or np.isnat(t64):
+        return None
+    return str(np.asarray(t64, dtype="datetime64[s]")) + "Z"
+
+
+def _num(x, digits=3):
+    """A float for JSON: rounded, None for NaN or infinity."""
+    if x is None:
+        return None
+    x = float(x)
+    if not math.isfinite(x):
+        return None
+    return round(x, digits)
+
+
+def made_at(tz: str, now: dt.datetime | None = None) -> str:
+    """The time a report is made, local ISO 8601."""
+    now = now or dt.datetime.now(dt.UTC)
+    return now.astimezone(ZoneInfo(tz)).isoformat(timespec="minutes")
+
+
+def forecast_info(ws, kinds) -> dict:
+    """Which forecast a report was made from, for the people who read it."""
+    df = ws.activity
+    kinds = set(kinds)
+    kind = "forecast" if kinds == {"forecast"} else ("outlook" if "outlook" in kinds else
+                                                     ("forecast" if "forecast" in kinds else "none"))
+    first = last = None
+    if df is not None and len(df):
+        first = utc_iso(np.datetime64(df["start_utc"].min().tz_convert(None), "s"))
+        last = utc_iso(np.datetime64(df["start_utc"].max().tz_convert(None), "s"))
+    file = ws.files.get("activity")
+    notes = {
+        "forecast": "Kp from the forecast file for every dark hour.",
+        "outlook": "Nights beyond the Kp forecast use the Kp climatology (outlook), not a forecast.",
+        "none": "No Kp forecast covers these nights.",
+    }
+    if "forecast" in kinds and "outlook" in kinds:
+        note = "Kp forecast where it reaches; later nights are an outlook from Kp climatology."
+    else:
+        note = notes[kind]
+    return {
+        "file": str(file.name) if file else None,
+        "first_block_utc": first,
+        "last_block_utc": last,
+        "kind": kind,
+        "note": note,
+    }
+
+
+def base_info(ws) -> dict:
+    op = ws.operator
+    return {"name": op.base_name, "lat": op.base_lat, "lon": op.base_lon, "timezone": op.timezone}
+
+
+def _grid_for_nights(ws, sites, first_night, nights, step_min, climatology, **kw):
+    from auroraplan import chance, sky
+
+    times, night_index = sky.night_times(first_night, nights, ws.operator.timezone, step_min)
+    grid = chance.compute_grid(
+        ws, sites, times, night_index, step_min, climatology=climatology, **kw
+    )
+    summary = chance.summarise_nights(grid, nights, chance.settings_for(ws))
+    return grid, summary
+
+
+def default_climatology():
+    """The bundled Kp climatology, or None when it cannot be built."""
+    from auroraplan import climatology
+
+    return climatology.default_climatology()
+
+
+# ---------------------------------------------------------------------------
+# tonight
+
+
+def tonight_report(ws, date: dt.date, top: int | None = None, now=None, climatology=None) -> dict:
+    """Tonight's shortlist for the guide: open sites ranked by chance."""
+    tz = ws.operator.timezone
+    sites = [s for s in ws.sites if not s.closed]
+    if climatology is None:
+        climatology = default_climatology()
+    grid, summary = _grid_for_nights(ws, sites, date, 1, DEFAULT_STEP_MIN, climatology)
+    order = _rank(summary.p_any[:, 0])
+    if top:
+        order = order[:top]
+    dark_cols = np.flatnonzero(grid.dark_sky.any(axis=0))
+    rows = []
+    for rank, i in enumerate(order, start=1):
+        rows.append(_tonight_site(ws, grid, summary, sites[i], i, rank, tz))
+    dark_any = grid.darkness.any(axis=0)
+    return {
+        "kind": "tonight",
+        "operator": ws.operator.name,
+        "base": base_info(ws),
+        "date": date.isoformat(),
+        "made_at": made_at(tz, now),
+        "forecast": forecast_info(ws, grid.kind[dark_any] if dark_any.any() else grid.kind),
+        "darkness_level": ws.operator.darkness,
+        "dark_start": local_iso(grid.times_utc[dark_cols[0]], tz) if dark_cols.size else None,
+        "dark_end": (local_iso(grid.times_utc[dark_cols[-1]] + np.timedelta64(DEFAULT_STEP_MIN, "m"), tz)
+                     if dark_cols.size else None),
+        "moon_illumination": _num(np.mean(grid.moon_illumination), 2),
+        "sites": rows,
+        "warnings": list(dict.fromkeys(ws.warnings + grid.warnings)),
+        "cautions": CAUTIONS,
+        "notice": FORECAST_NOT_PROMISE,
+    }
+
+
+def _rank(p_any_column):
+    """Site indices by descending chance (NaN last), ties by input order."""
+    key = np.nan_to_num(p_any_column, nan=-1.0)
+    return list(np.lexsort((np.arange(len(key)), -key)))
+
+
+def _tonight_site(ws, grid, summary, site, i, rank, tz):
+    p = summary.p_any[i, 0]
+    step = summary.peak_step[i, 0]
+    if step < 0:  # no darkness: describe the middle of the night
+        step = len(grid.times_utc) // 2
+    az = grid.look_azimuth_deg[i, step]
+    dark = grid.darkness[i] > 0
+    moon_up = (grid.moon_alt[i] > 0) & dark
+    hourly = hourly_chance(grid, i, tz, chance_settings(ws))
+    cloud_window = _window_mean(grid.cloud_pct[i], grid, summary, i)
+    return {
+        "rank": rank,
+        "name": site.name,
+        "lat": site.lat,
+        "lon": site.lon,
+        "chance": _num(p, 3),
+        "chance_words": chance_in_words(p) if np.isfinite(p) else "no forecast",
+        "window_start": local_iso(summary.window_start[i, 0], tz),
+        "window_end": local_iso(summary.window_end[i, 0], tz),
+        "expected_minutes": _num(summary.expected_min[i, 0], 1),
+        "limiting": summary.limiting[i, 0],
+        "kp_needed": _num(grid.kp_needed[i, step], 2),
+        "kp_forecast": _num(grid.kp_mean[step], 2),
+        "look_azimuth": _num(az, 0),
+        "look_compass": compass_point(az) if np.isfinite(az) else None,
+        "look_elevation": _num(grid.look_elevation_deg[i, step], 0),
+        "cloud_pct": _num(cloud_window, 0),
+        "moon_illumination": _num(np.mean(grid.moon_illumination), 2),
+        "moon_up_hours": _num(moon_up.sum() * grid.step_min / 60.0, 1),
+        "drive_min": site.drive_min,
+        "notes": site.notes,
+        "hourly": hourly,
+    }
+
+
+def chance_settings(ws):
+    from auroraplan.chance import settings_for
+
+    return settings_for(ws)
+
+
+def hourly_chance(grid, i, tz, settings=None):
+    """P(a display is seen) in each dark clock hour of the night at site ``i``."""
+    from auroraplan.chance import DEFAULT_SETTINGS, p_display_seen
+
+    cfg = dict(DEFAULT_SETTINGS, **(settings or {}))
+    per_hour = int(round(60 / grid.step_min))
+    shown = grid.darkness[i] * grid.moon[i] * grid.activity[i]
+    rows = []
+    for start in range(0, len(grid.times_utc), per_hour):
+        sl = slice(start, start + per_hour)
+        if not (grid.darkness[i, sl] > 0).any():
+            continue
+        p = p_display_seen(shown[sl], grid.cloud[i, sl], grid.step_min, cfg["decorrelation_min"])
+        rows.append({"time": local_iso(grid.times_utc[start], tz), "chance": _num(p, 3)})
+    return rows
+
+
+def _window_mean(values, grid, summary, i, d=0):
+    """Mean of a per-step series over a site-night's best window (NaN when none)."""
+    start, end = summary.window_start[i, d], summary.window_end[i, d]
+    if np.isnat(start):
+        return np.nan
+    sel = (grid.times_utc >= start) & (grid.times_utc < end)
+    vals = values[sel]
+    return float(np.nanmean(vals)) if np.isfinite(vals).any() else np.nan
+
+
+def site_timeline(ws, date: dt.date, site_name: str, climatology=None) -> dict:
+    """One site's night at 10-minute steps, for the timeline chart."""
+    tz = ws.operator.timezone
+    site = next(s for s in ws.sites if s.name == site_name)
+    if climatology is None:
+        climatology = default_climatology()
+    grid, _ = _grid_for_nights(ws, [site], date, 1, DEFAULT_STEP_MIN, climatology)
+    return {
+        "site": site.name,
+        "date": date.isoformat(),
+        "timezone": tz,
+        "darkness_level": ws.operator.darkness,
+        "times": [local_iso(t, tz) for t in grid.times_utc],
+        "sun_alt": [_num(v, 2) for v in grid.sun_alt[0]],
+        "moon_alt": [_num(v, 2) for v in grid.moon_alt[0]],
+        "dark": [bool(v) for v in grid.darkness[0] > 0],
+        "kp_needed": [_num(v, 2) for v in grid.kp_needed[0]],
+        "kp_forecast": [_num(v, 2) for v in grid.kp_mean],
+        "kp_sd": [_num(v, 2) for v in grid.kp_sd],
+        "cloud_pct": [_num(v, 1) for v in grid.cloud_pct[0]],
+        "chance": [_num(v, 4) if np.isfinite(v) else 0.0 for v in grid.chance[0]],
+    }
+
+
+# ---------------------------------------------------------------------------
+# week
+
+
+def week_report(ws, start: dt.date, nights: int = 7, progress=None, now=None,
+                climatology=None, ranked_top: int = 5) -> dict:
+    """Ranked nights and sites per trip, and the excursion plan for the fleet."""
+    from auroraplan import planner
+
+    tz = ws.operator.timezone
+    sites = ws.sites
+    if climatology is None:
+        climatology = default_climatology()
+    grid, summary = _grid_for_nights(ws, sites, start, nights, DEFAULT_STEP_MIN, climatology)
+    dates = [start + dt.timedelta(days=d) for d in range(nights)]
+    trips = ws.trips
+
+    value, allowed, in_stay, blocked = _plan_inputs(ws, summary, dates)
+    guests = np.array([t.guests for t in trips], int)
+    outings = np.array([t.outings for t in trips], int)
+    capacity = np.array([s.capacity for s in sites], int)
+    vehicles = np.full(nights, int(ws.operator.vehicles))
+    cost_per_min = float(ws.operator.settings.get("planner", {}).get(
+        "drive_cost_per_min", planner.DRIVE_WEIGHT_PER_MIN))
+    drive_cost = np.array([s.drive_min for s in sites], float) * cost_per_min
+    chosen = planner.plan_excursions(
+        value, allowed, guests, outings, vehicles, capacity, drive_cost=drive_cost
+    ) if len(trips) else []
+    backups = planner.choose_backups(
+        value, allowed, chosen, guests, capacity, drive_cost=drive_cost
+    ) if chosen else []
+
+    trip_rows = []
+    for r, trip in enumerate(trips):
+        rows = []
+        for d, date in enumerate(dates):
+            if not in_stay[r, d]:
+                continue
+            ok = np.flatnonzero(allowed[r, d])
+            ranked = sorted(ok, key=lambda s, d=d: (-np.nan_to_num(value[r, d, s], nan=-1), s))
+            best = ranked[0] if ranked else None
+            rows.append({
+                "date": date.isoformat(),
+                "site": sites[best].name if best is not None else None,
+                "chance": _num(summary.p_any[best, d], 3) if best is not None else None,
+                "window_start": local_iso(summary.window_start[best, d], tz) if best is not None else None,
+                "window_end": local_iso(summary.window_end[best, d], tz) if best is not None else None,
+                "kind": summary.kind[d],
+                "limiting": summary.limiting[best, d] if best is not None else None,
+                "blocked": bool(blocked[r, d]),
+                "in_stay": True,
+                "ranked": [{"site": sites[s].name, "chance": _num(summary.p_any[s, d], 3)}
+                           for s in ranked[:ranked_top]],
+            })
+        trip_rows.append({
+            "trip": trip.trip, "group": trip.group, "guests": trip.guests,
+            "arrive": trip.arrive.isoformat(), "depart": trip.depart.isoformat(),
+            "outings": trip.outings, "nights": rows,
+        })
+
+    plan = []
+    for (r, d, s), b in zip(chosen, backups, strict=True):
+        site = sites[s]
+        start_t, end_t = summary.window_start[s, d], summary.window_end[s, d]
+        drive = np.timedelta64(int(round(site.drive_min)), "m")
+        pickup = _floor_5min(start_t - drive) if not np.isnat(start_t) else start_t
+        back = _ceil_5min(end_t + drive) if not np.isnat(end_t) else end_t
+        plan.append({
+            "trip": trips[r].trip,
+            "group": trips[r].group,
+            "date": dates[d].isoformat(),
+            "site": site.name,
+            "backup": sites[b].name if b is not None else None,
+            "chance": _num(summary.p_any[s, d], 3),
+            "backup_chance": _num(summary.p_any[b, d], 3) if b is not None else None,
+            "window_start": local_iso(start_t, tz),
+            "window_end": local_iso(end_t, tz),
+            "pickup": local_iso(pickup, tz),
+            "return": local_iso(back, tz),
+            "drive_min": site.drive_min,
+            "lat": site.lat, "lon": site.lon,
+            "backup_lat": sites[b].lat if b is not None else None,
+            "backup_lon": sites[b].lon if b is not None else None,
+            "look_azimuth": _num(grid.look_azimuth_deg[s, summary.peak_step[s, d]], 0)
+            if summary.peak_step[s, d] >= 0 else None,
+            "kind": summary.kind[d],
+        })
+    return {
+        "kind": "week",
+        "operator": ws.operator.name,
+        "base": base_info(ws),
+        "start": start.isoformat(),
+        "nights": nights,
+        "made_at": made_at(tz, now),
+        "forecast": forecast_info(ws, list(summary.kind)),
+        "vehicles": int(ws.operator.vehicles),
+        "night_kinds": [{"date": d.isoformat(), "kind": k} for d, k in zip(dates, summary.kind, strict=True)],
+        "trips": trip_rows,
+        "plan": plan,
+        "heatmap": {
+            "title": f"Chance per night and site, {dates[0].isoformat()} to {dates[-1].isoformat()}",
+            "dates": [d.isoformat() for d in dates],
+            "sites": [s.name for s in sites],
+            "chance": [[_num(v, 3) if not sites[i].closed else None for v in summary.p_any[i]]
+                       for i in range(len(sites))],
+            "kinds": list(summary.kind),
+        },
+        "warnings": list(dict.fromkeys(ws.warnings + grid.warnings)),
+        "cautions": CAUTIONS,
+        "notice": FORECAST_NOT_PROMISE,
+    }
+
+
+def _plan_inputs(ws, summary, dates):
+    """Value and allowed masks (trips × nights × sites) for the planner."""
+    trips, sites = ws.trips, ws.sites
+    value = np.broadcast_to(
+        np.nan_to_num(summary.p_any, nan=0.0).T[None, :, :], (len(trips), len(dates), len(sites))
+    ).copy()
+    in_stay = np.array([[t.arrive <= d < t.depart for d in dates] for t in trips], bool).reshape(
+        len(trips), len(dates))
+    blocked = np.array([[d in t.blocked for d in dates] for t in trips], bool).reshape(
+        len(trips), len(dates))
+    open_site = np.array([not s.closed for s in sites], bool)
+    capacity = np.array([s.capacity for s in sites], int)
+    guests = np.array([t.guests for t in trips], int)
+    fits = guests[:, None] <= capacity[None, :]
+    has_chance = np.isfinite(summary.p_any.T) & (summary.dark_hours.T > 0)
+    allowed = (
+        (in_stay & ~blocked)[:, :, None]
+        & open_site[None, None, :]
+        & fits[:, None, :]
+        & has_chance[None, :, :]
+    )
+    return value, allowed, in_stay, blocked
+
+
+def _floor_5min(t64):
+    s = np.asarray(t64, dtype="datetime64[s]").astype(np.int64)
+    return np.datetime64(int(s // 300 * 300), "s")
+
+
+def _ceil_5min(t64):
+    s = np.asarray(t64, dtype="datetime64[s]").astype(np.int64)
+    return np.datetime64(int(-(-s // 300) * 300), "s")
+
+
+# ---------------------------------------------------------------------------
+# season
+
+SEASON_CHUNK_NIGHTS = 16
+
+
+def season_report(ws, first: dt.date, last: dt.date, trip_nights: int = 5, progress=None,
+                  climatology=None, best_count: int = 5, now=None) -> dict:
+    """Long-range chance per night from darkness, moon, Kp climatology and clear-sky climatology.
+
+    The Kp forecast and the cloud forecast are not used: every night is an
+    outlook. "chance" is that of the best open site; "chance_base" that of an
+    open-horizon point at the base with the sites' mean clear-sky climatology.
+    """
+    from auroraplan import chance as chance_mod
+    from auroraplan import sky
+    from auroraplan.workspace import Site
+
+    tz = ws.operator.timezone
+    if climatology is None:
+        climatology = default_climatology()
+    open_sites = [s for s in ws.sites if not s.closed]
+    months = [s.clear_by_month for s in open_sites if s.clear_by_month]
+    base_clear = tuple(np.mean(np.array(months, float), axis=0)) if months else None
+    sky_mags = [s.sky_mag for s in open_sites] or [21.0]
+    base = Site(name=ws.operator.base_name, lat=ws.operator.base_lat, lon=ws.operator.base_lon,
+                sky_mag=float(np.median(sky_mags)), clear_by_month=base_clear)
+    sites = open_sites + [base]
+    nights = (last - first).days + 1
+    step = DEFAULT_STEP_MIN
+    p_any = np.zeros((len(sites), nights))
+    dark_hours = np.zeros(nights)
+    illum = np.zeros(nights)
+    first_times, _ = sky.night_times(first, 1, tz, step)
+    table = chance_mod.kp_table(ws, sites, first_times[len(first_times) // 2])
+    warnings: list[str] = []
+    done = 0
+    while done < nights:
+        n = min(SEASON_CHUNK_NIGHTS, nights - done)
+        start = first + dt.timedelta(days=done)
+        times, night_index = sky.night_times(start, n, tz, step)
+        grid = chance_mod.compute_grid(
+            ws, sites, times, night_index, step, use_forecast=False, use_clouds=False,
+            climatology=climatology, table=table,
+        )
+        summary = chance_mod.summarise_nights(grid, n, chance_mod.settings_for(ws))
+        p_any[:, done:done + n] = np.nan_to_num(summary.p_any, nan=0.0)
+        dark_hours[done:done + n] = summary.dark_hours[-1]
+        for d in range(n):
+            sel = grid.night_index == d
+            illum[done + d] = grid.moon_illumination[sel][len(grid.moon_illumination[sel]) // 2]
+        warnings.extend(grid.warnings)
+        done += n
+        if progress is not None:
+            progress.advance(n)
+    best = np.argmax(p_any[:-1], axis=0) if open_sites else np.full(nights, -1)
+    best_chance = p_any[best, np.arange(nights)] if open_sites else np.zeros(nights)
+    dates = [first + dt.timedelta(days=d) for d in range(nights)]
+    rows = [{
+        "date": d.isoformat(),
+        "dark_hours": _num(dark_hours[i], 2),
+        "chance": _num(best_chance[i], 3),
+        "best_site": open_sites[best[i]].name if open_sites else None,
+        "chance_base": _num(p_any[-1, i], 3),
+        "moon_illumination": _num(illum[i], 2),
+        "kind": "outlook",
+    } for i, d in enumerate(dates)]
+    return {
+        "kind": "season",
+        "operator": ws.operator.name,
+        "base": base_info(ws),
+        "from": first.isoformat(),
+        "to": last.isoformat(),
+        "trip_nights": trip_nights,
+        "made_at": made_at(tz, now),
+        "method": ("Darkness and moon from the ephemeris; Kp from climatology by month, "
+                   "3-hour UT block and solar-cycle phase; cloud from each site's clear-sky "
+                   "climatology. Every night is an outlook, not a forecast."),
+        "nights": rows,
+        "best_starts": best_starts(dates, best_chance, trip_nights, best_count),
+        "warnings": list(dict.fromkeys(ws.warnings + warnings)),
+        "notice": FORECAST_NOT_PROMISE,
+    }
+
+
+def best_starts(dates, chance, trip_nights, count=5, min_gap_days=3):
+    """Best start dates for a stay of ``trip_nights`` nights.
+
+    Each start is scored by P(at least one night with a display) over the
+    stay, 1 − Π(1 − chance), nights taken as independent; the expected
+    number of such nights is given too. Starts closer than ``min_gap_days``
+    to a better one are left out so that the list offers real alternatives.
+    """
+    chance = np.asarray(chance, float)
+    n = len(chance) - trip_nights + 1
+    if n <= 0:
+        return []
+    log_miss = np.log1p(-np.clip(chance, 0.0, 1 - 1e-12))
+    window = np.convolve(log_miss, np.ones(trip_nights), mode="valid")[:n]
+    expected = np.convolve(chance, np.ones(trip_nights), mode="valid")[:n]
+    score = -np.expm1(window)
+    picked: list[int] = []
+    for i in np.lexsort((np.arange(n), -score)):
+        if all(abs(int(i) - j) >= min_gap_days for j in picked):
+            picked.append(int(i))
+        if len(picked) == count:
+            break
+    return [{
+        "start": dates[i].isoformat(),
+        "end": (dates[i] + dt.timedelta(days=trip_nights)).isoformat(),
+        "nights": trip_nights,
+        "chance_any": _num(score[i], 3),
+        "expected_nights": _num(expected[i], 2),
+    } for i in picked]
+
+
+def oval_map_data(ws, kp: float, date: dt.date, basemap=None) -> dict:
+    """The oval band around the base at local magnetic midnight of a night, with the sites."""
+    from auroraplan import view
+
+    op = ws.operator
+    when = _magnetic_midnight(op, date)
+    bands = view.band_outline(kp, when, model=op.oval_model, height_km=op.emission_height_km)
+    return {
+        "base": {"name": op.base_name, "lat": op.base_lat, "lon": op.base_lon},
+        "sites": [{"name": s.name, "lat": s.lat, "lon": s.lon, "closed": s.closed} for s in ws.sites],
+        "kp": float(kp),
+        "when_utc": utc_iso(np.datetime64(when.replace(tzinfo=None), "s")),
+        "bands": {k: {"lat": [_num(v, 3) for v in b["lat"]], "lon": [_num(v, 3) for v in b["lon"]]}
+                  for k, b in bands.items() if k in ("equatorward", "poleward", "diffuse")},
+        "basemap": str(basemap) if basemap else None,
+    }
+
+
+def _magnetic_midnight(op, date: dt.date) -> dt.datetime:
+    """The UTC time on the night of ``date`` when the base is at magnetic local time 0."""
+    from auroraplan import magnetic, sky
+
+    times, _ = sky.night_times(date, 1, op.timezone, 10)
+    _, mlon = magnetic.geo_to_aacgm(np.array([op.base_lat]), np.array([op.base_lon]), 0.0,
+                                    times[len(times) // 2].astype(object))
+    mlt = magnetic.mlt(np.atleast_1d(mlon), times)[0]
+    distance = np.minimum(mlt % 24.0, 24.0 - mlt % 24.0)
+    t = times[int(np.argmin(distance))].astype(object)
+    return t.replace(tzinfo=dt.UTC)
