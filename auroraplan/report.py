@@ -352,6 +352,13 @@ def week_report(ws, start: dt.date, nights: int = 7, progress=None, now=None,
     }
 
 
+def bookings_report(ws, now=None) -> dict:
+    """The week report over the whole span of the booked trips: one plan for every stay."""
+    first = min(t.arrive for t in ws.trips)
+    last = max(t.depart for t in ws.trips)
+    return week_report(ws, first, (last - first).days, now=now)
+
+
 def _plan_inputs(ws, summary, dates):
     """Value and allowed masks (trips × nights × sites) for the planner."""
     trips, sites = ws.trips, ws.sites

@@ -1,5 +1,7 @@
 """The chance model: each factor moves the chance the way the trade expects."""
 
+import datetime as dt
+
 import numpy as np
 from hypothesis import given, settings
 from hypothesis import strategies as st
@@ -32,22 +34,70 @@ def test_higher_forecast_kp_never_lowers_p_aurora(k1, k2, sd, needed):
     assert p[0, 1] >= p[0, 0] - 1e-12
 
 
-def test_p_at_least_one_counts_an_hour_as_one_trial():
-    # Six 10-minute steps at 0.3 with a 60-minute decorrelation time are one
-    # trial at 0.3: 1 - 0.7**(6*10/60) = 0.3 (worked by hand).
-    assert abs(chance.p_at_least_one(np.full(6, 0.3), 10.0, 60.0) - 0.3) < 1e-12
-    # Two independent hours at 0.5 each: 1 - 0.25 = 0.75.
-    assert abs(chance.p_at_least_one(np.full(12, 0.5), 10.0, 60.0) - 0.75) < 1e-12
+def seen(display, clear, step=10.0, tau=60.0):
+    return chance.p_display_seen(np.asarray(display, float), np.asarray(clear, float), step, tau)
 
 
-def test_p_at_least_one_is_zero_without_chance():
-    assert chance.p_at_least_one(np.zeros(30), 10.0, 60.0) == 0.0
+def test_clear_night_counts_one_trial_per_decorrelation_time():
+    # Worked by hand: six 10-minute steps at 0.3 with tau = 60 min are one
+    # trial at 0.3; two hours at 0.5 are two trials, 1 - 0.5**2 = 0.75.
+    assert abs(seen(np.full(6, 0.3), np.ones(6)) - 0.3) < 1e-12
+    assert abs(seen(np.full(12, 0.5), np.ones(12)) - 0.75) < 1e-12
+
+
+def test_cloud_is_one_weather_state_through_the_night():
+    # Worked by hand: with P(clear) 0.5 in both of two one-hour trials at
+    # 0.5, the night is clear with 0.5 and then seen with 0.75: 0.375 (not
+    # the 0.4375 that independent hours would give).
+    assert abs(seen([0.5, 0.5], [0.5, 0.5], 60.0, 60.0) - 0.375) < 1e-12
+    # Constant cloud scales the clear-night chance.
+    assert abs(seen(np.full(12, 0.5), np.full(12, 0.4)) - 0.4 * 0.75) < 1e-12
+
+
+def test_no_display_or_no_clear_sky_gives_zero():
+    assert seen(np.zeros(30), np.ones(30)) == 0.0
+    assert seen(np.full(30, 0.5), np.zeros(30)) == 0.0
+
+
+unit = st.floats(0.0, 1.0)
+
+
+@settings(max_examples=80)
+@given(st.lists(st.tuples(unit, unit, unit), min_size=1, max_size=24), st.integers(0, 23), unit)
+def test_more_cloud_never_raises_the_night_chance(rows, at, less):
+    d, c, _ = (np.array(v) for v in zip(*rows, strict=True))
+    cloudier = c.copy()
+    cloudier[at % len(c)] *= less
+    assert seen(d, cloudier) <= seen(d, c) + 1e-12
+
+
+@settings(max_examples=80)
+@given(st.lists(st.tuples(unit, unit, unit), min_size=1, max_size=24), st.integers(0, 23))
+def test_more_display_never_lowers_the_night_chance(rows, at):
+    d, c, more = (np.array(v) for v in zip(*rows, strict=True))
+    stronger = d.copy()
+    i = at % len(d)
+    stronger[i] = max(d[i], more[i])
+    assert seen(stronger, c) >= seen(d, c) - 1e-12
+
+
+@settings(max_examples=50)
+@given(st.lists(st.floats(0.0, 1.0), min_size=1, max_size=40))
+def test_clear_night_chance_is_at_least_the_best_hour(values):
+    d = np.array(values)
+    p = seen(d, np.ones_like(d), 60.0, 60.0)
+    assert d.max() - 1e-9 <= p <= 1.0
+
+
+def test_display_probability_rises_with_activity():
+    quiet = chance.display_probability(1.0, 0.0)
+    active = chance.display_probability(1.0, 1.0)
+    assert quiet == chance.DEFAULT_SETTINGS["display_quiet"]
+    assert active == chance.DEFAULT_SETTINGS["display_active"]
+    assert chance.display_probability(0.0, 0.0) == 0.0
 
 
 def test_best_starts_prefers_the_run_of_good_nights():
-    dates = [f"d{i}" for i in range(20)]
-    import datetime as dt
-
     dates = [dt.date(2027, 1, 1) + dt.timedelta(days=i) for i in range(20)]
     c = np.full(20, 0.05)
     c[10:15] = 0.4
@@ -59,10 +109,3 @@ def test_best_starts_prefers_the_run_of_good_nights():
     assert len(set(starts)) == 3
 
 
-@settings(max_examples=50)
-@given(st.lists(st.floats(0.0, 1.0), min_size=1, max_size=40))
-def test_p_at_least_one_is_at_least_the_best_hour(values):
-    c = np.array(values)
-    per_hour = chance.p_at_least_one(c, 60.0, 60.0)
-    assert per_hour >= c.max() - 1e-9
-    assert per_hour <= 1.0

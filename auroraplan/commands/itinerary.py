@@ -1,11 +1,102 @@
-"""The `itinerary` command (not built yet)."""
+"""Write the printable PDF itinerary of a booked trip, or of every trip into a folder.
 
-from auroraplan.errors import InputError
+Plans the nights of the trip's stay from the workspace (the same plan as `week` over the
+stay) and lays out, for the group: each evening's outing, site, pick-up and return times,
+chance in words, the backup site, what to wear and bring, and the safety cautions.
+"""
+
+import re
+
+PAPERS = {"a4": "A4", "letter": "Letter"}
 
 
 def add_arguments(parser):
-    parser.add_argument("rest", nargs="*", help="(not built yet)")
+    parser.add_argument("workspace", help="folder with operator.toml, sites.geojson, trips.csv ...")
+    which = parser.add_mutually_exclusive_group(required=True)
+    which.add_argument("--trip", metavar="ID", help="the trip to print (its id in trips.csv)")
+    which.add_argument("--all", metavar="DIR",
+                       help="write one PDF per trip into this existing folder "
+                            "(named itinerary-<trip>.pdf)")
+    parser.add_argument("--pdf", metavar="FILE", help="where to write the PDF (with --trip)")
+    parser.add_argument("--paper", type=str.lower, choices=sorted(PAPERS), default="a4",
+                        help="paper size: a4 (default) or letter")
+
+
+def itinerary_file_name(trip_id: str) -> str:
+    """A safe file name for a trip's itinerary: itinerary-<trip>.pdf with only [A-Za-z0-9._-]."""
+    safe = re.sub(r"[^A-Za-z0-9._-]+", "-", str(trip_id)).strip("-.") or "trip"
+    return f"itinerary-{safe}.pdf"
 
 
 def run(args):
-    raise InputError("the itinerary command is not built yet")
+    from pathlib import Path
+
+    from auroraplan.commands._progress import working
+    from auroraplan.errors import InputError
+    from auroraplan.outfiles import check_output_path, write_bytes_atomic
+    from auroraplan.workspace import load_workspace
+
+    if args.trip is not None and not args.pdf:
+        raise InputError("--trip needs --pdf FILE: say where to write the itinerary")
+    if args.all is not None and args.pdf:
+        raise InputError("--pdf goes with --trip; with --all the files are named "
+                         "itinerary-<trip>.pdf inside the folder")
+    ws = load_workspace(args.workspace)
+    protected = list(ws.files.values())
+    trips = _chosen_trips(ws, args.trip)
+    if args.all is not None:
+        folder = Path(args.all).expanduser()
+        if not folder.is_dir():
+            raise InputError(f"{folder}: no such folder; create it first or give another --all")
+        targets = _all_targets(folder, trips, protected)
+    else:
+        targets = {trips[0].trip: check_output_path(args.pdf, protected)}
+
+    with working(f"Planning and laying out {len(trips)} itinerar{'y' if len(trips) == 1 else 'ies'}"):
+        pdfs = _render_all(ws, trips, PAPERS[args.paper])
+    for trip_id, path in targets.items():  # written only once every PDF is made
+        write_bytes_atomic(path, pdfs[trip_id])
+        print(f"wrote {path}")
+    return 0
+
+
+def _chosen_trips(ws, trip_id):
+    from auroraplan.errors import InputError
+
+    if not ws.trips:
+        raise InputError(f"{ws.path}: trips.csv has no trips; add the booked groups first")
+    if trip_id is None:
+        return list(ws.trips)
+    for trip in ws.trips:
+        if str(trip.trip) == str(trip_id):
+            return [trip]
+    known = ", ".join(str(t.trip) for t in ws.trips)
+    raise InputError(f"--trip {trip_id!r} is not in trips.csv; known trips: {known}")
+
+
+def _all_targets(folder, trips, protected):
+    from auroraplan.errors import InputError
+    from auroraplan.outfiles import check_output_path
+
+    targets, seen = {}, {}
+    for trip in trips:
+        name = itinerary_file_name(trip.trip)
+        if name in seen:
+            raise InputError(f"trips.csv: trips {seen[name]!r} and {trip.trip!r} would both be "
+                             f"written to {name}; give them ids that differ in letters or digits")
+        seen[name] = trip.trip
+        targets[trip.trip] = check_output_path(folder / name, protected)
+    return targets
+
+
+def _render_all(ws, trips, paper):
+    """One PDF per trip, all from one plan over every booked stay, so that the
+    itineraries agree with each other and with the fleet."""
+    from auroraplan.render.itinerary_pdf import itinerary_pdf
+    from auroraplan.report import bookings_report
+
+    report = bookings_report(ws)
+    pdfs = {}
+    for trip in trips:
+        pdfs[trip.trip] = itinerary_pdf(report, trip.trip, paper=paper)
+    return pdfs

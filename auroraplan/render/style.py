@@ -17,6 +17,10 @@ SKY_BLUE = "#3d5a80"  # cloud
 NIGHT_BG = "#000000"
 NIGHT_FG = "#c81e1e"
 NIGHT_DIM = "#7a1010"
+# Text colours chosen for WCAG 2.1 contrast of at least 4.5:1 (success criterion 1.4.3):
+# NIGHT_TEXT on NIGHT_BG is 4.6:1, AMBER_INK on PAPER 5.8:1, INK on PAPER 14:1.
+NIGHT_TEXT = "#e0302a"
+AMBER_INK = "#8a5208"
 
 # Sequential ramp for chance from 0 to 1 (paper to deep amber-brown).
 CHANCE_RAMP = ["#f6f3ec", "#efe0bd", "#e5c27f", "#d39a3f", "#b0701a", "#7a4a0e"]
@@ -47,3 +51,61 @@ COMPASS_16 = ["N", "NNE", "NE", "ENE", "E", "ESE", "SE", "SSE",
 def compass_point(azimuth_deg: float) -> str:
     """The 16-point compass name of a true bearing in degrees."""
     return COMPASS_16[int(((azimuth_deg % 360.0) + 11.25) // 22.5) % 16]
+
+
+# Type: the device's own fonts only, so that pages and charts need nothing from outside.
+FONT_STACK = (
+    'system-ui, -apple-system, "Segoe UI", Roboto, "Noto Sans", "Helvetica Neue", '
+    "Arial, sans-serif"
+)
+MONO_STACK = 'ui-monospace, "SF Mono", Menlo, Consolas, "DejaVu Sans Mono", monospace'
+
+# What holds a site back tonight, in the words a guide would say to guests.
+LIMITING_WORDS = {
+    "darkness": "twilight (not dark enough)",
+    "moon": "moonlight",
+    "activity": "low aurora activity",
+    "cloud": "cloud",
+    None: "nothing in particular",
+}
+
+# How the activity part of a night's chance was made, in words for readers.
+KIND_WORDS = {
+    "forecast": "Kp forecast",
+    "outlook": "outlook from Kp history",
+    "none": "no darkness or no data",
+}
+
+
+def limiting_in_words(limiting) -> str:
+    """Plain words for the factor that limits a site's chance."""
+    return LIMITING_WORDS.get(limiting, str(limiting))
+
+
+def percent(chance) -> str:
+    """A chance from 0 to 1 as a whole percentage ("—" when unknown)."""
+    if chance is None:
+        return "—"
+    return f"{round(100.0 * float(chance)):d} %"
+
+
+def local_time(iso_text) -> str:
+    """HH:MM of a local ISO 8601 time as written in a report ("—" when absent)."""
+    if not iso_text:
+        return "—"
+    import datetime as _dt
+
+    return _dt.datetime.fromisoformat(iso_text).strftime("%H:%M")
+
+
+def time_span(start_iso, end_iso) -> str:
+    """A local time window as HH:MM–HH:MM ("—" when there is none)."""
+    if not start_iso or not end_iso:
+        return "—"
+    return f"{local_time(start_iso)}–{local_time(end_iso)}"
+
+
+def ramp_colour(chance: float) -> str:
+    """The CHANCE_RAMP colour for a chance from 0 to 1 (nearest step, no blending)."""
+    c = min(max(float(chance or 0.0), 0.0), 1.0)
+    return CHANCE_RAMP[min(int(c * len(CHANCE_RAMP)), len(CHANCE_RAMP) - 1)]

@@ -1,0 +1,457 @@
+"""The operator's charts: a night's timeline, the week's heat map, the oval map and the season.
+
+Drawn with matplotlib's Agg backend on our own palette (style.py): paper ground, ink text,
+amber for chance, teal for magnetic things, plum for the moon, blue for cloud. Each chart
+is a PNG of fixed pixel size returned as bytes.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+import io
+import math
+from zoneinfo import ZoneInfo
+
+import numpy as np
+
+from auroraplan.render import style
+
+DPI = 100
+SIZE_PX = {
+    "timeline": (1600, 900),
+    "heatmap": (1600, 900),
+    "oval": (1200, 1200),
+    "season": (1600, 900),
+}
+EARTH_RADIUS_KM = 6371.0  # mean radius, IUGG (Moritz 2000, Geodetic Reference System 1980)
+
+RC = {
+    "font.family": "DejaVu Sans",
+    "font.size": 12,
+    "axes.edgecolor": style.SLATE,
+    "axes.labelcolor": style.INK,
+    "axes.titlecolor": style.INK,
+    "axes.facecolor": style.PAPER,
+    "axes.spines.top": False,
+    "axes.spines.right": False,
+    "axes.grid": True,
+    "grid.color": style.RULE,
+    "grid.linewidth": 0.6,
+    "xtick.color": style.SLATE,
+    "ytick.color": style.SLATE,
+    "text.color": style.INK,
+    "legend.frameon": False,
+    "hatch.color": style.SLATE,
+}
+
+
+def _figure(kind: str):
+    from matplotlib.backends.backend_agg import FigureCanvasAgg
+    from matplotlib.figure import Figure
+
+    w, h = SIZE_PX[kind]
+    fig = Figure(figsize=(w / DPI, h / DPI), dpi=DPI, facecolor=style.PAPER,
+                 layout="constrained")
+    FigureCanvasAgg(fig)
+    return fig
+
+
+def _png(fig) -> bytes:
+    buf = io.BytesIO()
+    fig.savefig(buf, format="png", dpi=DPI, facecolor=fig.get_facecolor())
+    return buf.getvalue()
+
+
+def _ramp_cmap():
+    from matplotlib.colors import LinearSegmentedColormap
+
+    return LinearSegmentedColormap.from_list("auroraplan_chance", style.CHANCE_RAMP)
+
+
+def _floats(values) -> np.ndarray:
+    return np.array([np.nan if v is None else float(v) for v in values], dtype=float)
+
+
+def _text_on(hex_colour: str) -> str:
+    """Ink or paper, whichever reads better on a cell colour (WCAG 2.1 relative luminance)."""
+    rgb = [int(hex_colour[i:i + 2], 16) / 255 for i in (1, 3, 5)]
+    lin = [c / 12.92 if c <= 0.04045 else ((c + 0.055) / 1.055) ** 2.4 for c in rgb]
+    lum = 0.2126 * lin[0] + 0.7152 * lin[1] + 0.0722 * lin[2]
+    return style.INK if lum > 0.2 else style.PAPER
+
+
+def _hex(rgba) -> str:
+    return "#{:02x}{:02x}{:02x}".format(*(int(round(255 * c)) for c in rgba[:3]))
+
+
+def _shade_dark(ax, times, dark):
+    """Shade the dark steps on an axis (one span per run of dark steps)."""
+    dark = np.asarray(dark, dtype=bool)
+    if not dark.any():
+        return
+    edges = np.flatnonzero(np.diff(np.r_[0, dark.astype(int), 0]))
+    for start, stop in zip(edges[::2], edges[1::2], strict=True):
+        ax.axvspan(times[start], times[stop - 1], color=style.INK, alpha=0.07, lw=0)
+
+
+def night_timeline_png(timeline: dict) -> bytes:
+    """One site's night as stacked panels on a shared local-time axis.
+
+    Parameters
+    ----------
+    timeline : dict
+        ``times`` (local ISO 8601), ``sun_alt``, ``moon_alt`` (degrees), ``dark`` (bool),
+        ``kp_needed``, ``kp_forecast``, ``kp_sd``, ``cloud_pct`` (null where none) and
+        ``chance`` (0..1), all at the same 10-minute steps; ``timezone`` (IANA).
+
+    Returns
+    -------
+    bytes
+        PNG, 1600 × 900 px: sun and moon altitude with the dark hours shaded; Kp needed
+        against forecast Kp with a ±1 sd band; cloud cover; the chance.
+    """
+    import matplotlib
+    from matplotlib.dates import DateFormatter, HourLocator
+
+    zone = ZoneInfo(timeline.get("timezone", "UTC"))
+    times = [dt.datetime.fromisoformat(t).astimezone(zone) for t in timeline["times"]]
+    dark = timeline.get("dark") or [False] * len(times)
+    with matplotlib.rc_context(RC):
+        fig = _figure("timeline")
+        axes = fig.subplots(4, 1, sharex=True, height_ratios=[3, 2.2, 1.4, 2])
+        sky, kp, cloud, chance = axes
+        for ax in axes:
+            _shade_dark(ax, times, dark)
+
+        sky.plot(times, _floats(timeline["sun_alt"]), color=style.AMBER, lw=2, label="Sun")
+        sky.plot(times, _floats(timeline["moon_alt"]), color=style.PLUM, lw=2, label="Moon")
+        sky.axhline(0, color=style.SLATE, lw=1)
+        sky.set_ylabel("altitude (°)")
+        sky.legend(loc="upper right", ncols=3, handles=[
+            *sky.get_lines()[:2],
+            matplotlib.patches.Patch(color=style.INK, alpha=0.12,
+                                     label=f"dark ({timeline.get('darkness_level', '')})"),
+        ])
+
+        need = _floats(timeline["kp_needed"])
+        fc, sd = _floats(timeline["kp_forecast"]), _floats(timeline["kp_sd"])
+        kp.fill_between(times, fc - sd, fc + sd, color=style.TEAL, alpha=0.18, lw=0,
+                        label="forecast ± 1 sd")
+        kp.plot(times, fc, color=style.TEAL, lw=2, label="Kp forecast")
+        kp.plot(times, need, color=style.INK, lw=1.8, ls=(0, (5, 3)), label="Kp needed here")
+        kp.set_ylabel("Kp")
+        kp.set_ylim(0, max(5.0, np.nanmax(np.r_[need, fc + sd, 0.0]) + 0.5))
+        kp.legend(loc="upper right", ncols=3)
+
+        cl = _floats(timeline["cloud_pct"])
+        cloud.fill_between(times, 0, cl, color=style.SKY_BLUE, alpha=0.35, lw=0)
+        cloud.plot(times, cl, color=style.SKY_BLUE, lw=1.5)
+        cloud.set_ylim(0, 100)
+        cloud.set_ylabel("cloud (%)")
+
+        ch = 100 * _floats(timeline["chance"])
+        chance.fill_between(times, 0, ch, color=style.AMBER_LIGHT, lw=0)
+        chance.plot(times, ch, color=style.AMBER_INK, lw=2)
+        chance.set_ylim(0, max(50.0, np.nanmax(np.r_[ch, 0.0]) * 1.15))
+        chance.set_ylabel("chance (%)")
+        chance.xaxis.set_major_locator(HourLocator(byhour=range(0, 24, 2), tz=zone))
+        chance.xaxis.set_major_formatter(DateFormatter("%H:%M", tz=zone))
+        chance.set_xlabel(f"local time ({timeline.get('timezone', 'UTC')})")
+        chance.set_xlim(times[0], times[-1])
+        fig.suptitle(f"{timeline['site']}: the night of {timeline['date']}", x=0.01,
+                     ha="left", fontsize=16, fontweight="bold")
+        return _png(fig)
+
+
+def _day_label(date_text: str) -> str:
+    d = dt.date.fromisoformat(date_text)
+    return f"{d.strftime('%a')}\n{d.day} {d.strftime('%b')}"
+
+
+def week_heatmap_png(heatmap: dict) -> bytes:
+    """Nights × sites chance as a heat map on the amber ramp, values written in the cells.
+
+    Parameters
+    ----------
+    heatmap : dict
+        ``title``, ``dates`` (D), ``sites`` (S), ``chance`` (S lists of D values 0..1) and
+        ``kinds`` (D of "forecast" | "outlook" | "none").
+
+    Returns
+    -------
+    bytes
+        PNG, 1600 × 900 px. Outlook nights are hatched, nights without data crossed.
+    """
+    import matplotlib
+    from matplotlib.patches import Patch, Rectangle
+
+    chance = np.array([_floats(row) for row in heatmap["chance"]], dtype=float)
+    sites, dates, kinds = heatmap["sites"], heatmap["dates"], heatmap["kinds"]
+    cmap = _ramp_cmap()
+    hatches = {"outlook": "///", "none": "xx"}
+    with matplotlib.rc_context({**RC, "axes.grid": False}):
+        fig = _figure("heatmap")
+        ax = fig.subplots()
+        mesh = ax.pcolormesh(np.ma.masked_invalid(chance), cmap=cmap, vmin=0, vmax=1,
+                             edgecolors=style.PAPER, linewidth=2)
+        for (s, d), value in np.ndenumerate(chance):
+            if np.isnan(value):
+                continue
+            ax.text(d + 0.5, s + 0.5, f"{round(100 * value)} %", ha="center", va="center",
+                    fontsize=15, fontweight="bold", color=_text_on(_hex(cmap(value))))
+        for d, kind in enumerate(kinds):
+            if kind in hatches:
+                ax.add_patch(Rectangle((d, 0), 1, len(sites), fill=False, hatch=hatches[kind],
+                                       edgecolor=style.SLATE, alpha=0.35, lw=0))
+        ax.set_xticks(np.arange(len(dates)) + 0.5,
+                      [f"{_day_label(d)}\n{k}" for d, k in zip(dates, kinds, strict=True)])
+        ax.set_yticks(np.arange(len(sites)) + 0.5, sites)
+        ax.invert_yaxis()
+        ax.tick_params(length=0)
+        for side in ("left", "bottom"):
+            ax.spines[side].set_visible(False)
+        bar = fig.colorbar(mesh, ax=ax, shrink=0.8, pad=0.01)
+        bar.set_ticks([0, 0.25, 0.5, 0.75, 1.0], labels=["0 %", "25 %", "50 %", "75 %", "100 %"])
+        bar.set_label("chance of seeing aurora (a forecast, not a promise)")
+        ax.legend(handles=[
+            Patch(facecolor=style.PAPER, edgecolor=style.SLATE, label="Kp forecast"),
+            Patch(facecolor=style.PAPER, edgecolor=style.SLATE, hatch="///",
+                  label="outlook from Kp history"),
+            Patch(facecolor=style.PAPER, edgecolor=style.SLATE, hatch="xx",
+                  label="no darkness or no data"),
+        ], loc="upper left", bbox_to_anchor=(0, -0.14), ncols=3)
+        ax.set_title(heatmap.get("title", ""), loc="left", fontsize=16, fontweight="bold")
+        return _png(fig)
+
+
+def azimuthal_equidistant_km(lat, lon, lat0: float, lon0: float):
+    """Project points onto a plane centred on (lat0, lon0): east and north in km.
+
+    Azimuthal equidistant projection on a sphere: distances and bearings from the centre
+    are true. Snyder (1987), eqs. (5-3), (25-2), (22-4), (22-5).
+
+    Parameters
+    ----------
+    lat, lon : array_like
+        Points in degrees (north, east positive).
+    lat0, lon0 : float
+        Centre of the projection in degrees.
+
+    Returns
+    -------
+    x_km, y_km : ndarray
+        East and north distances on the plane, in km (sphere of radius 6371 km).
+
+    References
+    ----------
+    Snyder, J. P. (1987). Map Projections: A Working Manual. USGS Professional Paper 1395,
+    pp. 191–202.
+    """
+    phi, lam = np.radians(np.asarray(lat, float)), np.radians(np.asarray(lon, float))
+    phi0, lam0 = math.radians(lat0), math.radians(lon0)
+    dlam = lam - lam0
+    cos_c = np.clip(math.sin(phi0) * np.sin(phi) + math.cos(phi0) * np.cos(phi) * np.cos(dlam),
+                    -1.0, 1.0)
+    c = np.arccos(cos_c)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        k = np.where(c > 1e-12, c / np.sin(c), 1.0)
+    x = EARTH_RADIUS_KM * k * np.cos(phi) * np.sin(dlam)
+    y = EARTH_RADIUS_KM * k * (math.cos(phi0) * np.sin(phi)
+                               - math.sin(phi0) * np.cos(phi) * np.cos(dlam))
+    return x, y
+
+
+def _basemap_lines(path) -> list[np.ndarray]:
+    """Coastlines or region edges from a GeoJSON / GeoPackage file as (lon, lat) arrays."""
+    import geopandas
+    import shapely
+
+    from auroraplan.errors import InputError
+
+    try:
+        frame = geopandas.read_file(path)
+    except Exception as exc:  # pyogrio raises several types for unreadable files
+        raise InputError(f"{path}: cannot read the basemap layer ({exc}); give a GeoJSON "
+                         "or GeoPackage file of coastlines or regions") from None
+    if frame.crs is not None and frame.crs.to_epsg() != 4326:
+        frame = frame.to_crs(4326)
+    lines = []
+    for geom in frame.geometry.dropna():
+        edge = geom.boundary if geom.geom_type in ("Polygon", "MultiPolygon") else geom
+        for part in shapely.get_parts(edge):
+            if part.geom_type in ("LineString", "LinearRing"):
+                lines.append(np.asarray(part.coords)[:, :2])
+    return lines
+
+
+def oval_map_png(oval_map: dict) -> bytes:
+    """The oval band around the base with the sites, on a base-centred map in km.
+
+    Parameters
+    ----------
+    oval_map : dict
+        ``base`` {name, lat, lon}; ``sites`` [{name, lat, lon, closed}]; ``kp``;
+        ``when_utc``; ``bands`` {equatorward, poleward, diffuse: {lat: [...], lon: [...]}}
+        (geographic polylines, NaN or null between pieces); ``basemap``: path of a GeoJSON
+        or GeoPackage layer, or null.
+
+    Returns
+    -------
+    bytes
+        PNG, 1200 × 1200 px, azimuthal equidistant around the base (north up at the base).
+    """
+    import matplotlib
+
+    base = oval_map["base"]
+    lat0, lon0 = float(base["lat"]), float(base["lon"])
+    sites = oval_map.get("sites") or []
+    sx, sy = azimuthal_equidistant_km([s["lat"] for s in sites], [s["lon"] for s in sites],
+                                      lat0, lon0)
+    far = float(np.max(np.hypot(sx, sy))) if sites else 0.0
+    half = max(900.0, 1.3 * far)
+    band_style = {
+        "diffuse": dict(color=style.TEAL, lw=1.5, ls=":", label="diffuse aurora, equatorward edge"),
+        "equatorward": dict(color=style.TEAL, lw=2.5, ls="-", label="oval, equatorward edge"),
+        "poleward": dict(color=style.TEAL, lw=1.8, ls="--", label="oval, poleward edge"),
+    }
+    with matplotlib.rc_context(RC):
+        fig = _figure("oval")
+        ax = fig.subplots()
+        ax.set_aspect("equal")
+        if oval_map.get("basemap"):
+            for line in _basemap_lines(oval_map["basemap"]):
+                x, y = azimuthal_equidistant_km(line[:, 1], line[:, 0], lat0, lon0)
+                ax.plot(x, y, color=style.SLATE, lw=0.8, alpha=0.8)
+        bands = oval_map.get("bands") or {}
+        projected = {}
+        for name in ("diffuse", "equatorward", "poleward"):
+            if name not in bands:
+                continue
+            x, y = azimuthal_equidistant_km(_floats(bands[name]["lat"]),
+                                            _floats(bands[name]["lon"]), lat0, lon0)
+            projected[name] = (x, y)
+            ax.plot(x, y, **band_style[name])
+        _fill_band(ax, projected)
+        for r in _ring_radii(half):
+            ax.add_patch(matplotlib.patches.Circle((0, 0), r, fill=False, ec=style.RULE,
+                                                   lw=0.8, ls="-"))
+            if r < half:
+                ax.text(r * 0.7071, r * 0.7071, f"{r:.0f} km", color=style.SLATE, fontsize=10)
+        key = []
+        for number, (s, x, y) in enumerate(zip(sites, sx, sy, strict=True), start=1):
+            closed = bool(s.get("closed"))
+            ax.plot(x, y, "o", ms=8, mfc="none" if closed else style.INK, mec=style.INK, mew=1.5)
+            ax.annotate(str(number), (x, y), xytext=(5, 4), textcoords="offset points",
+                        fontsize=10, fontweight="bold", color=style.INK)
+            key.append(f"{number}  {s['name']}" + ("  (closed)" if closed else ""))
+        if key:
+            ax.text(0.99, 0.01, "\n".join(key), transform=ax.transAxes, ha="right",
+                    va="bottom", multialignment="left", fontsize=11, linespacing=1.5,
+                    bbox=dict(facecolor=style.PAPER, edgecolor=style.RULE, boxstyle="round"))
+        ax.plot(0, 0, "s", ms=12, color=style.AMBER_INK)
+        ax.annotate(base["name"], (0, 0), xytext=(9, -18), textcoords="offset points",
+                    fontsize=12, fontweight="bold", color=style.AMBER_INK)
+        ax.set_xlim(-half, half)
+        ax.set_ylim(-half, half)
+        ax.set_xlabel("km east of the base")
+        ax.set_ylabel("km north of the base")
+        ax.legend(loc="upper left")
+        when = dt.datetime.fromisoformat(oval_map["when_utc"]).astimezone(dt.UTC)
+        ax.set_title(f"Aurora band for Kp {float(oval_map['kp']):.1f}, "
+                     f"{when.strftime('%d %b %Y %H:%M')} UTC, around {base['name']}",
+                     loc="left", fontsize=15, fontweight="bold")
+        return _png(fig)
+
+
+def _ring_radii(half_km: float) -> list[float]:
+    step = 100.0 if half_km <= 600 else 250.0 if half_km <= 1500 else 500.0
+    return list(np.arange(step, half_km * 1.42, step))
+
+
+def _fill_band(ax, projected: dict) -> None:
+    """Shade between the equatorward and poleward edges when both are unbroken polylines."""
+    if "equatorward" not in projected or "poleward" not in projected:
+        return
+    (ex, ey), (px, py) = projected["equatorward"], projected["poleward"]
+    xs, ys = np.r_[ex, px[::-1]], np.r_[ey, py[::-1]]
+    if np.isnan(xs).any() or np.isnan(ys).any():
+        return
+    ax.fill(xs, ys, color=style.TEAL, alpha=0.12, lw=0, label="oval band")
+
+
+def season_calendar_png(season: dict) -> bytes:
+    """A season's chance per night as a calendar: weeks across, weekdays down, months marked.
+
+    Parameters
+    ----------
+    season : dict
+        ``title``, ``dates`` (YYYY-MM-DD, consecutive or not), ``chance`` (0..1),
+        ``dark_hours`` and ``kinds`` ("forecast" | "outlook" | "none") per date.
+
+    Returns
+    -------
+    bytes
+        PNG, 1600 × 900 px. Forecast nights are outlined in ink; nights with no darkness
+        (or no data) are crossed out on the paper colour; outlook nights are plain colour.
+    """
+    import matplotlib
+    from matplotlib.patches import Patch, Rectangle
+
+    dates = [dt.date.fromisoformat(d) for d in season["dates"]]
+    chance, dark_h = _floats(season["chance"]), _floats(season["dark_hours"])
+    kinds = season["kinds"]
+    first_monday = dates[0] - dt.timedelta(days=dates[0].weekday())
+    week = np.array([(d - first_monday).days // 7 for d in dates])
+    weekday = np.array([d.weekday() for d in dates])
+    cmap = _ramp_cmap()
+    from matplotlib.dates import DateFormatter, MonthLocator
+
+    season_rc = {**RC, "axes.grid": False, "hatch.color": style.RULE, "hatch.linewidth": 0.8}
+    with matplotlib.rc_context(season_rc):
+        fig = _figure("season")
+        cal, hours = fig.subplots(2, 1, height_ratios=[3, 1.2])
+        for i in range(len(dates)):
+            no_dark = kinds[i] == "none" or not dark_h[i] > 0 or np.isnan(chance[i])
+            colour = style.PAPER if no_dark else _hex(cmap(chance[i]))
+            cal.add_patch(Rectangle((week[i], weekday[i]), 1, 1, facecolor=colour,
+                                    edgecolor=style.PAPER, lw=1.5))
+            if no_dark:  # one stroke across the cell: nothing to plan that night
+                cal.plot([week[i] + 0.2, week[i] + 0.8], [weekday[i] + 0.8, weekday[i] + 0.2],
+                         color=style.SLATE, lw=1.2, alpha=0.6)
+            elif kinds[i] == "forecast":
+                cal.add_patch(Rectangle((week[i] + 0.06, weekday[i] + 0.06), 0.88, 0.88,
+                                        fill=False, edgecolor=style.INK, lw=2))
+        n_weeks = int(week.max()) + 1
+        cal.set_xlim(0, n_weeks)
+        cal.set_ylim(7, 0)
+        cal.set_aspect("equal")
+        cal.set_yticks(np.arange(7) + 0.5, ["Mon", "Tue", "Wed", "Thu", "Fri", "Sat", "Sun"])
+        firsts = [(week[i], d) for i, d in enumerate(dates) if d.day == 1 or i == 0]
+        cal.set_xticks([w + 0.5 for w, _ in firsts], [d.strftime("%b %Y") for _, d in firsts])
+        cal.xaxis.tick_top()
+        for w, _ in firsts[1:]:
+            cal.axvline(w, color=style.SLATE, lw=1)
+        cal.tick_params(length=0)
+        for side in cal.spines:
+            cal.spines[side].set_visible(False)
+        mappable = matplotlib.cm.ScalarMappable(cmap=cmap, norm=matplotlib.colors.Normalize(0, 1))
+        bar = fig.colorbar(mappable, ax=cal, shrink=0.7, pad=0.01)
+        bar.set_ticks([0, 0.25, 0.5, 0.75, 1.0], labels=["0 %", "25 %", "50 %", "75 %", "100 %"])
+        bar.set_label("chance per night")
+        cal.legend(handles=[
+            Patch(facecolor=style.PAPER, edgecolor=style.INK, lw=2, label="Kp forecast night"),
+            Patch(facecolor=style.CHANCE_RAMP[2], edgecolor=style.PAPER,
+                  label="outlook from Kp history"),
+            Patch(facecolor=style.PAPER, edgecolor=style.SLATE, hatch="/",
+                  label="no darkness or no data"),
+        ], loc="upper left", bbox_to_anchor=(0, -0.02), ncols=3)
+
+        hours.fill_between(dates, 0, np.nan_to_num(dark_h), color=style.SLATE, alpha=0.25, lw=0)
+        hours.plot(dates, dark_h, color=style.INK, lw=1.5)
+        hours.set_ylabel("dark hours")
+        hours.set_ylim(0, 24)
+        hours.set_xlim(dates[0], dates[-1])
+        hours.xaxis.set_major_locator(MonthLocator())
+        hours.xaxis.set_major_formatter(DateFormatter("%b"))
+        fig.suptitle(season.get("title", ""), x=0.01, ha="left", fontsize=16, fontweight="bold")
+        return _png(fig)

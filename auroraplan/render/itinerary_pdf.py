@@ -1,0 +1,239 @@
+"""The sales agent's printable itinerary: one trip's nights, outings, kit list and cautions."""
+
+from __future__ import annotations
+
+import datetime as dt
+import io
+import unicodedata
+from xml.sax.saxutils import escape
+
+from auroraplan.render import style
+
+# Paper sizes in PostScript points: ISO 216 A4 is 210 × 297 mm; US Letter is 8.5 × 11 in.
+PAPER_PT = {"a4": (595.2756, 841.8898), "letter": (612.0, 792.0)}
+
+# What to wear and bring on a winter night outing (common practice, no source).
+KIT_LIST = [
+    "Layered clothing: thermal base layer, warm mid layer, windproof outer layer",
+    "Insulated winter boots with good grip (ice cleats if you have them)",
+    "Warm hat, mittens (with thin gloves under them), scarf or neck gaiter",
+    "Head torch with a red-light setting, to keep your night vision",
+    "Spare batteries for phone and camera, kept warm in an inside pocket",
+    "A thermos with a hot drink, and a snack",
+]
+
+# Characters the standard PDF fonts (WinAnsi encoding) cannot show, with plain stand-ins:
+# typographic signs, and the Northern Sámi letters that have no Unicode decomposition.
+STAND_INS = {"\u2212": "-", "\u2009": " ", "\u202f": " ", "\u2192": "->", "\u2264": "<=",
+             "\u2265": ">=", "Ŋ": "N", "ŋ": "n", "Đ": "D", "đ": "d", "Ŧ": "T", "ŧ": "t"}
+
+
+def printable(text) -> str:
+    """Text the standard PDF fonts can show: WinAnsi (cp1252) characters kept, others folded.
+
+    Letters outside cp1252 (for example Sámi ŋ or ŧ) lose their accents by Unicode
+    decomposition; anything still outside becomes "?".
+    """
+    out = []
+    for ch in "" if text is None else str(text):
+        ch = STAND_INS.get(ch, ch)
+        try:
+            ch.encode("cp1252")
+        except UnicodeEncodeError:
+            base = unicodedata.normalize("NFKD", ch).encode("cp1252", "ignore").decode("cp1252")
+            ch = base or "?"
+        out.append(ch)
+    return "".join(out)
+
+
+def _p(text) -> str:
+    """Escape text for a reportlab Paragraph after folding it to printable characters."""
+    return escape(printable(text))
+
+
+def _day(date_text: str) -> str:
+    d = dt.date.fromisoformat(date_text)
+    return f"{d.strftime('%a')} {d.day} {d.strftime('%b %Y')}"
+
+
+def _styles():
+    from reportlab.lib import colors
+    from reportlab.lib.styles import ParagraphStyle
+
+    ink, slate = colors.HexColor(style.INK), colors.HexColor(style.SLATE)
+    amber = colors.HexColor(style.AMBER_INK)
+    body = ParagraphStyle("body", fontName="Helvetica", fontSize=9.5, leading=12.5,
+                          textColor=ink)
+    return {
+        "title": ParagraphStyle("title", parent=body, fontName="Helvetica-Bold", fontSize=18,
+                                leading=22, spaceAfter=2),
+        "sub": ParagraphStyle("sub", parent=body, textColor=slate, fontSize=10, leading=13),
+        "h2": ParagraphStyle("h2", parent=body, fontName="Helvetica-Bold", fontSize=11.5,
+                             leading=15, spaceBefore=10, spaceAfter=3, textColor=amber),
+        "body": body,
+        "cell": ParagraphStyle("cell", parent=body, fontSize=9, leading=11),
+        "cellb": ParagraphStyle("cellb", parent=body, fontName="Helvetica-Bold", fontSize=9,
+                                leading=11),
+        "small": ParagraphStyle("small", parent=body, fontSize=8, leading=10, textColor=slate),
+        "bullet": ParagraphStyle("bullet", parent=body, leftIndent=12, bulletIndent=2),
+    }
+
+
+def _find_trip(report: dict, trip_id: str) -> dict:
+    from auroraplan.errors import InputError
+
+    for trip in report.get("trips", []):
+        if str(trip["trip"]) == str(trip_id):
+            return trip
+    known = ", ".join(str(t["trip"]) for t in report.get("trips", [])) or "none"
+    raise InputError(f"trip {trip_id!r} is not in this plan; known trips: {known}")
+
+
+def _night_rows(report: dict, trip: dict, st: dict) -> list:
+    from reportlab.platypus import Paragraph
+
+    plan = {p["date"]: p for p in report.get("plan", []) if str(p["trip"]) == str(trip["trip"])}
+    header = ["Night", "Outing", "Where", "Pick-up – return", "Chance", "Based on"]
+    rows = [[Paragraph(_p(h), st["cellb"]) for h in header]]
+    for night in trip.get("nights", []):
+        if not night.get("in_stay", True):
+            continue
+        rows.append([Paragraph(c, st["cell"]) for c in _night_cells(night, plan.get(night["date"]))])
+    return rows
+
+
+def _night_cells(night: dict, outing: dict | None) -> list[str]:
+    basis = style.KIND_WORDS.get(night.get("kind"), str(night.get("kind")))
+    if outing is None:
+        what = ("No outing (the group is not available)" if night.get("blocked")
+                else "Free evening (no outing planned)")
+        chance = night.get("chance")
+        best = ("—" if chance is None
+                else f"best nearby {style.chance_in_words(chance)} ({style.percent(chance)})")
+        return [_p(_day(night["date"])), "No", _p(what), "—", _p(best), _p(basis)]
+    pickup, back = style.local_time(outing.get("pickup")), style.local_time(outing.get("return"))
+    where = f"<b>{_p(outing['site'])}</b>"
+    if outing.get("backup"):
+        where += f"<br/>backup: {_p(outing['backup'])}"
+        if outing.get("backup_chance") is not None:
+            where += f" ({_p(style.percent(outing['backup_chance']))})"
+    chance = outing.get("chance")
+    return [
+        _p(_day(night["date"])), "<b>Yes</b>", where,
+        _p(f"{pickup} – {back}"),
+        _p(f"{style.chance_in_words(chance or 0)} ({style.percent(chance)})"),
+        _p(basis),
+    ]
+
+
+def _night_table(rows: list, width: float):
+    from reportlab.lib import colors
+    from reportlab.platypus import Table, TableStyle
+
+    fractions = [0.15, 0.10, 0.29, 0.15, 0.15, 0.16]
+    table = Table(rows, colWidths=[f * width for f in fractions], repeatRows=1)
+    table.setStyle(TableStyle([
+        ("VALIGN", (0, 0), (-1, -1), "TOP"),
+        ("LINEBELOW", (0, 0), (-1, 0), 1.0, colors.HexColor(style.INK)),
+        ("LINEBELOW", (0, 1), (-1, -1), 0.4, colors.HexColor(style.RULE)),
+        ("BACKGROUND", (0, 0), (-1, 0), colors.HexColor(style.AMBER_LIGHT)),
+        ("TOPPADDING", (0, 0), (-1, -1), 4), ("BOTTOMPADDING", (0, 0), (-1, -1), 4),
+    ]))
+    return table
+
+
+def _made_line(report: dict) -> str:
+    from auroraplan.render.phone import _stamp
+
+    fc = report.get("forecast") or {}
+    made_t = _stamp(report.get("made_at"))
+    note = f" ({fc['note']})" if fc.get("note") else ""
+    return (f"Made {made_t} from {fc.get('file', 'no forecast file')}{note}. "
+            "Nights marked 'Kp forecast' use the space-weather forecast; nights marked "
+            "'outlook from Kp history' are beyond it and use what past years were like "
+            "in the same season, so treat them as a rough guide.")
+
+
+def _footer(report: dict, trip: dict):
+    def draw(canvas, doc):
+        from reportlab.lib import colors
+
+        canvas.saveState()
+        canvas.setFont("Helvetica", 7.5)
+        canvas.setFillColor(colors.HexColor(style.SLATE))
+        text = printable(f"{report.get('operator', '')} · trip {trip['trip']} · "
+                         f"page {doc.page} · chances are forecasts, not promises")
+        canvas.drawString(doc.leftMargin, doc.bottomMargin - 18, text)
+        canvas.restoreState()
+
+    return draw
+
+
+def itinerary_pdf(report: dict, trip_id: str, paper: str = "A4") -> bytes:
+    """Render one trip of a ``week`` report as a printable PDF itinerary.
+
+    Parameters
+    ----------
+    report : dict
+        The JSON-ready dict the ``week`` command prints with ``--json``.
+    trip_id : str
+        The ``trip`` identifier from trips.csv.
+    paper : {"A4", "Letter"}
+        Paper size: ISO 216 A4 (210 × 297 mm) or US Letter (8.5 × 11 in).
+
+    Returns
+    -------
+    bytes
+        A PDF made with reportlab's standard Helvetica fonts (WinAnsi encoding), so it
+        embeds nothing and prints anywhere.
+
+    Raises
+    ------
+    auroraplan.errors.InputError
+        When the trip is not in the report or the paper size is unknown.
+    """
+    from reportlab.lib.units import mm
+    from reportlab.platypus import Paragraph, SimpleDocTemplate, Spacer
+
+    from auroraplan.cautions import CAUTIONS, FORECAST_NOT_PROMISE
+    from auroraplan.errors import InputError
+
+    size = PAPER_PT.get(str(paper).lower())
+    if size is None:
+        raise InputError(f"paper {paper!r} is not known; choose A4 or Letter")
+    trip = _find_trip(report, trip_id)
+    st = _styles()
+    buf = io.BytesIO()
+    doc = SimpleDocTemplate(
+        buf, pagesize=size, leftMargin=18 * mm, rightMargin=18 * mm, topMargin=16 * mm,
+        bottomMargin=18 * mm, title=printable(f"Aurora evenings: {trip['group']}"),
+        author=printable(report.get("operator", "")), creator="auroraplan",
+    )
+    base = (report.get("base") or {}).get("name", "")
+    n_out = sum(1 for p in report.get("plan", []) if str(p["trip"]) == str(trip["trip"]))
+    story = [
+        Paragraph(_p(f"Aurora evenings for {trip['group']}"), st["title"]),
+        Paragraph(_p(f"{report.get('operator', '')} · from {base} · trip {trip['trip']} · "
+                     f"{trip['guests']} guests"), st["sub"]),
+        Paragraph(_p(f"Stay: arriving {_day(trip['arrive'])}, leaving {_day(trip['depart'])}. "
+                     f"{n_out} evening outing{'s' if n_out != 1 else ''} planned. "
+                     "Times are local time at the base."), st["sub"]),
+        Spacer(1, 8),
+        Paragraph("Your evenings", st["h2"]),
+        _night_table(_night_rows(report, trip, st), doc.width),
+        Spacer(1, 4),
+        Paragraph(_p("If the main site is clouded over or unsafe on the night, the guide "
+                     "takes the group to the backup site, or changes the plan."), st["small"]),
+        Paragraph("What to wear and bring", st["h2"]),
+        *[Paragraph(_p(item), st["bullet"], bulletText="•") for item in KIT_LIST],
+        Paragraph("Please read: safety", st["h2"]),
+        *[Paragraph(_p(c), st["bullet"], bulletText="•")
+          for c in (report.get("cautions") or CAUTIONS)],
+        Paragraph("About the chances", st["h2"]),
+        Paragraph(_p(report.get("notice") or FORECAST_NOT_PROMISE), st["body"]),
+        Spacer(1, 3),
+        Paragraph(_p(_made_line(report)), st["small"]),
+    ]
+    footer = _footer(report, trip)
+    doc.build(story, onFirstPage=footer, onLaterPages=footer)
+    return buf.getvalue()
