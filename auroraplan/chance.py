@@ -226,7 +226,7 @@ def compute_grid(
         kp_sd = np.full(times_utc.shape, np.nan)
         covered = np.zeros(times_utc.shape, bool)
     kind = np.where(covered, "forecast", "none").astype(object)
-    rest = ~covered if climatology is not None else np.zeros_like(covered)
+    rest = ~covered if climatology else np.zeros_like(covered)
     kind[rest] = "outlook"
 
     def p_reach(offset):

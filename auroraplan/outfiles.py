@@ -39,6 +39,7 @@ def write_bytes_atomic(path, data: bytes) -> Path:
     try:
         with os.fdopen(fd, "wb") as fh:
             fh.write(data)
+        os.chmod(tmp, 0o666 & ~_umask())  # as an ordinary new file, not mkstemp's 0600
         os.replace(tmp, out)
     except BaseException:
         if os.path.exists(tmp):
@@ -50,3 +51,9 @@ def write_bytes_atomic(path, data: bytes) -> Path:
 def write_text_atomic(path, text: str) -> Path:
     """Write UTF-8 text atomically (see :func:`write_bytes_atomic`)."""
     return write_bytes_atomic(path, text.encode("utf-8"))
+
+
+def _umask() -> int:
+    mask = os.umask(0)
+    os.umask(mask)
+    return mask

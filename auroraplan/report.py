@@ -455,7 +455,7 @@ def season_report(ws, first: dt.date, last: dt.date, trip_nights: int = 5, progr
         "date": d.isoformat(),
         "dark_hours": _num(dark_hours[i], 2),
         "chance": _num(best_chance[i], 3),
-        "best_site": open_sites[best[i]].name if open_sites else None,
+        "best_site": open_sites[best[i]].name if open_sites and best_chance[i] > 0 else None,
         "chance_base": _num(p_any[-1, i], 3),
         "moon_illumination": _num(illum[i], 2),
         "kind": "outlook",
@@ -521,8 +521,9 @@ def oval_map_data(ws, kp: float, date: dt.date, basemap=None) -> dict:
         "sites": [{"name": s.name, "lat": s.lat, "lon": s.lon, "closed": s.closed} for s in ws.sites],
         "kp": float(kp),
         "when_utc": utc_iso(np.datetime64(when.replace(tzinfo=None), "s")),
-        "bands": {k: {"lat": [_num(v, 3) for v in b["lat"]], "lon": [_num(v, 3) for v in b["lon"]]}
-                  for k, b in bands.items() if k in ("equatorward", "poleward", "diffuse")},
+        "bands": {k: {"lat": [_num(v, 3) for v in bands[f"{k}_lat"]],
+                      "lon": [_num(v, 3) for v in bands[f"{k}_lon"]]}
+                  for k in ("equatorward", "poleward", "diffuse") if f"{k}_lat" in bands},
         "basemap": str(basemap) if basemap else None,
     }
 

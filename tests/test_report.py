@@ -1,0 +1,254 @@
+"""The main job on the demo scenario: tonight's shortlist, the week plan and the season outlook.
+
+The demo workspace is invented (demo_sites/README.md); the checks here are
+about how the tool ranks and plans, each against what the trade expects.
+"""
+
+import dataclasses
+import datetime as dt
+import json
+import subprocess
+import sys
+from collections import Counter
+
+import numpy as np
+import pandas as pd
+import pytest
+
+from auroraplan import report
+from auroraplan.workspace import load_workspace
+
+STORM_NIGHT = dt.date(2027, 1, 12)
+
+
+@pytest.fixture(scope="module")
+def ws():
+    from tests.conftest import DEMO_SITES
+
+    return load_workspace(DEMO_SITES)
+
+
+@pytest.fixture(scope="module")
+def storm_night(ws):
+    return report.tonight_report(ws, STORM_NIGHT, top=None)
+
+
+@pytest.fixture(scope="module")
+def week(ws):
+    return report.week_report(ws, dt.date(2027, 1, 11), 7)
+
+
+def run_cli(*argv):
+    return subprocess.run([sys.executable, "-m", "auroraplan.cli", *argv],
+                          capture_output=True, text=True)
+
+
+# --- tonight -----------------------------------------------------------------------------
+
+
+def test_shortlist_is_ranked_by_chance(storm_night):
+    chances = [s["chance"] for s in storm_night["sites"]]
+    assert chances == sorted(chances, reverse=True)
+    assert [s["rank"] for s in storm_night["sites"]] == list(range(1, len(chances) + 1))
+
+
+def test_storm_night_clear_sites_outrank_cloudy_ones(storm_night):
+    # On the storm night a front covers the coast (demo_sites/README.md).
+    sites = storm_night["sites"]
+    clear = [s["rank"] for s in sites if s["cloud_pct"] is not None and s["cloud_pct"] < 30]
+    cloudy = [s["rank"] for s in sites if s["cloud_pct"] is not None and s["cloud_pct"] > 70]
+    assert clear and cloudy
+    assert max(clear) < min(cloudy)
+    assert all(s["limiting"] == "cloud" for s in sites if s["cloud_pct"] and s["cloud_pct"] > 70)
+
+
+def test_closed_site_is_never_on_the_shortlist(ws, storm_night):
+    closed = {s.name for s in ws.sites if s.closed}
+    assert closed and not closed & {s["name"] for s in storm_night["sites"]}
+
+
+def test_shortlist_fields_for_the_guide(storm_night):
+    first = storm_night["sites"][0]
+    start = dt.datetime.fromisoformat(first["window_start"])
+    end = dt.datetime.fromisoformat(first["window_end"])
+    assert dt.timedelta(minutes=30) <= end - start <= dt.timedelta(hours=3)
+    assert start.utcoffset() == dt.timedelta(hours=1)  # Oslo in winter (IANA tz data)
+    assert 0.0 <= first["look_azimuth"] < 360.0 and first["look_compass"]
+    assert 0.0 <= first["moon_illumination"] <= 1.0
+    assert first["hourly"] and all(0.0 <= h["chance"] <= 1.0 for h in first["hourly"])
+    assert storm_night["cautions"] and "not promises" in storm_night["notice"]
+
+
+def _marginal(ws, kp):
+    """The ridge site and its open neighbour made equal in all but the horizon, with a
+    flat Kp forecast, no cloud forecast and the same clear-sky climatology."""
+    ridge = next(s for s in ws.sites if s.name == "Ridgeback Hollow")
+    open_ = next(s for s in ws.sites if s.name == "Delta Flats")
+    twin = dataclasses.replace(ridge, lat=open_.lat, lon=open_.lon, height_m=open_.height_m,
+                               sky_mag=open_.sky_mag, clear_by_month=open_.clear_by_month)
+    starts = pd.date_range("2027-01-12T00:00Z", periods=16, freq="3h")
+    activity = pd.DataFrame({"start_utc": starts, "kp": float(kp), "kp_sd": 0.3})
+    return dataclasses.replace(ws, sites=[twin, open_], activity=activity,
+                               clouds=ws.clouds.iloc[0:0])
+
+
+def test_ridge_site_ranks_below_its_open_neighbour_when_activity_is_marginal(ws):
+    quiet = report.tonight_report(_marginal(ws, 0.33), STORM_NIGHT, climatology=False)
+    by_name = {s["name"]: s["chance"] for s in quiet["sites"]}
+    assert quiet["sites"][0]["name"] == "Delta Flats"
+    assert by_name["Ridgeback Hollow"] < by_name["Delta Flats"] - 0.05
+    # In a storm both see the band and the ridge costs little.
+    storm = report.tonight_report(_marginal(ws, 7.0), STORM_NIGHT, climatology=False)
+    gap_storm = np.subtract(*[s["chance"] for s in storm["sites"]])
+    assert abs(gap_storm) < by_name["Delta Flats"] - by_name["Ridgeback Hollow"]
+
+
+def test_more_cloud_never_raises_a_sites_chance(ws):
+    cloudier = ws.clouds.copy()
+    cloudier["cloud_pct"] = np.minimum(100.0, cloudier["cloud_pct"] + 25.0)
+    base = report.tonight_report(ws, STORM_NIGHT)
+    worse = report.tonight_report(dataclasses.replace(ws, clouds=cloudier), STORM_NIGHT)
+    before = {s["name"]: s["chance"] for s in base["sites"]}
+    for s in worse["sites"]:
+        assert s["chance"] <= before[s["name"]] + 1e-9
+
+
+def test_a_stronger_forecast_never_lowers_a_sites_chance(ws):
+    stronger = ws.activity.copy()
+    stronger["kp"] = np.minimum(9.0, stronger["kp"] + 1.0)
+    base = report.tonight_report(ws, dt.date(2027, 1, 11))
+    more = report.tonight_report(dataclasses.replace(ws, activity=stronger), dt.date(2027, 1, 11))
+    before = {s["name"]: s["chance"] for s in base["sites"]}
+    for s in more["sites"]:
+        assert s["chance"] >= before[s["name"]] - 1e-9
+
+
+# --- week --------------------------------------------------------------------------------
+
+
+def test_week_plan_respects_the_fleet_and_the_bookings(ws, week):
+    trips = {t.trip: t for t in ws.trips}
+    sites = {s.name: s for s in ws.sites}
+    per_trip = Counter(p["trip"] for p in week["plan"])
+    for trip, count in per_trip.items():
+        assert count <= trips[trip].outings
+    assert len({(p["trip"], p["date"]) for p in week["plan"]}) == len(week["plan"])
+    per_night = Counter(p["date"] for p in week["plan"])
+    assert max(per_night.values()) <= ws.operator.vehicles
+    for p in week["plan"]:
+        t, site = trips[p["trip"]], sites[p["site"]]
+        night = dt.date.fromisoformat(p["date"])
+        assert t.arrive <= night < t.depart and night not in t.blocked
+        assert not site.closed and site.capacity >= t.guests
+        assert p["backup"] != p["site"]
+        # pick-up leaves the drive time before the window; back after it
+        pickup = dt.datetime.fromisoformat(p["pickup"])
+        window = dt.datetime.fromisoformat(p["window_start"])
+        assert window - pickup >= dt.timedelta(minutes=site.drive_min)
+    guests = Counter()
+    for p in week["plan"]:
+        guests[(p["date"], p["site"])] += trips[p["trip"]].guests
+    assert all(g <= sites[s].capacity for (_, s), g in guests.items())
+
+
+def test_week_marks_nights_beyond_the_forecast_as_outlook(week):
+    kinds = {n["date"]: n["kind"] for n in week["night_kinds"]}
+    assert kinds["2027-01-12"] == "forecast"
+    assert kinds["2027-01-16"] == "outlook"
+
+
+def test_the_storm_night_is_planned_for_someone(week):
+    assert any(p["date"] == "2027-01-12" for p in week["plan"])
+
+
+def test_same_input_gives_the_same_plan(ws, week):
+    again = report.week_report(ws, dt.date(2027, 1, 11), 7)
+    assert again["plan"] == week["plan"]
+
+
+def test_week_cli_json_csv_and_calendar(tmp_path, demo_dir):
+    csv_path, ics_path = tmp_path / "week.csv", tmp_path / "plan.ics"
+    result = run_cli("week", str(demo_dir), "--start", "2027-01-11", "--json",
+                     "--csv", str(csv_path), "--ics", str(ics_path))
+    assert result.returncode == 0, result.stderr
+    data = json.loads(result.stdout)
+    assert {"trips", "plan"} <= set(data)
+    assert all({"date", "site", "chance", "window_start", "window_end"} <= set(n)
+               for t in data["trips"] for n in t["nights"])
+    assert all({"trip", "date", "site", "backup"} <= set(p) for p in data["plan"])
+    rows = csv_path.read_text().splitlines()
+    assert rows[0].startswith("trip,date,rank,site,chance")
+    assert ics_path.read_bytes().count(b"BEGIN:VEVENT") == len(data["plan"])
+
+
+@pytest.mark.parametrize("argv, names", [
+    (["--start", "2027-13-01"], "--start"),
+    (["--start", "2027-01-11", "--nights", "0"], "--nights"),
+    (["--start", "2027-01-11", "--csv", "/no/such/folder/w.csv"], "w.csv"),
+])
+def test_week_bad_options_are_one_line(demo_dir, argv, names):
+    result = run_cli("week", str(demo_dir), *argv)
+    assert result.returncode == 2
+    lines = result.stderr.strip().splitlines()
+    assert len(lines) == 1 and names in lines[0] and "Traceback" not in result.stderr
+
+
+def test_week_refuses_to_overwrite_an_input_file(workspace_copy):
+    trips = workspace_copy / "trips.csv"
+    before = trips.read_bytes()
+    result = run_cli("week", str(workspace_copy), "--start", "2027-01-11", "--csv", str(trips))
+    assert result.returncode == 2
+    assert trips.read_bytes() == before
+
+
+def test_tonight_cli_json_first_site_has_the_highest_chance(demo_dir):
+    result = run_cli("tonight", str(demo_dir), "--date", "2027-01-12", "--json")
+    assert result.returncode == 0, result.stderr
+    sites = json.loads(result.stdout)["sites"]
+    keys = {"rank", "name", "chance", "window_start", "window_end", "kp_needed",
+            "look_azimuth", "cloud_pct", "moon_illumination", "drive_min"}
+    assert all(keys <= set(s) for s in sites)
+    assert sites[0]["chance"] == max(s["chance"] for s in sites)
+
+
+# --- season ------------------------------------------------------------------------------
+
+
+@pytest.fixture(scope="module")
+def winter(ws):
+    return report.season_report(ws, dt.date(2026, 11, 20), dt.date(2027, 2, 10), 5)
+
+
+def test_season_full_moon_nights_score_lower_than_new_moon_nights(winter):
+    # Other things equal (deep winter, same climatology): moonlight lowers the
+    # chance (Krisciunas & Schaefer 1991 sky brightness; moon rule in chance.py).
+    nights = winter["nights"]
+    full = [n["chance"] for n in nights if n["moon_illumination"] > 0.9]
+    new = [n["chance"] for n in nights if n["moon_illumination"] < 0.1]
+    assert full and new
+    assert np.mean(full) < np.mean(new)
+
+
+def test_season_gives_best_start_dates(winter):
+    best = winter["best_starts"]
+    assert best and all(0.0 <= b["chance_any"] <= 1.0 for b in best)
+    scores = [b["chance_any"] for b in best]
+    assert scores == sorted(scores, reverse=True)
+
+
+def test_nights_without_darkness_score_zero(ws):
+    # Midnight sun at 69.6 N around the June solstice (common practice).
+    june = report.season_report(ws, dt.date(2027, 6, 10), dt.date(2027, 6, 14), 2)
+    assert all(n["dark_hours"] == 0 and n["chance"] == 0 for n in june["nights"])
+
+
+@pytest.mark.parametrize("argv, names", [
+    (["--from", "2027-01-10", "--to", "2027-01-01"], "--to"),
+    (["--from", "2026-01-01", "--to", "2028-06-01"], "2 years"),
+    (["--from", "2027-01-01", "--to", "2027-01-10", "--trip-nights", "0"], "--trip-nights"),
+])
+def test_season_bad_ranges_are_one_line(demo_dir, argv, names):
+    result = run_cli("season", str(demo_dir), *argv)
+    assert result.returncode == 2
+    lines = result.stderr.strip().splitlines()
+    assert len(lines) == 1 and names in lines[0]
