@@ -423,15 +423,21 @@ def _load_operator(path: Path, label: str, problems: ProblemList) -> Operator | 
 # ---------------------------------------------------------------------------------------
 
 
+def _json_list(value, problem: str):
+    """A list property as given, or parsed from JSON text (GeoPackage columns hold text)."""
+    if not isinstance(value, str):
+        return value
+    try:
+        return json.loads(value)
+    except json.JSONDecodeError:
+        raise ValueError(problem) from None
+
+
 def _horizon(value):
     """A horizon polyline [[azimuth°, elevation°], ...] as an (M, 2) array sorted by azimuth."""
     if _is_missing(value):
         return None
-    if isinstance(value, str):
-        try:
-            value = json.loads(value)
-        except json.JSONDecodeError:
-            raise ValueError("is not a list of [azimuth, elevation] pairs") from None
+    value = _json_list(value, "is not a list of [azimuth, elevation] pairs")
     allowed = "give a list of [azimuth 0-360, elevation -5 to 90] pairs in degrees"
     if not isinstance(value, list) or len(value) < 2:
         raise ValueError(f"needs at least two points; {allowed}")
@@ -457,11 +463,7 @@ def _horizon(value):
 def _clear_by_month(value):
     if _is_missing(value):
         return None
-    if isinstance(value, str):
-        try:
-            value = json.loads(value)
-        except json.JSONDecodeError:
-            raise ValueError("is not a list of 12 fractions") from None
+    value = _json_list(value, "is not a list of 12 fractions")
     if not isinstance(value, list) or len(value) != 12:
         raise ValueError("give 12 fractions 0 to 1, January first")
     check = _number(0, 1)

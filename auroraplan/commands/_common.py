@@ -8,26 +8,25 @@ import sys
 DARKNESS_LEVELS = ("civil", "nautical", "astronomical")
 
 
-def latitude(text: str) -> float:
-    """Latitude in decimal degrees, -90 to 90."""
-    try:
-        value = float(text)
-    except ValueError:
-        raise argparse.ArgumentTypeError(f"{text!r} is not a number; give degrees, -90 to 90") from None
-    if not -90.0 <= value <= 90.0:
-        raise argparse.ArgumentTypeError(f"{text} is outside -90 to 90 degrees")
-    return value
+def number_range(low: float, high: float, what: str):
+    """An option type for a decimal number from ``low`` to ``high``; ``what`` names it in errors."""
+
+    def parse(text: str) -> float:
+        try:
+            value = float(text)
+        except ValueError:
+            raise argparse.ArgumentTypeError(
+                f"{text!r} is not a number; give {what} from {low:g} to {high:g}") from None
+        if not low <= value <= high:
+            raise argparse.ArgumentTypeError(
+                f"{text} is outside {low:g} to {high:g}; give {what} from {low:g} to {high:g}")
+        return value
+
+    return parse
 
 
-def longitude(text: str) -> float:
-    """Longitude in decimal degrees, -180 to 180 (east positive)."""
-    try:
-        value = float(text)
-    except ValueError:
-        raise argparse.ArgumentTypeError(f"{text!r} is not a number; give degrees, -180 to 180") from None
-    if not -180.0 <= value <= 180.0:
-        raise argparse.ArgumentTypeError(f"{text} is outside -180 to 180 degrees")
-    return value
+latitude = number_range(-90.0, 90.0, "a latitude in degrees")
+longitude = number_range(-180.0, 180.0, "a longitude in degrees (east positive)")
 
 
 def iso_date(text: str) -> dt.date:

@@ -1,23 +1,14 @@
 """Auroral oval boundary latitudes by magnetic local time for one Kp, as a table, JSON or a chart."""
 
-import argparse
 
-from auroraplan.commands._common import console, print_json
+from auroraplan.commands._common import console, number_range, print_json
 
 # Model names, repeated here so that --help stays light (auroraplan.oval needs only numpy,
 # but the command module keeps its imports to the standard library).
 MODEL_NAMES = ("starkov1994", "starkov1994-published", "gussenhoven1983")
 
 
-def kp_value(text: str) -> float:
-    """Kp from 0 to 9 as a decimal (thirds as 4.33 / 4.67)."""
-    try:
-        value = float(text)
-    except ValueError:
-        raise argparse.ArgumentTypeError(f"{text!r} is not a number; give a Kp from 0 to 9") from None
-    if not 0.0 <= value <= 9.0:
-        raise argparse.ArgumentTypeError(f"Kp {text} is outside 0 to 9; give a Kp from 0 to 9")
-    return value
+kp_value = number_range(0.0, 9.0, "a Kp")
 
 
 def add_arguments(parser):
