@@ -222,15 +222,17 @@ def site_timeline(ws, date: dt.date, site_name: str, climatology=None) -> dict:
     if climatology is None:
         climatology = default_climatology()
     grid, _ = _grid_for_nights(ws, [site], date, 1, DEFAULT_STEP_MIN, climatology)
+    cfg = chance_settings(ws)
     return {
-        "site": site.name,
+        "site": f"{site.name} (outings {cfg['outing_from']}–{cfg['outing_until']})",
         "date": date.isoformat(),
         "timezone": tz,
         "darkness_level": ws.operator.darkness,
         "times": [local_iso(t, tz) for t in grid.times_utc],
         "sun_alt": [_num(v, 2) for v in grid.sun_alt[0]],
         "moon_alt": [_num(v, 2) for v in grid.moon_alt[0]],
-        "dark": [bool(v) for v in grid.darkness[0] > 0],
+        "dark": [bool(v) for v in grid.dark_sky[0]],
+        "outing": [bool(v) for v in grid.outing],
         "kp_needed": [_num(v, 2) for v in grid.kp_needed[0]],
         "kp_forecast": [_num(v, 2) for v in grid.kp_mean],
         "kp_sd": [_num(v, 2) for v in grid.kp_sd],
