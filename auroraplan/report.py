@@ -96,11 +96,22 @@ def _grid_for_nights(ws, sites, first_night, nights, step_min, climatology, **kw
     return grid, summary
 
 
-def default_climatology():
-    """The bundled Kp climatology, or None when it cannot be built."""
-    from auroraplan import climatology
+def default_climatology(ws=None):
+    """The Kp climatology: from the workspace's own history file when operator.toml names
+    one in [activity] history_file, else from the bundled history."""
+    from pathlib import Path
 
-    return climatology.default_climatology()
+    from auroraplan import climatology
+    from auroraplan.errors import InputError
+
+    name = ((ws.operator.settings or {}).get("activity") or {}).get("history_file") if ws else None
+    if not name:
+        return climatology.default_climatology()
+    path = Path(ws.path) / name
+    if not path.is_file():
+        raise InputError(f"operator.toml: [activity] history_file {name!r}: no such file in "
+                         f"{ws.path}; give a file in the CelesTrak space-weather format")
+    return climatology.build_climatology(climatology.load_history(path))
 
 
 # ---------------------------------------------------------------------------
@@ -112,7 +123,7 @@ def tonight_report(ws, date: dt.date, top: int | None = None, now=None, climatol
     tz = ws.operator.timezone
     sites = [s for s in ws.sites if not s.closed]
     if climatology is None:
-        climatology = default_climatology()
+        climatology = default_climatology(ws)
     grid, summary = _grid_for_nights(ws, sites, date, 1, DEFAULT_STEP_MIN, climatology)
     order = _rank(summary.p_any[:, 0])
     if top:
@@ -220,7 +231,7 @@ def site_timeline(ws, date: dt.date, site_name: str, climatology=None) -> dict:
     tz = ws.operator.timezone
     site = next(s for s in ws.sites if s.name == site_name)
     if climatology is None:
-        climatology = default_climatology()
+        climatology = default_climatology(ws)
     grid, _ = _grid_for_nights(ws, [site], date, 1, DEFAULT_STEP_MIN, climatology)
     cfg = chance_settings(ws)
     return {
@@ -253,7 +264,7 @@ def week_report(ws, start: dt.date, nights: int = 7, progress=None, now=None,
     tz = ws.operator.timezone
     sites = ws.sites
     if climatology is None:
-        climatology = default_climatology()
+        climatology = default_climatology(ws)
     grid, summary = _grid_for_nights(ws, sites, start, nights, DEFAULT_STEP_MIN, climatology)
     dates = [start + dt.timedelta(days=d) for d in range(nights)]
     trips = ws.trips
@@ -415,7 +426,7 @@ def season_report(ws, first: dt.date, last: dt.date, trip_nights: int = 5, progr
 
     tz = ws.operator.timezone
     if climatology is None:
-        climatology = default_climatology()
+        climatology = default_climatology(ws)
     open_sites = [s for s in ws.sites if not s.closed]
     months = [s.clear_by_month for s in open_sites if s.clear_by_month]
     base_clear = tuple(np.mean(np.array(months, float), axis=0)) if months else None

@@ -362,7 +362,9 @@ OPERATOR_SCHEMA = {
         "emission_height_km": (_number(80, 400, "km"), False),
         "oval_model": (_choice(OVAL_MODELS), False),
     },
-    "activity": _spread_checkers(),
+    # history_file: Kp history in the CelesTrak space-weather format, relative to
+    # the workspace, used instead of the bundled file for the climatology.
+    "activity": {**_spread_checkers(), "history_file": (_text, False)},
 }
 FREE_TABLES = ("chance", "planner")
 """Tables read by later stages with their own settings; their keys are not checked here."""

@@ -252,3 +252,23 @@ def test_season_bad_ranges_are_one_line(demo_dir, argv, names):
     assert result.returncode == 2
     lines = result.stderr.strip().splitlines()
     assert len(lines) == 1 and names in lines[0]
+
+
+def test_workspace_history_file_replaces_the_bundled_one(workspace_copy):
+    import shutil
+
+    from auroraplan.climatology import bundled_history_path
+
+    shutil.copy(bundled_history_path(), workspace_copy / "kp_history.txt")
+    toml = workspace_copy / "operator.toml"
+    toml.write_text(toml.read_text().replace(
+        "[activity]\n", '[activity]\nhistory_file = "kp_history.txt"\n'), encoding="utf-8")
+    ok = run_cli("season", str(workspace_copy), "--from", "2027-01-01", "--to", "2027-01-03",
+                 "--trip-nights", "2", "--json")
+    assert ok.returncode == 0, ok.stderr
+    assert len(json.loads(ok.stdout)["nights"]) == 3
+    (workspace_copy / "kp_history.txt").write_text("not a space-weather file\n")
+    bad = run_cli("season", str(workspace_copy), "--from", "2027-01-01", "--to", "2027-01-03",
+                  "--trip-nights", "2")
+    assert bad.returncode == 2
+    assert "kp_history.txt" in bad.stderr and len(bad.stderr.strip().splitlines()) == 1
