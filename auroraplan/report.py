@@ -522,10 +522,22 @@ def best_starts(dates, chance, trip_nights, count=5, min_gap_days=3):
     } for i in picked]
 
 
+BASEMAP_FILES = ("basemap.gpkg", "basemap.geojson")
+
+
 def oval_map_data(ws, kp: float, date: dt.date, basemap=None) -> dict:
-    """The oval band around the base at local magnetic midnight of a night, with the sites."""
+    """The oval band around the base at local magnetic midnight of a night, with the sites.
+
+    A ``basemap.gpkg`` or ``basemap.geojson`` in the workspace (coastlines,
+    roads, regions: the operator's own) is drawn under the band.
+    """
+    from pathlib import Path
+
     from auroraplan import view
 
+    if basemap is None:
+        basemap = next((Path(ws.path) / n for n in BASEMAP_FILES if (Path(ws.path) / n).is_file()),
+                       None)
     op = ws.operator
     when = _magnetic_midnight(op, date)
     bands = view.band_outline(kp, when, model=op.oval_model, height_km=op.emission_height_km)
