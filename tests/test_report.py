@@ -272,3 +272,18 @@ def test_workspace_history_file_replaces_the_bundled_one(workspace_copy):
                   "--trip-nights", "2")
     assert bad.returncode == 2
     assert "kp_history.txt" in bad.stderr and len(bad.stderr.strip().splitlines()) == 1
+
+
+def test_oval_map_draws_the_workspaces_basemap(workspace_copy):
+    from auroraplan.render.charts import oval_map_png
+
+    line = {"type": "Feature", "properties": {},
+            "geometry": {"type": "LineString", "coordinates": [[18.0, 69.5], [20.0, 70.0]]}}
+    (workspace_copy / "basemap.geojson").write_text(
+        json.dumps({"type": "FeatureCollection", "features": [line]}), encoding="utf-8")
+    ws_copy = load_workspace(workspace_copy)
+    data = report.oval_map_data(ws_copy, 5.0, STORM_NIGHT)
+    assert data["basemap"].endswith("basemap.geojson")
+    # The band's equatorward edge is defined at every MLT (Starkov 1994).
+    assert all(v is not None for v in data["bands"]["equatorward"]["lat"])
+    assert oval_map_png(data).startswith(b"\x89PNG")
