@@ -3,6 +3,12 @@
 from auroraplan.commands._common import console, iso_date, print_json
 
 
+def mlt_clock(hours: float) -> str:
+    """Magnetic local time in hours as HH:MM."""
+    minutes = int(round(hours * 60)) % (24 * 60)
+    return f"{minutes // 60:02d}:{minutes % 60:02d}"
+
+
 def add_arguments(parser):
     parser.add_argument("workspace", help="workspace folder (operator.toml, sites.geojson, ...)")
     parser.add_argument("--date", type=iso_date,
@@ -106,5 +112,5 @@ def _print_table(report: dict) -> None:
         clock = r["best_local_time"][11:16] if r["best_local_time"] else "—"
         name = f"{r['name']} (closed)" if r["closed"] else r["name"]
         table.add_row(name, f"{r['mlat']:.1f}°", kp(r["kp_needed_overhead"]),
-                      kp(r["kp_needed_horizon"]), look, f"{r['best_mlt']:05.2f}", clock)
+                      kp(r["kp_needed_horizon"]), look, mlt_clock(r["best_mlt"]), clock)
     console().print(table)

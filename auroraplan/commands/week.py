@@ -88,7 +88,8 @@ def print_week(result):
               f"times in {result['base']['timezone']}")
     out.print(f"[dim]{result['forecast']['note']}[/]")
     planned = {(p["trip"], p["date"]): p for p in result["plan"]}
-    for trip in result["trips"]:
+    away = [t["trip"] for t in result["trips"] if not t["nights"]]
+    for trip in (t for t in result["trips"] if t["nights"]):
         table = new_table(title=f"{trip['trip']} · {trip['group']} · {trip['guests']} guests · "
                             f"{trip['outings']} outings wanted")
         table.add_column("night", no_wrap=True)
@@ -109,6 +110,8 @@ def print_week(result):
                 "blocked" if night["blocked"] else (f"→ {p['site']}" if p else ""),
             )
         out.print(table)
+    if away:
+        out.print(f"[dim]No nights of their stay in these dates: {', '.join(away)}[/]")
     plan = new_table(title="Excursion plan")
     for col in ("night", "trip", "site", "chance", "pick-up", "return", "backup"):
         plan.add_column(col, no_wrap=col in ("night", "chance", "pick-up", "return"))
