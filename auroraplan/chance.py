@@ -145,11 +145,21 @@ _GH_NODES = np.array([-np.sqrt(3.0), 0.0, np.sqrt(3.0)])
 _GH_WEIGHTS = np.array([1.0 / 6.0, 2.0 / 3.0, 1.0 / 6.0])
 
 
-def p_aurora_from_climatology(climatology, kp_needed, times_utc, boundary_sd_kp):
-    """P(Kp ≥ Kp needed) from the climatology, smeared by the boundary's spread."""
+def p_aurora_from_climatology(climatology, kp_needed, times_utc, boundary_sd_kp, known=None):
+    """P(Kp ≥ Kp needed) from the climatology, smeared by the boundary's spread.
+
+    With ``known`` = (block starts, Kp) of known activity, times one solar
+    rotation after a known block use the 27-day recurrence blend
+    (:meth:`auroraplan.climatology.Climatology.prob_with_recurrence`).
+    """
+    def one(need):
+        if known is not None and len(known[0]):
+            return climatology.prob_with_recurrence(need, times_utc, *known)
+        return climatology.prob_kp_at_least(need, times_utc)
+
     total = np.zeros(np.shape(kp_needed))
     for node, weight in zip(_GH_NODES, _GH_WEIGHTS, strict=True):
-        total += weight * climatology.prob_kp_at_least(kp_needed + node * boundary_sd_kp, times_utc)
+        total += weight * one(kp_needed + node * boundary_sd_kp)
     return total
 
 
@@ -227,6 +237,12 @@ def compute_grid(
         covered = np.zeros(times_utc.shape, bool)
     kind = np.where(covered, "forecast", "none").astype(object)
     rest = ~covered if climatology else np.zeros_like(covered)
+    known = None
+    if use_forecast and ws.activity is not None and len(ws.activity) and \
+            hasattr(climatology, "prob_with_recurrence"):
+        from auroraplan.activity import utc_datetime64
+
+        known = (utc_datetime64(ws.activity["start_utc"]), ws.activity["kp"].to_numpy(float))
     kind[rest] = "outlook"
 
     def p_reach(offset):
@@ -238,7 +254,8 @@ def compute_grid(
                 cfg["boundary_sd_kp"])
         if rest.any():
             p[:, rest] = p_aurora_from_climatology(
-                climatology, kp_needed[:, rest] + offset, times_utc[rest], cfg["boundary_sd_kp"])
+                climatology, kp_needed[:, rest] + offset, times_utc[rest], cfg["boundary_sd_kp"],
+                known)
         return p
 
     activity = display_probability(p_reach(0.0), p_reach(cfg["strong_margin_kp"]), cfg)

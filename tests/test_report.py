@@ -287,3 +287,19 @@ def test_oval_map_draws_the_workspaces_basemap(workspace_copy):
     # The band's equatorward edge is defined at every MLT (Starkov 1994).
     assert all(v is not None for v in data["bands"]["equatorward"]["lat"])
     assert oval_map_png(data).startswith(b"\x89PNG")
+
+
+def test_a_storm_recurs_one_solar_rotation_later_in_the_outlook(ws):
+    # 27-day recurrence (Bartels 1934): with the storm of 12 January in the
+    # activity file, the outlook for 8 February (27 days later) is better than
+    # with a quiet file.
+    quiet = ws.activity.copy()
+    quiet["kp"] = 1.0
+    later = dt.date(2027, 2, 8)
+    storm = report.tonight_report(ws, later)
+    calm = report.tonight_report(dataclasses.replace(ws, activity=quiet), later)
+    assert storm["forecast"]["kind"] == "outlook"
+    calm_by = {s["name"]: s["chance"] for s in calm["sites"]}
+    for s in storm["sites"]:
+        assert s["chance"] >= calm_by[s["name"]] - 1e-9
+    assert storm["sites"][0]["chance"] > calm_by[storm["sites"][0]["name"]] + 0.005
