@@ -222,32 +222,26 @@ def _date(text) -> dt.date:
         raise ValueError(f"{raw!r} is not a date; give YYYY-MM-DD, for example 2027-01-12") from None
 
 
-def _csv_number(low, high, unit=""):
-    as_number = _number(low, high, unit)
+def _csv_parsed(checker, what: str, low, high, unit=""):
+    """A CSV cell read as a number, then checked by ``checker`` (range, wholeness)."""
 
     def check(text):
         raw = str(text).strip()
         try:
             value = float(raw)
         except ValueError:
-            raise ValueError(f"{raw!r} is not a number; give {low} to {high} {unit}".rstrip()) from None
-        return as_number(value)
+            raise ValueError(f"{raw!r} is not {what}; give {low} to {high} {unit}".rstrip()) from None
+        return checker(value)
 
     return check
+
+
+def _csv_number(low, high, unit=""):
+    return _csv_parsed(_number(low, high, unit), "a number", low, high, unit)
 
 
 def _csv_whole(low, high, unit=""):
-    as_whole = _whole(low, high, unit)
-
-    def check(text):
-        raw = str(text).strip()
-        try:
-            value = float(raw)
-        except ValueError:
-            raise ValueError(f"{raw!r} is not a whole number; give {low} to {high}") from None
-        return as_whole(value)
-
-    return check
+    return _csv_parsed(_whole(low, high, unit), "a whole number", low, high)
 
 
 # ---------------------------------------------------------------------------------------

@@ -315,30 +315,9 @@ def test_sites_from_a_geopackage_match_the_geojson(workspace_copy, demo):
 # --- trips.csv ---------------------------------------------------------------------------
 
 
-def test_trip_departing_before_it_arrives(workspace_copy):
-    edit_csv(workspace_copy / "trips.csv", 3, "depart", "2027-01-10")
-    one_problem(workspace_copy, "trips.csv line 3, depart", "2027-01-10", "arrive 2027-01-11")
 
 
-def test_trip_departing_the_day_it_arrives(workspace_copy):
-    edit_csv(workspace_copy / "trips.csv", 3, "depart", "2027-01-11")
-    one_problem(workspace_copy, "trips.csv line 3, depart", "not after")
 
-
-def test_trip_with_no_guests(workspace_copy):
-    edit_csv(workspace_copy / "trips.csv", 2, "guests", "0")
-    one_problem(workspace_copy, "trips.csv line 2, guests", "1 to 1000")
-
-
-def test_trip_bigger_than_any_site(workspace_copy):
-    edit_csv(workspace_copy / "trips.csv", 4, "guests", "60")
-    one_problem(workspace_copy, "trips.csv line 4, guests", "largest: 50 at Harbour Steps")
-
-
-def test_blocked_evening_outside_the_stay_is_an_error(workspace_copy):
-    edit_csv(workspace_copy / "trips.csv", 2, "blocked", "2027-01-10;2027-01-20")
-    one_problem(workspace_copy, "trips.csv line 2, blocked", "2027-01-20",
-                "2027-01-09 to 2027-01-14")
 
 
 def test_more_outings_than_free_evenings_is_a_warning(workspace_copy):
@@ -378,24 +357,8 @@ def test_problem_list_is_cut_at_its_limit(workspace_copy):
 # --- activity.csv ------------------------------------------------------------------------
 
 
-def test_kp_12(workspace_copy):
-    edit_csv(workspace_copy / "activity.csv", 2, "kp", "12")
-    one_problem(workspace_copy, "activity.csv line 2, kp", "outside 0 to 9", "G1 to G5")
 
 
-def test_kp_7x(workspace_copy):
-    edit_csv(workspace_copy / "activity.csv", 5, "kp", "7x")
-    one_problem(workspace_copy, "activity.csv line 5, kp", "'7x'", "4-, 4o, 4+")
-
-
-def test_block_time_that_is_not_iso_8601(workspace_copy):
-    edit_csv(workspace_copy / "activity.csv", 4, "start_utc", "11/01/2027 06:00")
-    one_problem(workspace_copy, "activity.csv line 4, start_utc", "ISO 8601", "2027-01-12T18:00Z")
-
-
-def test_block_that_does_not_start_on_a_3_hour_boundary(workspace_copy):
-    edit_csv(workspace_copy / "activity.csv", 4, "start_utc", "2027-01-11T07:00Z")
-    one_problem(workspace_copy, "activity.csv line 4, start_utc", "3-hour")
 
 
 def test_times_with_offsets_are_converted_and_naive_times_are_utc(workspace_copy):
@@ -418,14 +381,6 @@ def test_kp_in_thirds_and_g_scale_are_read(demo):
 # --- clouds.csv --------------------------------------------------------------------------
 
 
-def test_cloud_150_percent(workspace_copy):
-    edit_csv(workspace_copy / "clouds.csv", 2, "cloud_pct", "150")
-    one_problem(workspace_copy, "clouds.csv line 2, cloud_pct", "0 to 100")
-
-
-def test_cloud_time_that_is_not_iso_8601(workspace_copy):
-    edit_csv(workspace_copy / "clouds.csv", 7, "time_utc", "tomorrow")
-    one_problem(workspace_copy, "clouds.csv line 7, time_utc", "ISO 8601")
 
 
 def test_clouds_for_a_site_that_is_not_in_sites_geojson(workspace_copy):
@@ -451,3 +406,25 @@ def test_tables_of_later_stages_pass_through_unchecked(workspace_copy):
     ws = load_workspace(workspace_copy)
     assert ws.operator.settings["planner"]["drive_cost_per_min"] == 0.001
     assert ws.operator.settings["chance"]["moon_beta"] == 0.5
+
+
+# One edit to one CSV cell, one problem naming file, line and field (and what is allowed).
+CSV_CELL_CASES = [
+    pytest.param("trips.csv", 3, "depart", "2027-01-10", ("trips.csv line 3, depart", "2027-01-10", "arrive 2027-01-11",), id="trip_departing_before_it_arrives"),
+    pytest.param("trips.csv", 3, "depart", "2027-01-11", ("trips.csv line 3, depart", "not after",), id="trip_departing_the_day_it_arrives"),
+    pytest.param("trips.csv", 2, "guests", "0", ("trips.csv line 2, guests", "1 to 1000",), id="trip_with_no_guests"),
+    pytest.param("trips.csv", 4, "guests", "60", ("trips.csv line 4, guests", "largest: 50 at Harbour Steps",), id="trip_bigger_than_any_site"),
+    pytest.param("trips.csv", 2, "blocked", "2027-01-10;2027-01-20", ("trips.csv line 2, blocked", "2027-01-20", "2027-01-09 to 2027-01-14",), id="blocked_evening_outside_the_stay_is_an_error"),
+    pytest.param("activity.csv", 2, "kp", "12", ("activity.csv line 2, kp", "outside 0 to 9", "G1 to G5",), id="kp_12"),
+    pytest.param("activity.csv", 5, "kp", "7x", ("activity.csv line 5, kp", "'7x'", "4-, 4o, 4+",), id="kp_7x"),
+    pytest.param("activity.csv", 4, "start_utc", "11/01/2027 06:00", ("activity.csv line 4, start_utc", "ISO 8601", "2027-01-12T18:00Z",), id="block_time_that_is_not_iso_8601"),
+    pytest.param("activity.csv", 4, "start_utc", "2027-01-11T07:00Z", ("activity.csv line 4, start_utc", "3-hour",), id="block_that_does_not_start_on_a_3_hour_boundary"),
+    pytest.param("clouds.csv", 2, "cloud_pct", "150", ("clouds.csv line 2, cloud_pct", "0 to 100",), id="cloud_150_percent"),
+    pytest.param("clouds.csv", 7, "time_utc", "tomorrow", ("clouds.csv line 7, time_utc", "ISO 8601",), id="cloud_time_that_is_not_iso_8601"),
+]
+
+
+@pytest.mark.parametrize("file, line, column, value, fragments", CSV_CELL_CASES)
+def test_one_bad_csv_cell_is_one_line(workspace_copy, file, line, column, value, fragments):
+    edit_csv(workspace_copy / file, line, column, value)
+    one_problem(workspace_copy, *fragments)
