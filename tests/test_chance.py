@@ -109,3 +109,25 @@ def test_best_starts_prefers_the_run_of_good_nights():
     assert len(set(starts)) == 3
 
 
+
+
+@settings(max_examples=100)
+@given(st.floats(0.5, 79.5), st.floats(0.5, 79.5), st.floats(0.0, 179.0), st.floats(0.0, 179.0),
+       st.floats(19.0, 22.0))
+def test_a_brighter_or_higher_moon_never_raises_the_moon_factor(alt1, alt2, phase1, phase2, dark):
+    # Aurora overhead; the moon's brightness from Krisciunas & Schaefer (1991).
+    # The moon stays more than 10 degrees from the aurora: inside 10 degrees the
+    # paper's scattering function switches to another form (their eq. 21) and
+    # is not continuous, so "higher" is not "brighter" across that seam.
+    from auroraplan.sky import moonlit_sky_mag
+
+    low, high = sorted((alt1, alt2))
+    fuller, thinner = sorted((phase1, phase2))  # smaller phase angle = fuller moon
+
+    def factor(moon_alt, phase):
+        sky = moonlit_sky_mag(dark, moon_alt, 180.0, 90.0, 0.0, phase)
+        return chance.moon_factor(dark, sky)
+
+    assert factor(high, thinner) <= factor(low, thinner) + 1e-12
+    assert factor(low, fuller) <= factor(low, thinner) + 1e-12
+    assert abs(factor(-5.0, fuller) - 1.0) < 1e-12  # a moon below the horizon adds nothing
