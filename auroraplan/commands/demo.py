@@ -44,6 +44,9 @@ def run(args):
         for step in steps:
             made.extend(step())
             bar.advance()
+    # People first: the phone page, itineraries and charts; the data files last.
+    order = {".html": 0, ".pdf": 1, ".png": 2, ".ics": 3, ".csv": 4, ".json": 5}
+    made.sort(key=lambda e: order.get(Path(e["href"]).suffix, 9))
     _write_index(ws, out, made)
     print(f"Demo outputs for {ws.operator.name} (invented scenario) written to {out.resolve()}/")
     for entry in made:
