@@ -71,7 +71,9 @@ STARKOV_1994 = {
         "a3": (-4.48, 10.16, -5.87, 0.98),
     },
     "equatorward": {  # equatorward edge of the discrete oval
-        "A0": (1.16, 23.21, -10.97, 2.03),
+        # b0 = 1.61 as in Sigernes et al. (2011) Appendix A; one public
+        # transcription of Starkov's table has 1.16, which moves the edge 0.45 deg.
+        "A0": (1.61, 23.21, -10.97, 2.03),
         "A1": (-9.59, 17.78, -7.20, 0.96),
         "a1": (-2.22, 1.50, -0.58, 0.08),
         "A2": (-12.07, 17.49, -7.96, 1.15),

@@ -7,10 +7,12 @@ from auroraplan import oval
 from auroraplan.errors import InputError
 
 # A second transcription of Starkov (1994a) Table (as reproduced in Sigernes et al. 2011,
-# J. Space Weather Space Clim. 1, A03), typed coefficient by coefficient across the three
-# boundaries: (poleward, equatorward, diffuse) x (b0, b1, b2, b3).
+# J. Space Weather Space Clim. 1, A03, Appendix A), typed coefficient by coefficient across
+# the three boundaries: (poleward, equatorward, diffuse) x (b0, b1, b2, b3). The
+# equatorward A0 b0 reads 1.61 in that appendix as transcribed by several independent
+# public implementations; one other transcription has 1.16 (a swap of two digits).
 STARKOV_BY_COEFFICIENT = {
-    "A0": [(-0.07, 24.54, -12.53, 2.15), (1.16, 23.21, -10.97, 2.03), (3.44, 29.77, -16.38, 3.35)],
+    "A0": [(-0.07, 24.54, -12.53, 2.15), (1.61, 23.21, -10.97, 2.03), (3.44, 29.77, -16.38, 3.35)],
     "A1": [(-10.06, 19.83, -9.33, 1.24), (-9.59, 17.78, -7.20, 0.96), (-2.41, 7.89, -4.32, 0.87)],
     "a1": [(-6.61, 10.17, -5.80, 1.19), (-2.22, 1.50, -0.58, 0.08), (-1.68, -2.48, 1.58, -0.28)],
     "A2": [(-4.44, 7.47, -3.01, 0.25), (-12.07, 17.49, -7.96, 1.15), (-0.74, 3.94, -3.09, 0.72)],
