@@ -94,3 +94,17 @@ def test_an_empty_plan_is_still_a_valid_calendar(week):
     empty = dict(week, plan=[])
     cal = Calendar.from_ical(plan_ics(empty))
     assert cal.walk("VEVENT") == [] and str(cal["VERSION"]) == "2.0"
+
+
+def test_timezone_onsets_are_in_local_time_before_the_change():
+    # EU summer time (Directive 2000/84/EC) starts and ends at 01:00 UTC on the last
+    # Sundays of March and October; RFC 5545 section 3.6.5 writes each onset in the
+    # local time before the change: 02:00 CET in spring, 03:00 CEST in autumn.
+    from zoneinfo import ZoneInfo
+
+    from auroraplan.render.calendar import vtimezone
+
+    text = vtimezone(ZoneInfo("Europe/Oslo"), dt.date(2027, 1, 1), dt.date(2027, 12, 31)).to_ical()
+    assert b"DTSTART:20270328T020000" in text
+    assert b"DTSTART:20271031T030000" in text
+    assert text.count(b"BEGIN:DAYLIGHT") == 1 and text.count(b"BEGIN:STANDARD") == 2

@@ -54,8 +54,8 @@ def plan_ics(report: dict) -> bytes:
     -------
     bytes
         An RFC 5545 VCALENDAR: one VEVENT per outing with DTSTART/DTEND at pick-up and
-        return in the base's IANA zone (TZID, with the VTIMEZONE made from the tz database
-        by icalendar), SUMMARY, LOCATION, GEO (RFC 5545 section 3.8.1.6), DESCRIPTION,
+        return in the base's IANA zone (TZID, with a VTIMEZONE made from the tz database
+        by :func:`vtimezone`), SUMMARY, LOCATION, GEO (RFC 5545 section 3.8.1.6), DESCRIPTION,
         a stable UID and DTSTAMP at the time the plan was made (UTC).
     """
     from icalendar import Calendar, Event
@@ -67,10 +67,14 @@ def plan_ics(report: dict) -> bytes:
     cal.add("version", "2.0")
     cal.add("calscale", "GREGORIAN")
     cal.add("x-wr-calname", f"{report.get('operator', 'auroraplan')} outings")
-    dates = []
-    for outing in report.get("plan", []):
+    outings = [o for o in report.get("plan", []) if o.get("pickup") and o.get("return")]
+    if outings:
+        days = [_local(o[k], zone).date() for o in outings for k in ("pickup", "return")]
+        # Only the transitions around the plan, not the zone's whole history.
+        cal.add_component(vtimezone(zone, min(days) - dt.timedelta(days=366),
+                                    max(days) + dt.timedelta(days=366)))
+    for outing in outings:
         start, end = _local(outing["pickup"], zone), _local(outing["return"], zone)
-        dates += [start.date(), end.date()]
         ev = Event()
         ev.add("uid", outing_uid(outing["trip"], outing["date"], outing["site"]))
         ev.add("dtstamp", made)
@@ -84,8 +88,59 @@ def plan_ics(report: dict) -> bytes:
         ev.add("description", _description(outing, report))
         ev.add("categories", ["aurora outing"])
         cal.add_component(ev)
-    if dates:
-        # Only the transitions around the plan, not the zone's whole history.
-        cal.add_missing_timezones(first_date=min(dates) - dt.timedelta(days=366),
-                                  last_date=max(dates) + dt.timedelta(days=366))
     return cal.to_ical()
+
+
+def offset_changes(zone: ZoneInfo, first: dt.date, last: dt.date):
+    """UTC instants (to the minute) where the zone's UTC offset changes, with the offsets.
+
+    Returns a list of (utc_datetime, offset_before, offset_after, abbreviation_after).
+    """
+    def offset(t):
+        return t.astimezone(zone).utcoffset()
+
+    changes = []
+    day = dt.datetime.combine(first, dt.time(), dt.UTC)
+    end = dt.datetime.combine(last, dt.time(), dt.UTC)
+    step = dt.timedelta(days=1)
+    while day < end:
+        before, after = offset(day), offset(day + step)
+        if before != after:
+            lo, hi = day, day + step  # offset(lo) == before, offset(hi) == after
+            while hi - lo > dt.timedelta(minutes=1):
+                mid = lo + (hi - lo) / 2
+                lo, hi = (mid, hi) if offset(mid) == before else (lo, mid)
+            hi = hi.replace(second=0, microsecond=0)
+            changes.append((hi, before, after, hi.astimezone(zone).tzname()))
+        day += step
+    return changes
+
+
+def vtimezone(zone: ZoneInfo, first: dt.date, last: dt.date):
+    """A VTIMEZONE for ``zone`` between two dates, from the IANA tz database.
+
+    Each sub-component's DTSTART is the onset in the local time *before* the
+    change (RFC 5545, section 3.6.5: "the effective onset date and local
+    time", read with TZOFFSETFROM), e.g. 02:00 for the EU spring change
+    at 01:00 UTC and 03:00 for the autumn one.
+    """
+    from icalendar import Timezone, TimezoneDaylight, TimezoneStandard
+
+    tz = Timezone()
+    tz.add("tzid", zone.key)
+    start = dt.datetime.combine(first, dt.time(), dt.UTC)
+    initial = start.astimezone(zone)
+    base = TimezoneStandard()
+    base.add("dtstart", initial.replace(tzinfo=None))
+    base.add("tzoffsetfrom", initial.utcoffset())
+    base.add("tzoffsetto", initial.utcoffset())
+    base.add("tzname", initial.tzname())
+    tz.add_component(base)
+    for when, before, after, name in offset_changes(zone, first, last):
+        part = TimezoneDaylight() if after > before else TimezoneStandard()
+        part.add("dtstart", (when + before).replace(tzinfo=None))
+        part.add("tzoffsetfrom", before)
+        part.add("tzoffsetto", after)
+        part.add("tzname", name)
+        tz.add_component(part)
+    return tz
