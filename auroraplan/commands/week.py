@@ -118,7 +118,7 @@ def print_week(result):
     for p in sorted(result["plan"], key=lambda p: (p["date"], p["trip"])):
         plan.add_row(short_date(p["date"]) + kind_mark(p["kind"]), p["trip"], p["site"], chance_cell(p["chance"]),
                      clock(p["pickup"]), clock(p["return"]), p["backup"] or "—")
-    out.print(plan)
+    out.print(plan if result["plan"] else "[bold]No outings planned[/] for these dates.")
     out.print("[dim]* outlook: beyond the Kp forecast, from climatology. "
               "Chances are forecasts, not promises.[/]")
     for w in result.get("warnings", []):
