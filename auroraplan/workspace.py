@@ -419,6 +419,18 @@ def _load_operator(path: Path, label: str, problems: ProblemList) -> Operator | 
 # ---------------------------------------------------------------------------------------
 
 
+def _repeated(first_seen: dict, key, where, problems, message: str) -> bool:
+    """True (and one problem) when ``key`` was seen before; else remember where it was seen.
+
+    ``message`` may hold ``{first}``, the place of the first occurrence.
+    """
+    if key in first_seen:
+        problems.add(message.replace("{first}", str(first_seen[key])))
+        return True
+    first_seen[key] = where
+    return False
+
+
 def _json_list(value, problem: str):
     """A list property as given, or parsed from JSON text (GeoPackage columns hold text)."""
     if not isinstance(value, str):
@@ -603,13 +615,10 @@ def _load_sites(path: Path, label: str, problems: ProblemList) -> list[Site] | N
         site = _site_from_feature(i, feature, label, problems)
         if site is None:
             continue
-        if site.name in first_of:
-            problems.add(
-                f"{label} feature {i} {site.name!r}, name: also used by feature "
-                f"{first_of[site.name]}; site names must be unique"
-            )
+        if _repeated(first_of, site.name, i, problems,
+                     f"{label} feature {i} {site.name!r}, name: also used by feature {{first}}; "
+                     "site names must be unique"):
             continue
-        first_of[site.name] = i
         sites.append(site)
     return None if problems else sites
 
@@ -668,13 +677,10 @@ def _load_trips(path, label, sites, problems: ProblemList, warnings: list) -> li
         trip = _trip_from_row(line, row, label, largest, problems)
         if trip is None:
             continue
-        if trip.trip in first_line:
-            problems.add(
-                f"{label} line {line}, trip: {trip.trip!r} is also on line "
-                f"{first_line[trip.trip]}; trip ids must be unique"
-            )
+        if _repeated(first_line, trip.trip, line, problems,
+                     f"{label} line {line}, trip: {trip.trip!r} is also on line {{first}}; "
+                     "trip ids must be unique"):
             continue
-        first_line[trip.trip] = line
         free = len(trip.nights()) - len(set(trip.blocked))
         if trip.outings > free:
             warnings.append(
