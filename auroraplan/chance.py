@@ -415,6 +415,7 @@ def summarise_nights(grid: ChanceGrid, nights: int, settings=None) -> NightSumma
         dark_hours=np.zeros(shape), kind=np.full(nights, "none", dtype=object),
     )
     rows = np.arange(n_sites)
+    step = np.timedelta64(int(round(grid.step_min * 60)), "s")
     for d in range(nights):
         cols = np.flatnonzero(grid.night_index == d)
         if cols.size == 0:
@@ -437,7 +438,6 @@ def summarise_nights(grid: ChanceGrid, nights: int, settings=None) -> NightSumma
         any_dark = dark.any(axis=1)
         out.peak[:, d] = np.where(any_dark, filled[rows, peak], 0.0)
         out.peak_step[:, d] = np.where(any_dark, cols[peak], -1)
-        step = np.timedelta64(int(round(grid.step_min * 60)), "s")
         out.window_start[:, d] = np.where(any_dark, grid.times_utc[cols[lo]], np.datetime64("NaT"))
         out.window_end[:, d] = np.where(any_dark, grid.times_utc[cols[hi]] + step, np.datetime64("NaT"))
         out.limiting[:, d] = limiting_factor(grid, cols, lo, hi, any_dark, cfg)

@@ -13,6 +13,7 @@ from zoneinfo import ZoneInfo
 import numpy as np
 
 from auroraplan.cautions import CAUTIONS, FORECAST_NOT_PROMISE
+from auroraplan.chance import settings_for
 from auroraplan.render.style import chance_in_words, compass_point
 
 DEFAULT_STEP_MIN = 10
@@ -166,7 +167,7 @@ def _tonight_site(ws, grid, summary, site, i, rank, tz):
     az = grid.look_azimuth_deg[i, step]
     dark = grid.darkness[i] > 0
     moon_up = (grid.moon_alt[i] > 0) & dark
-    hourly = hourly_chance(grid, i, tz, chance_settings(ws))
+    hourly = hourly_chance(grid, i, tz, settings_for(ws))
     cloud_window = _window_mean(grid.cloud_pct[i], grid, summary, i)
     return {
         "rank": rank,
@@ -191,12 +192,6 @@ def _tonight_site(ws, grid, summary, site, i, rank, tz):
         "notes": site.notes,
         "hourly": hourly,
     }
-
-
-def chance_settings(ws):
-    from auroraplan.chance import settings_for
-
-    return settings_for(ws)
 
 
 def hourly_chance(grid, i, tz, settings=None):
@@ -233,7 +228,7 @@ def site_timeline(ws, date: dt.date, site_name: str, climatology=None) -> dict:
     if climatology is None:
         climatology = default_climatology(ws)
     grid, _ = _grid_for_nights(ws, [site], date, 1, DEFAULT_STEP_MIN, climatology)
-    cfg = chance_settings(ws)
+    cfg = settings_for(ws)
     return {
         "site": f"{site.name} (outings {cfg['outing_from']}–{cfg['outing_until']})",
         "date": date.isoformat(),

@@ -103,9 +103,3 @@ def time_span(start_iso, end_iso) -> str:
     if not start_iso or not end_iso:
         return "—"
     return f"{local_time(start_iso)}–{local_time(end_iso)}"
-
-
-def ramp_colour(chance: float) -> str:
-    """The CHANCE_RAMP colour for a chance from 0 to 1 (nearest step, no blending)."""
-    c = min(max(float(chance or 0.0), 0.0), 1.0)
-    return CHANCE_RAMP[min(int(c * len(CHANCE_RAMP)), len(CHANCE_RAMP) - 1)]
