@@ -45,20 +45,37 @@ def build_parser() -> argparse.ArgumentParser:
 
 
 def main(argv=None) -> int:
-    parser = build_parser()
-    args = parser.parse_args(argv)
-    if not getattr(args, "command", None):
-        parser.print_help()
-        return 2
+    """Run one command; return its exit code (0 done, 1 internal error, 2 bad input, 130 Ctrl-C)."""
+    command = None
+    try:
+        parser = build_parser()
+        args = parser.parse_args(argv)
+        command = getattr(args, "command", None)
+        if not command:
+            parser.print_help()
+            return 2
+        return _run(args)
+    except KeyboardInterrupt:
+        # Outputs are written to a temporary file and renamed (outfiles.py), so an
+        # interrupted run leaves either the whole file or none of it.
+        sys.stderr.write(f"auroraplan{' ' + command if command else ''}: interrupted; "
+                         "no partly written file was left\n")
+        return 130
+    except BrokenPipeError:
+        # The reader of our output went away (e.g. `| head`): stop quietly.
+        _silence_stdout()
+        return 0
+
+
+def _run(args) -> int:
     try:
         return int(args._run(args) or 0)
     except InputError as exc:
         for problem in exc.problems:
             sys.stderr.write(f"auroraplan {args.command}: {problem}\n")
         return 2
-    except KeyboardInterrupt:
-        sys.stderr.write("auroraplan: interrupted\n")
-        return 130
+    except (KeyboardInterrupt, BrokenPipeError):
+        raise
     except Exception as exc:  # internal error: keep the traceback behind --debug
         if args.debug:
             raise
@@ -67,6 +84,17 @@ def main(argv=None) -> int:
             "(run again with --debug for the traceback)\n"
         )
         return 1
+
+
+def _silence_stdout() -> None:
+    """Point stdout at /dev/null so that Python's flush at exit does not fail again."""
+    import os
+
+    try:
+        devnull = os.open(os.devnull, os.O_WRONLY)
+        os.dup2(devnull, sys.stdout.fileno())
+    except (OSError, ValueError):
+        pass
 
 
 if __name__ == "__main__":
