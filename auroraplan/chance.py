@@ -57,9 +57,12 @@ DEFAULT_SETTINGS = {
 def display_probability(p_reach, p_strong, cfg=None):
     """Chance of a visible display in one decorrelation time, given activity.
 
-    ``p_reach`` = P(Kp ≥ Kp needed), ``p_strong`` = P(Kp ≥ Kp needed + margin).
-    q = q_quiet · p_reach + (q_active − q_quiet) · p_strong; both terms rise
-    with Kp, so q never falls when the forecast rises.
+    ``p_reach`` = P(Kp needed ≤ Kp < Kp lost), ``p_strong`` = P(Kp needed +
+    margin ≤ Kp < Kp lost), where Kp lost (``view.kp_lost_at``) is where the
+    band leaves the view of a polar-cap site (inf elsewhere).
+    q = q_quiet · p_reach + (q_active − q_quiet) · p_strong. Below Kp lost
+    both terms rise with Kp, so q never falls when the forecast rises; a
+    forecast beyond Kp lost lowers q for that site, as it should.
     """
     cfg = cfg or DEFAULT_SETTINGS
     q0, q1 = cfg["display_quiet"], cfg["display_active"]
@@ -217,6 +220,7 @@ def compute_grid(
         table = kp_table(ws, sites, times_utc[len(times_utc) // 2])
     mlt = magnetic.mlt(table.mlon, times_utc)
     kp_needed = view.kp_needed_at(table, mlt)
+    kp_lost = view.kp_lost_at(table, mlt)
     look_az = view.look_at(table, mlt)
     look_el = view.look_at(replace(table, look_azimuth_deg=table.look_elevation_deg), mlt)
 
@@ -245,20 +249,26 @@ def compute_grid(
         known = (utc_datetime64(ws.activity["start_utc"]), ws.activity["kp"].to_numpy(float))
     kind[rest] = "outlook"
 
-    def p_reach(offset):
-        """P(Kp ≥ Kp needed + offset) from the forecast, else the climatology."""
+    def p_at_least(kp):
+        """P(Kp ≥ kp) (N, T) from the forecast, else the climatology."""
         p = np.full(kp_needed.shape, np.nan)
         if covered.any():
             p[:, covered] = p_aurora_from_forecast(
-                kp_needed[:, covered] + offset, kp_mean[covered], kp_sd[covered],
-                cfg["boundary_sd_kp"])
+                kp[:, covered], kp_mean[covered], kp_sd[covered], cfg["boundary_sd_kp"])
         if rest.any():
             p[:, rest] = p_aurora_from_climatology(
-                climatology, kp_needed[:, rest] + offset, times_utc[rest], cfg["boundary_sd_kp"],
-                known)
+                climatology, kp[:, rest], times_utc[rest], cfg["boundary_sd_kp"], known)
         return p
 
-    activity = display_probability(p_reach(0.0), p_reach(cfg["strong_margin_kp"]), cfg)
+    # A storm that pushes the band out of a polar-cap site's view does not help it:
+    # the band is in view for Kp needed <= Kp < Kp lost (view.kp_lost_at).
+    p_lost = np.zeros(kp_needed.shape)
+    if np.isfinite(kp_lost).any():
+        p_lost = np.where(np.isfinite(kp_lost),
+                          p_at_least(np.where(np.isfinite(kp_lost), kp_lost, 0.0)), 0.0)
+    p_reach = np.maximum(p_at_least(kp_needed) - p_lost, 0.0)
+    p_strong = np.maximum(p_at_least(kp_needed + cfg["strong_margin_kp"]) - p_lost, 0.0)
+    activity = display_probability(p_reach, p_strong, cfg)
 
     if use_clouds:
         p_clear, cloud_pct, cloud_warnings = weather.clear_probability(sites, ws.clouds, times_utc, tz=op.timezone)
@@ -281,9 +291,11 @@ def compute_grid(
 
 
 def settings_for(ws, overrides=None) -> dict:
-    """Chance settings: defaults, then operator.toml [chance] and [planner], then overrides."""
-    from auroraplan.errors import InputError
+    """Chance settings: defaults, then operator.toml [chance] and [planner], then overrides.
 
+    The tables were checked when the workspace was read (workspace.CHANCE_CHECKS:
+    known keys, types and ranges), so nothing here can be bad input.
+    """
     cfg = dict(DEFAULT_SETTINGS)
     doc = ws.operator.settings or {}
     for table in ("chance", "planner"):
@@ -291,16 +303,6 @@ def settings_for(ws, overrides=None) -> dict:
             if key in DEFAULT_SETTINGS:
                 cfg[key] = value
     cfg.update(overrides or {})
-    for key in ("outing_from", "outing_until"):
-        try:
-            _clock_minutes(cfg[key])
-        except (TypeError, ValueError):
-            raise InputError(
-                f"operator.toml: [planner] {key} = {cfg[key]!r} is not a clock time; "
-                "give HH:MM, for example \"18:00\"") from None
-    for key, value in cfg.items():
-        if key not in ("outing_from", "outing_until") and not isinstance(value, int | float):
-            raise InputError(f"operator.toml: [chance] {key} = {value!r} is not a number")
     return cfg
 
 
@@ -424,7 +426,10 @@ def summarise_nights(grid: ChanceGrid, nights: int, settings=None) -> NightSumma
         shown = dark * grid.moon[:, cols] * grid.activity[:, cols]
         c = grid.chance[:, cols]
         out.dark_hours[:, d] = grid.dark_sky[:, cols].sum(axis=1) * grid.step_min / 60.0
-        kinds = set(grid.kind[cols][dark.any(axis=0)]) or {"none"}
+        # Worst source over the dark steps; a night without darkness is described by
+        # its whole span, so a forecast that covers it is not reported as missing.
+        dark_steps = dark.any(axis=0)
+        kinds = set(grid.kind[cols][dark_steps] if dark_steps.any() else grid.kind[cols]) or {"none"}
         out.kind[d] = next(k for k in ("none", "outlook", "forecast") if k in kinds)
         has_data = (~np.isnan(shown) | (dark == 0)).all(axis=1)
         p = p_display_seen(shown, grid.cloud[:, cols], grid.step_min, cfg["decorrelation_min"])

@@ -18,6 +18,87 @@ from auroraplan.render.style import chance_in_words, compass_point
 
 DEFAULT_STEP_MIN = 10
 
+# The sun has set when its centre is 0.833° below the horizon: 34' of refraction and a
+# 16' semi-diameter (the U.S. Naval Observatory's convention for sunrise and sunset).
+SUNSET_ALT_DEG = -0.833
+
+NO_DARKNESS_WORDS = {
+    "midnight sun": "midnight sun (the sun does not set)",
+    "bright night": "bright summer nights (the sun sets but stays above {deg:g}°)",
+    "outside outings": "dark only outside the outing hours {hours}",
+}
+
+
+def _latitude_text(lat: float) -> str:
+    return f"{abs(lat):.1f}° {'N' if lat >= 0 else 'S'}"
+
+
+def _date_spans(dates: list[str]) -> str:
+    """'2027-06-18 to 2027-06-20, 2027-06-23' from a sorted list of ISO dates."""
+    spans: list[list[dt.date]] = []
+    for d in (dt.date.fromisoformat(x) for x in dates):
+        if spans and (d - spans[-1][-1]).days == 1:
+            spans[-1].append(d)
+        else:
+            spans.append([d])
+    return ", ".join(s[0].isoformat() if len(s) == 1 else f"{s[0]} to {s[-1]}" for s in spans)
+
+
+def no_darkness(grid, dates, level: str, lat: float, cfg) -> dict:
+    """The nights on which no site gets dark enough during the outing hours, and why.
+
+    A night is "midnight sun" when the sun's centre stays above −0.833° at every
+    site (USNO sunset convention), "bright night" when it sets but never reaches
+    the operator's darkness level (e.g. −12° nautical), and "outside outings" when
+    it is dark only outside the outing hours.
+
+    Returns
+    -------
+    dict
+        ``nights`` [{date, reason, sun_lowest_deg}] and ``note``: one plain
+        sentence for screens and paper, or None when every night has darkness.
+    """
+    from auroraplan import sky
+
+    rows = []
+    for d, date in enumerate(dates):
+        cols = grid.night_index == d
+        if not cols.any() or (grid.darkness[:, cols] > 0).any():
+            continue
+        lowest = float(np.min(grid.sun_alt[:, cols])) if grid.sun_alt.size else float("nan")
+        if grid.dark_sky[:, cols].any():
+            reason = "outside outings"
+        elif lowest > SUNSET_ALT_DEG:
+            reason = "midnight sun"
+        else:
+            reason = "bright night"
+        rows.append({"date": date.isoformat(), "reason": reason, "sun_lowest_deg": _num(lowest, 1)})
+    if not rows:
+        return {"nights": [], "note": None}
+    deg = sky.DARKNESS_DEG[level]
+    hours = f"({cfg['outing_from']}–{cfg['outing_until']})"
+    parts = []
+    for reason, words in NO_DARKNESS_WORDS.items():
+        got = [r["date"] for r in rows if r["reason"] == reason]
+        if got:
+            parts.append(f"{words.format(deg=deg, hours=hours)} on {_date_spans(got)}")
+    which = "this night" if len(dates) == 1 else (
+        "any of these nights" if len(rows) == len(dates) else f"{len(rows)} of {len(dates)} nights")
+    note = (f"No {level} darkness (sun below {deg:g}°) on {which} at {_latitude_text(lat)}: "
+            + "; ".join(parts) + ". The aurora cannot be seen in a sky this bright; "
+            "no outings can be planned then.")
+    return {"nights": rows, "note": note}
+
+
+def all_closed_note(ws) -> str | None:
+    """One line when every site is closed, saying what to do; None otherwise."""
+    if not ws.sites or any(not s.closed for s in ws.sites):
+        return None
+    path = ws.files.get("sites")
+    name = path.name if path else "sites.geojson"
+    return (f"All {len(ws.sites)} sites in {name} are closed, so there is nothing to rank or "
+            f"plan; set \"closed\": false on a site that is safe to use, or add a site.")
+
 
 
 def local_iso(t64, tz: str) -> str | None:
@@ -123,10 +204,13 @@ def tonight_report(ws, date: dt.date, top: int | None = None, now=None, climatol
     """Tonight's shortlist for the guide: open sites ranked by chance."""
     tz = ws.operator.timezone
     sites = [s for s in ws.sites if not s.closed]
+    closed_note = all_closed_note(ws)
     if climatology is None:
         climatology = default_climatology(ws)
-    grid, summary = _grid_for_nights(ws, sites, date, 1, DEFAULT_STEP_MIN, climatology)
-    order = _rank(summary.p_any[:, 0])
+    # With every site closed the night is still described, at the base.
+    grid, summary = _grid_for_nights(ws, sites or [_base_site(ws)], date, 1, DEFAULT_STEP_MIN,
+                                     climatology)
+    order = _rank(summary.p_any[:, 0]) if sites else []
     if top:
         order = order[:top]
     dark_cols = np.flatnonzero(grid.dark_sky.any(axis=0))
@@ -134,6 +218,8 @@ def tonight_report(ws, date: dt.date, top: int | None = None, now=None, climatol
     for rank, i in enumerate(order, start=1):
         rows.append(_tonight_site(ws, grid, summary, sites[i], i, rank, tz))
     dark_any = grid.darkness.any(axis=0)
+    dark_note = no_darkness(grid, [date], ws.operator.darkness, ws.operator.base_lat,
+                            settings_for(ws))
     return {
         "kind": "tonight",
         "operator": ws.operator.name,
@@ -146,11 +232,26 @@ def tonight_report(ws, date: dt.date, top: int | None = None, now=None, climatol
         "dark_end": (local_iso(grid.times_utc[dark_cols[-1]] + np.timedelta64(DEFAULT_STEP_MIN, "m"), tz)
                      if dark_cols.size else None),
         "moon_illumination": _num(np.mean(grid.moon_illumination), 2),
+        "darkness_note": dark_note["note"],
+        "no_darkness": dark_note["nights"],
+        "closed_note": closed_note,
         "sites": rows,
         "warnings": list(dict.fromkeys(ws.warnings + grid.warnings)),
         "cautions": CAUTIONS,
         "notice": FORECAST_NOT_PROMISE,
     }
+
+
+def _base_site(ws):
+    """An open-horizon viewing point at the base, with the sites' median sky and climate."""
+    from auroraplan.workspace import Site
+
+    months = [s.clear_by_month for s in ws.sites if s.clear_by_month]
+    clear = tuple(np.mean(np.array(months, float), axis=0)) if months else None
+    sky_mags = [s.sky_mag for s in ws.sites] or [21.0]
+    op = ws.operator
+    return Site(name=op.base_name, lat=op.base_lat, lon=op.base_lon,
+                sky_mag=float(np.median(sky_mags)), clear_by_month=clear)
 
 
 def _rank(p_any_column):
@@ -195,7 +296,12 @@ def _tonight_site(ws, grid, summary, site, i, rank, tz):
 
 
 def hourly_chance(grid, i, tz, settings=None):
-    """P(a display is seen) in each dark clock hour of the night at site ``i``."""
+    """P(a display is seen) in each dark clock hour of the night at site ``i``.
+
+    Hours are counted in elapsed time from local noon, so a night when the clocks go
+    forward has one hour fewer and a night when they go back has the repeated hour twice,
+    told apart by the UTC offset in ``time`` and the abbreviation in ``zone``.
+    """
     from auroraplan.chance import DEFAULT_SETTINGS, p_display_seen
 
     cfg = dict(DEFAULT_SETTINGS, **(settings or {}))
@@ -207,8 +313,16 @@ def hourly_chance(grid, i, tz, settings=None):
         if not (grid.darkness[i, sl] > 0).any():
             continue
         p = p_display_seen(shown[sl], grid.cloud[i, sl], grid.step_min, cfg["decorrelation_min"])
-        rows.append({"time": local_iso(grid.times_utc[start], tz), "chance": _num(p, 3)})
+        rows.append({"time": local_iso(grid.times_utc[start], tz), "zone": _zone_name(
+            grid.times_utc[start], tz), "chance": _num(p, 3)})
     return rows
+
+
+def _zone_name(t64, tz: str) -> str:
+    """The zone's abbreviation at a UTC instant (CET, CEST, NZST ...) from the IANA tz data;
+    it tells apart the two 02:00 hours of a night when the clocks go back."""
+    seconds = int(np.asarray(t64, dtype="datetime64[s]").astype(np.int64))
+    return dt.datetime.fromtimestamp(seconds, dt.UTC).astimezone(ZoneInfo(tz)).tzname()
 
 
 def _window_mean(values, grid, summary, i, d=0):
@@ -279,6 +393,8 @@ def week_report(ws, start: dt.date, nights: int = 7, progress=None, now=None,
         value, allowed, chosen, guests, capacity, drive_cost=drive_cost
     ) if chosen else []
 
+    dark_note = no_darkness(grid, dates, ws.operator.darkness, ws.operator.base_lat,
+                            settings_for(ws))
     trip_rows = []
     for r, trip in enumerate(trips):
         rows = []
@@ -344,6 +460,9 @@ def week_report(ws, start: dt.date, nights: int = 7, progress=None, now=None,
         "forecast": forecast_info(ws, list(summary.kind)),
         "vehicles": int(ws.operator.vehicles),
         "night_kinds": [{"date": d.isoformat(), "kind": k} for d, k in zip(dates, summary.kind, strict=True)],
+        "darkness_note": dark_note["note"],
+        "no_darkness": dark_note["nights"],
+        "closed_note": all_closed_note(ws),
         "trips": trip_rows,
         "plan": plan,
         "heatmap": {
@@ -428,6 +547,10 @@ def season_report(ws, first: dt.date, last: dt.date, trip_nights: int = 5, progr
     sky_mags = [s.sky_mag for s in open_sites] or [21.0]
     base = Site(name=ws.operator.base_name, lat=ws.operator.base_lat, lon=ws.operator.base_lon,
                 sky_mag=float(np.median(sky_mags)), clear_by_month=base_clear)
+    # chance_base is that of the open sites' climate: with none open the base takes the
+    # climate of all sites (see _base_site).
+    if not open_sites:
+        base = _base_site(ws)
     sites = open_sites + [base]
     nights = (last - first).days + 1
     step = DEFAULT_STEP_MIN
@@ -480,7 +603,8 @@ def season_report(ws, first: dt.date, last: dt.date, trip_nights: int = 5, progr
                    "3-hour UT block and solar-cycle phase; cloud from each site's clear-sky "
                    "climatology. Every night is an outlook, not a forecast."),
         "nights": rows,
-        "best_starts": best_starts(dates, best_chance, trip_nights, best_count),
+        "best_starts": best_starts(dates, best_chance, trip_nights, best_count) if open_sites else [],
+        "closed_note": all_closed_note(ws),
         "warnings": list(dict.fromkeys(ws.warnings + warnings)),
         "notice": FORECAST_NOT_PROMISE,
     }
@@ -533,13 +657,21 @@ def oval_map_data(ws, kp: float, date: dt.date, basemap=None) -> dict:
     if basemap is None:
         basemap = next((Path(ws.path) / n for n in BASEMAP_FILES if (Path(ws.path) / n).is_file()),
                        None)
+    from auroraplan import magnetic
+
     op = ws.operator
     when = _magnetic_midnight(op, date)
-    bands = view.band_outline(kp, when, model=op.oval_model, height_km=op.emission_height_km)
+    # The band of the base's own magnetic hemisphere: aurora australis for a southern base.
+    base_mlat, _ = magnetic.geo_to_aacgm(np.array([op.base_lat]), np.array([op.base_lon]), 0.0,
+                                         when)
+    hemisphere = "south" if np.nan_to_num(base_mlat[0], nan=op.base_lat) < 0 else "north"
+    bands = view.band_outline(kp, when, model=op.oval_model, height_km=op.emission_height_km,
+                              hemisphere=hemisphere)
     return {
         "base": {"name": op.base_name, "lat": op.base_lat, "lon": op.base_lon},
         "sites": [{"name": s.name, "lat": s.lat, "lon": s.lon, "closed": s.closed} for s in ws.sites],
         "kp": float(kp),
+        "hemisphere": hemisphere,
         "when_utc": utc_iso(np.datetime64(when.replace(tzinfo=None), "s")),
         "bands": {k: {"lat": [_num(v, 3) for v in bands[f"{k}_lat"]],
                       "lon": [_num(v, 3) for v in bands[f"{k}_lon"]]}

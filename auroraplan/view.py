@@ -19,6 +19,19 @@ at that azimuth plus the operator's margin (``min_elevation_deg``).
 - A site poleward of the band (polar cap) looks equatorward, at the band's
   poleward edge.
 
+Visibility need not keep rising with Kp. The oval expands equatorward as Kp
+grows (Starkov 1994a; Feldstein & Starkov 1967), so a site poleward of the
+band at high Kp (the polar cap, e.g. Svalbard near 76 degrees MLAT) sees the
+band at low Kp and loses it below its southern horizon in a strong storm.
+Besides the least Kp at which the band comes into view, the table therefore
+keeps the least Kp above it at which the band has gone out of view again
+(``horizon_lost``). One interval of visibility per site and MLT is kept:
+the equatorward edge moves monotonically equatorward with Kp in the Starkov
+model, but the poleward edge does not, so a band that leaves a site's view
+and comes back at a still higher Kp is counted as out of view from its first
+exit (a cautious choice; found on the same 0.25 Kp scan and 0.01 Kp
+bisection as the Kp needed).
+
 Southern sites use ``|MLAT|`` against the northern boundaries (hemispheric
 symmetry, see :mod:`auroraplan.oval`) and look toward the southern pole.
 
@@ -68,6 +81,10 @@ class KpNeeded:
     horizon : ndarray (N, M)
         Least Kp at which some part of the band is above the site's horizon
         mask plus margin; ``inf`` when not reached by Kp 9.
+    horizon_lost : ndarray (N, M)
+        Least Kp above ``horizon`` at which the band has moved out of view
+        again (equatorward of a polar-cap site, below its horizon); ``inf``
+        when it stays in view up to Kp 9 or never comes into view.
     overhead : ndarray (N, M)
         Least Kp at which the site is under the band; ``inf`` when never.
     look_azimuth_deg, look_elevation_deg : ndarray (N, M)
@@ -86,6 +103,11 @@ class KpNeeded:
     mlon: np.ndarray
     model: str = oval.DEFAULT_MODEL
     settings: dict = field(default_factory=dict)
+    horizon_lost: np.ndarray | None = None
+
+    def __post_init__(self):
+        if self.horizon_lost is None:
+            self.horizon_lost = np.full(np.shape(self.horizon), np.inf)
 
 
 # --- spherical geometry ---------------------------------------------------------------------
@@ -500,14 +522,21 @@ def kp_needed_table(lat, lon, height_m, horizons, min_elevation_deg=5.0,
 
     shape = (n, mlt_h.size)
     horizon, overhead = np.full(shape, np.inf), np.full(shape, np.inf)
+    lost = np.full(shape, np.inf)
     look_az, look_el = np.full(shape, np.nan), np.full(shape, np.nan)
     for start in range(0, n, SITE_CHUNK):
         rows = np.arange(start, min(start + SITE_CHUNK, n))
         vis, under = sky.visible(rows, eq[coarse], pw[coarse], shared=True)  # (n, K, M)
         first_h = _first_index(vis, coarse)
         first_o = _first_index(under, coarse)
+        # First coarse Kp after the first visible one at which the band is out of view.
+        after = coarse[None, :, None] > np.where(first_h >= 0, first_h, coarse[-1])[:, None, :]
+        first_l = _first_index(~vis & after, coarse)
         first_h = _bisect(lambda k, rows=rows: sky.visible(rows, eq[k, cols], pw[k, cols])[0],
                           first_h, KP_COARSE_EVERY)
+        first_l = _bisect(lambda k, rows=rows: ~sky.visible(rows, eq[k, cols], pw[k, cols])[0],
+                          first_l, KP_COARSE_EVERY)
+        lost[rows] = np.where(first_l >= 0, kp_fine[np.maximum(first_l, 0)], np.inf)
         first_o = _bisect(lambda k, rows=rows: sky.visible(rows, eq[k, cols], pw[k, cols])[1],
                           first_o, KP_COARSE_EVERY)
         horizon[rows] = np.where(first_h >= 0, kp_fine[np.maximum(first_h, 0)], np.inf)
@@ -517,9 +546,10 @@ def kp_needed_table(lat, lon, height_m, horizons, min_elevation_deg=5.0,
         look_az[rows] = np.where(first_h >= 0, az, np.nan)
         look_el[rows] = np.where(first_h >= 0, el, np.nan)
     bad = ~np.isfinite(mlat)  # near the magnetic equator AACGM is undefined: never
-    horizon[bad], overhead[bad] = np.inf, np.inf
+    horizon[bad], overhead[bad], lost[bad] = np.inf, np.inf, np.inf
     return KpNeeded(
-        mlt_h=mlt_h, horizon=horizon, overhead=overhead, look_azimuth_deg=look_az,
+        mlt_h=mlt_h, horizon=horizon, overhead=overhead, horizon_lost=lost,
+        look_azimuth_deg=look_az,
         look_elevation_deg=look_el, mlat=mlat, mlon=mlon, model=model,
         settings={"min_elevation_deg": float(min_elevation_deg),
                   "emission_height_km": float(emission_height_km)},
@@ -549,14 +579,29 @@ def kp_needed_at(table: KpNeeded, mlt_h) -> np.ndarray:
         Linear interpolation between the 15-minute columns; where a
         neighbour is inf (not reachable) the larger, i.e. inf, is kept.
     """
+    return _interp_mlt(table, table.horizon, mlt_h, np.maximum)
+
+
+def kp_lost_at(table: KpNeeded, mlt_h) -> np.ndarray:
+    """Kp at which the band has left the site's view again, per site and MLT (N, T).
+
+    Interpolated like :func:`kp_needed_at`; where a neighbour is inf (stays
+    in view) the smaller, finite value is kept, so a polar-cap site is never
+    credited with a storm that has carried the band out of its sight.
+    """
+    return _interp_mlt(table, table.horizon_lost, mlt_h, np.minimum)
+
+
+def _interp_mlt(table: KpNeeded, values, mlt_h, pick):
+    """Periodic linear interpolation of a (N, 96) Kp table at MLTs (N, T); ``pick`` chooses
+    between neighbours when one is infinite."""
     lo, hi, w = _mlt_columns(table, mlt_h)
-    values = table.horizon
     a = np.take_along_axis(values, lo.reshape(len(values), -1), axis=1).reshape(lo.shape)
     b = np.take_along_axis(values, hi.reshape(len(values), -1), axis=1).reshape(lo.shape)
     finite = np.isfinite(a) & np.isfinite(b)
     with np.errstate(invalid="ignore"):
         lin = a + w * (b - a)
-    return np.where(finite, lin, np.where(w == 0, a, np.maximum(a, b)))
+    return np.where(finite, lin, np.where(w == 0, a, pick(a, b)))
 
 
 def look_at(table: KpNeeded, mlt_h) -> np.ndarray:

@@ -4,6 +4,13 @@ import shutil
 from pathlib import Path
 
 import pytest
+from hypothesis import settings
+
+# Property tests check values, never speed: Hypothesis's per-example deadline would turn a
+# slow first call (a lazy import) into a failure. Examples are derived from each test, so a
+# run in CI sees the same cases as a run on a desk; a failure prints how to reproduce it.
+settings.register_profile("auroraplan", deadline=None, derandomize=True, print_blob=True)
+settings.load_profile("auroraplan")
 
 DEMO_SITES = Path(__file__).resolve().parents[1] / "demo_sites"
 

@@ -10,6 +10,7 @@ import json
 import subprocess
 import sys
 from collections import Counter
+from pathlib import Path
 
 import numpy as np
 import pandas as pd
@@ -23,9 +24,7 @@ STORM_NIGHT = dt.date(2027, 1, 12)
 
 @pytest.fixture(scope="module")
 def ws():
-    from tests.conftest import DEMO_SITES
-
-    return load_workspace(DEMO_SITES)
+    return load_workspace(Path(__file__).resolve().parents[1] / "demo_sites")
 
 
 @pytest.fixture(scope="module")

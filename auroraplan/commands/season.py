@@ -73,6 +73,9 @@ def print_season(result):
 
     out = console()
     out.print(f"[bold]Season outlook[/] · {result['base']['name']} · {result['from']} to {result['to']}")
+    if result.get("closed_note"):
+        out.print(f"[bold]{result['closed_note']}[/]", soft_wrap=True)
+        return
     out.print(f"[dim]{result['method']}[/]")
     # One line per week: the mean of its nights, so a season fits a screen.
     weeks = new_table(title="Week by week (mean over nights)")

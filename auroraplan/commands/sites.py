@@ -62,6 +62,7 @@ def sites_report(ws, date=None) -> dict:
             "mlon": round(float(table.mlon[i]), 2),
             "kp_needed_overhead": _finite(table.overhead[i, 0]),
             "kp_needed_horizon": _finite(kp_h),
+            "kp_lost_horizon": _finite(table.horizon_lost[i, 0]),
             "look_azimuth": _finite(az, 1),
             "look_compass": compass_point(az) if np.isfinite(az) else None,
             "look_elevation": _finite(table.look_elevation_deg[i, 0], 1),
@@ -78,7 +79,9 @@ def sites_report(ws, date=None) -> dict:
         "min_elevation_deg": op.min_elevation_deg,
         "emission_height_km": op.emission_height_km,
         "note": "Kp needed at magnetic midnight (MLT 0); null = not reached by Kp 9. "
-        "best_mlt is the night-side magnetic local time needing the least Kp.",
+        "best_mlt is the night-side magnetic local time needing the least Kp. "
+        "kp_lost_horizon: the Kp at which a storm has carried the band out of view again "
+        "(polar-cap sites); null = it stays in view.",
         "sites": rows,
     }
 
@@ -111,6 +114,9 @@ def _print_table(report: dict) -> None:
         look = "—" if r["look_azimuth"] is None else f"{r['look_compass']} {r['look_azimuth']:.0f}°"
         clock = r["best_local_time"][11:16] if r["best_local_time"] else "—"
         name = f"{r['name']} (closed)" if r["closed"] else r["name"]
+        horizon = kp(r["kp_needed_horizon"])
+        if r.get("kp_lost_horizon") is not None:
+            horizon += f" (gone at {r['kp_lost_horizon']:.1f})"
         table.add_row(name, f"{r['mlat']:.1f}°", kp(r["kp_needed_overhead"]),
-                      kp(r["kp_needed_horizon"]), look, mlt_clock(r["best_mlt"]), clock)
+                      horizon, look, mlt_clock(r["best_mlt"]), clock)
     console().print(table)

@@ -65,7 +65,12 @@ def print_tonight(result):
     out.print(f"[bold]Night of {result['date']}[/] · {result['base']['name']} · {dark} "
               f"({result['darkness_level']}) · moon {100 * result['moon_illumination']:.0f}% lit · "
               f"times in {result['base']['timezone']}")
+    if result.get("closed_note"):
+        out.print(f"[bold]{result['closed_note']}[/]", soft_wrap=True)
+        return
     out.print(f"[dim]{result['forecast']['note']}[/]")
+    if result.get("darkness_note"):
+        out.print(f"[bold]{result['darkness_note']}[/]", soft_wrap=True)
     table = new_table()
     for col, justify in (("#", "right"), ("site", "left"), ("chance", "right"), ("window", "left"),
                          ("drive", "right"), ("look", "left"), ("limit", "left"),

@@ -86,7 +86,12 @@ def print_week(result):
     out.print(f"[bold]{result['operator']}[/] · base {result['base']['name']} · "
               f"nights from {result['start']} ({result['nights']}) · "
               f"times in {result['base']['timezone']}")
+    if result.get("closed_note"):
+        out.print(f"[bold]{result['closed_note']}[/]", soft_wrap=True)
+        return
     out.print(f"[dim]{result['forecast']['note']}[/]")
+    if result.get("darkness_note"):
+        out.print(f"[bold]{result['darkness_note']}[/]", soft_wrap=True)
     planned = {(p["trip"], p["date"]): p for p in result["plan"]}
     away = [t["trip"] for t in result["trips"] if not t["nights"]]
     for trip in (t for t in result["trips"] if t["nights"]):

@@ -129,11 +129,20 @@ def bearing_arrow_svg(azimuth_deg, size: int = 44) -> str:
 
 
 def hour_strip_svg(hourly: list[dict], width: int = 320, height: int = 64) -> str:
-    """Bars of the chance hour by hour through the night (full height = 100 %)."""
+    """Bars of the chance hour by hour through the night (full height = 100 %).
+
+    Every elapsed hour has its own bar. When a clock hour occurs twice (the clocks
+    go back that night) both bars are labelled, with the zone's abbreviation under
+    the hour (e.g. 02 CEST, then 02 CET).
+    """
     if not hourly:
         return ""
     n = len(hourly)
-    top, base = 6, height - 16
+    hours = [dt.datetime.fromisoformat(h["time"]).strftime("%H") for h in hourly]
+    repeated = {x for x in hours if hours.count(x) > 1}
+    if repeated:
+        height += 11
+    top, base = 6, height - (27 if repeated else 16)
     step = width / n
     span = base - top
     parts = [
@@ -151,13 +160,19 @@ def hour_strip_svg(hourly: list[dict], width: int = 320, height: int = 64) -> st
         x = i * step
         parts.append(
             f'<rect x="{x + 1:.1f}" y="{base - bar:.1f}" width="{max(step - 2, 1):.1f}" '
-            f'height="{bar:.1f}" fill="currentColor"/>'
+            f'height="{bar:.1f}" fill="currentColor" data-time="{_e(h["time"])}"/>'
         )
-        t = dt.datetime.fromisoformat(h["time"])
-        if i % 2 == 0:
+        label_y = height - 14 if repeated else height - 3
+        if i % 2 == 0 or hours[i] in repeated:
             parts.append(
-                f'<text x="{x + step / 2:.1f}" y="{height - 3}" '
-                f'text-anchor="middle">{t.strftime("%H")}</text>'
+                f'<text x="{x + step / 2:.1f}" y="{label_y}" '
+                f'text-anchor="middle">{hours[i]}</text>'
+            )
+        if hours[i] in repeated:
+            zone = h.get("zone") or dt.datetime.fromisoformat(h["time"]).strftime("%z")
+            parts.append(
+                f'<text x="{x + step / 2:.1f}" y="{height - 3}" text-anchor="middle" '
+                f'style="font-size:8px">{_e(zone)}</text>'
             )
     parts.append("</svg>")
     return "".join(parts)
@@ -271,6 +286,8 @@ def _header(report: dict) -> str:
     moon = report.get("moon_illumination")
     moon_t = f" Moon {round(100 * moon)} % lit." if moon is not None else ""
     dark_t = f"Dark enough ({level}) {dark}." if dark != "—" else f"No {level} darkness tonight."
+    if report.get("darkness_note"):
+        dark_t = report["darkness_note"]
     return (
         "<header>"
         f'<p class="kicker">{_e(report.get("operator", ""))} · night run sheet</p>'
@@ -324,10 +341,8 @@ def phone_page_html(report: dict) -> str:
     """
     sites = sorted(report.get("sites") or [], key=lambda s: s.get("rank") or 0)
     items = "".join(site_item(s) for s in sites)
-    shortlist = (
-        f'<ol class="sites">{items}</ol>' if items
-        else "<p>No site has a usable chance tonight.</p>"
-    )
+    empty = report.get("closed_note") or "No site has a usable chance tonight."
+    shortlist = f'<ol class="sites">{items}</ol>' if items else f"<p>{_e(empty)}</p>"
     base = (report.get("base") or {}).get("name", "")
     title = f"Tonight from {base}, {report.get('date', '')}"
     return (
