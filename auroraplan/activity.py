@@ -25,6 +25,9 @@ G_SCALE_KP = {"G1": 5.0, "G2": 6.0, "G3": 7.0, "G4": 8.0, "G5": 9.0}
 
 _THIRDS_RE = re.compile(r"^([0-9])\s*([-+oO\u2212])$")
 
+KP_SHOWN_CHARS = 30
+"""Longest piece of a bad Kp value quoted back in an error line."""
+
 KP_ALLOWED = (
     "give a Kp from 0 to 9 as a number (4.33), in thirds (4-, 4o, 4+; 0o to 9o) "
     "or a NOAA storm level G1 to G5"
@@ -60,6 +63,7 @@ def parse_kp(text) -> float:
     raw = str(text).strip()
     if not raw:
         raise ValueError(f"empty; {KP_ALLOWED}")
+    quoted = repr(raw) if len(raw) <= KP_SHOWN_CHARS else repr(raw[:KP_SHOWN_CHARS]) + "..."
     g_level = G_SCALE_KP.get(raw.upper())
     if g_level is not None:
         return g_level
@@ -69,14 +73,14 @@ def parse_kp(text) -> float:
         sign = thirds.group(2).replace("\u2212", "-").lower()
         value = base + KP_THIRDS[sign]
         if value < 0 or value > KP_MAX:
-            raise ValueError(f"{raw!r} is not on the Kp scale (0o to 9o); {KP_ALLOWED}")
+            raise ValueError(f"{quoted} is not on the Kp scale (0o to 9o); {KP_ALLOWED}")
         return value
     try:
         value = float(raw)
     except ValueError:
-        raise ValueError(f"{raw!r} is not a Kp value; {KP_ALLOWED}") from None
+        raise ValueError(f"{quoted} is not a Kp value; {KP_ALLOWED}") from None
     if not (math.isfinite(value) and 0.0 <= value <= KP_MAX):
-        raise ValueError(f"{raw!r} is outside 0 to 9; {KP_ALLOWED}")
+        raise ValueError(f"{quoted} is outside 0 to 9; {KP_ALLOWED}")
     return value
 
 

@@ -125,6 +125,22 @@ SITE_DEFAULTS = {"drive_min": 0.0, "capacity": 8, "sky_mag": 21.5}
 HORIZON_EL_RANGE = (-5.0, 90.0)
 KP_SD_RANGE = (0.0, 5.0)
 
+MAX_STAY_NIGHTS = 366
+"""A stay longer than a year in trips.csv is a typo in a date (common practice, no source)."""
+
+FILE_YEARS = (1900, 2099)
+"""Years allowed for times in activity.csv, clouds.csv and [activity] issued_utc: a wide
+net for typos in the year. Times outside the nights being planned are never used, so the
+bound is looser than the ephemeris span of TRIP_DATES (pandas' nanosecond times end in 2262)."""
+
+TRIP_DATES = (dt.date(1900, 1, 1), dt.date(2053, 1, 1))
+"""Arrive and depart dates allowed in trips.csv: nights from sky.FIRST_NIGHT to
+sky.LAST_NIGHT, inside the span of the JPL DE421 ephemeris (Skyfield reports de421.bsp
+as covering 1899-07-29 to 2053-10-09)."""
+
+SHOWN_CHARS = 60
+"""Longest piece of a bad value quoted back in an error line."""
+
 TIME_EXAMPLE = "2027-01-12T18:00Z"
 _ISO_TIME_RE = re.compile(r"^\d{4}-\d{2}-\d{2}[T ]\d{2}:\d{2}")
 
@@ -138,15 +154,30 @@ def _is_missing(value) -> bool:
     return value is None or (isinstance(value, float) and math.isnan(value))
 
 
+def _quote(value) -> str:
+    """``repr`` of a bad value for an error line, cut to SHOWN_CHARS characters."""
+    text = repr(value)
+    return text if len(text) <= SHOWN_CHARS else text[: SHOWN_CHARS - 3] + "..."
+
+
+def _as_float(value) -> float:
+    """A JSON/TOML number as float; integers too large for a float become infinity."""
+    try:
+        return float(value)
+    except OverflowError:
+        return math.inf if value > 0 else -math.inf
+
+
 def _number(low, high, unit=""):
     unit_text = f" {unit}" if unit else ""
 
     def check(value):
         if isinstance(value, bool) or not isinstance(value, int | float):
-            raise ValueError(f"{value!r} is not a number; give {low} to {high}{unit_text}")
-        if not (math.isfinite(value) and low <= value <= high):
-            raise ValueError(f"{value:g} is outside {low} to {high}{unit_text}")
-        return float(value)
+            raise ValueError(f"{_quote(value)} is not a number; give {low} to {high}{unit_text}")
+        number = _as_float(value)
+        if not (math.isfinite(number) and low <= number <= high):
+            raise ValueError(f"{number:g} is outside {low} to {high}{unit_text}")
+        return number
 
     return check
 
@@ -165,26 +196,47 @@ def _whole(low, high, unit=""):
 
 def _choice(allowed):
     def check(value):
-        if value not in allowed:
-            raise ValueError(f"{value!r} is not known; allowed: {', '.join(allowed)}")
+        if not isinstance(value, str) or value not in allowed:
+            raise ValueError(f"{_quote(value)} is not known; allowed: {', '.join(allowed)}")
         return value
 
     return check
 
 
+_CONTROL_RE = re.compile(r"[\x00-\x1f\x7f]")
+_CONTROL_IN_NOTES_RE = re.compile(r"[\x00-\x08\x0b-\x1f\x7f]")  # tabs and line breaks allowed
+_SURROGATE_RE = re.compile(r"[\ud800-\udfff]")
+
+
+def _printable(value: str, control=_CONTROL_RE) -> str:
+    """``value`` if it can be shown and written as UTF-8; ValueError naming the bad character."""
+    bad = _SURROGATE_RE.search(value)
+    if bad:
+        raise ValueError(
+            f"holds a broken character (lone surrogate U+{ord(bad.group()):04X}); retype the text"
+        )
+    bad = control.search(value)
+    if bad:
+        raise ValueError(
+            f"holds a control character (U+{ord(bad.group()):04X}); retype the text"
+        )
+    return value
+
+
 def _text(value):
     if not isinstance(value, str) or not value.strip():
         raise ValueError("must be a non-empty text")
-    return value.strip()
+    return _printable(value.strip())
 
 
 def _zone(value):
     _text(value)
     try:
         zoneinfo.ZoneInfo(value)
-    except (zoneinfo.ZoneInfoNotFoundError, ValueError):
+    except (zoneinfo.ZoneInfoNotFoundError, ValueError, OSError):
+        # OSError: a folder of the zone database ("Europe") or a name too long for a path
         raise ValueError(
-            f"{value!r} is not a known IANA time zone; give a name such as Europe/Oslo"
+            f"{_quote(value)} is not a known IANA time zone; give a name such as Europe/Oslo"
         ) from None
     return value
 
@@ -201,17 +253,34 @@ def parse_utc(text) -> dt.datetime:
         raw = str(text).strip()
         if not _ISO_TIME_RE.match(raw):
             raise ValueError(
-                f"{raw!r} is not an ISO 8601 date and time; give for example {TIME_EXAMPLE}"
+                f"{_quote(raw)} is not an ISO 8601 date and time; give for example {TIME_EXAMPLE}"
             )
         try:
             value = dt.datetime.fromisoformat(re.sub(r"[zZ]$", "+00:00", raw))
         except ValueError:
             raise ValueError(
-                f"{raw!r} is not an ISO 8601 date and time; give for example {TIME_EXAMPLE}"
+                f"{_quote(raw)} is not an ISO 8601 date and time; give for example {TIME_EXAMPLE}"
             ) from None
     if value.tzinfo is None:
         return value.replace(tzinfo=dt.UTC)
-    return value.astimezone(dt.UTC)
+    try:
+        return value.astimezone(dt.UTC)
+    except OverflowError:  # 0001-01-01T00:00+01:00 or 9999-12-31T23:59-01:00
+        raise ValueError(
+            f"{_quote(str(text).strip())} lies outside the calendar in UTC; give a time "
+            f"such as {TIME_EXAMPLE}"
+        ) from None
+
+
+def _file_time(text) -> dt.datetime:
+    """parse_utc, limited to the years FILE_YEARS that the later stages can compute."""
+    value = parse_utc(text)
+    first, last = FILE_YEARS
+    if not first <= value.year <= last:
+        raise ValueError(
+            f"{value:%Y-%m-%dT%H:%MZ} is outside the years {first} to {last}; check the year"
+        )
+    return value
 
 
 def _date(text) -> dt.date:
@@ -219,7 +288,21 @@ def _date(text) -> dt.date:
     try:
         return dt.date.fromisoformat(raw)
     except ValueError:
-        raise ValueError(f"{raw!r} is not a date; give YYYY-MM-DD, for example 2027-01-12") from None
+        raise ValueError(
+            f"{_quote(raw)} is not a date; give YYYY-MM-DD, for example 2027-01-12"
+        ) from None
+
+
+def _trip_date(text) -> dt.date:
+    """A date of trips.csv: _date within TRIP_DATES."""
+    value = _date(text)
+    first, last = TRIP_DATES
+    if not first <= value <= last:
+        raise ValueError(
+            f"{value} is outside {first} to {last}, the dates the sky is computed for; "
+            "check the year"
+        )
+    return value
 
 
 def _csv_parsed(checker, what: str, low, high, unit=""):
@@ -230,7 +313,9 @@ def _csv_parsed(checker, what: str, low, high, unit=""):
         try:
             value = float(raw)
         except ValueError:
-            raise ValueError(f"{raw!r} is not {what}; give {low} to {high} {unit}".rstrip()) from None
+            raise ValueError(
+                f"{_quote(raw)} is not {what}; give {low} to {high} {unit}".rstrip()
+            ) from None
         return checker(value)
 
     return check
@@ -267,6 +352,13 @@ def _read_text(path: Path, label: str, problems: ProblemList) -> str | None:
         return None
     if not text.strip():
         problems.add(f"{label}: the file is empty")
+        return None
+    if "\x00" in text:
+        line = text[: text.index("\x00")].count("\n") + 1
+        problems.add(
+            f"{label} line {line}: holds NUL bytes (UTF-16 or a binary file?); "
+            "save the file as UTF-8 text"
+        )
         return None
     return text
 
@@ -331,7 +423,9 @@ def _check_field(problems, where, name, checker, value):
 
 
 def _time_setting(value):
-    return parse_utc(value)
+    if isinstance(value, dt.date | dt.time) and not isinstance(value, dt.datetime):
+        raise ValueError(f"{value} is not a date and time; give for example \"{TIME_EXAMPLE}\"")
+    return _file_time(value)
 
 
 def _spread_checkers():
@@ -360,8 +454,118 @@ OPERATOR_SCHEMA = {
     # the workspace, used instead of the bundled file for the climatology.
     "activity": {**_spread_checkers(), "history_file": (_text, False)},
 }
+
+
+def _positive(high, unit):
+    """A number above 0 and at most ``high``."""
+    as_number = _number(0, high, unit)
+
+    def check(value):
+        value = as_number(value)
+        if value <= 0:
+            raise ValueError(f"{value:g} must be above 0; give up to {high} {unit}")
+        return value
+
+    return check
+
+
+def _clock(value) -> str:
+    """A local clock time "HH:MM" from 00:00 to 24:00 (a TOML time such as 18:00:00 too)."""
+    if isinstance(value, dt.time):
+        if value.second or value.microsecond or value.tzinfo is not None:
+            raise ValueError(f"{value} is not a whole minute of the local clock; give \"HH:MM\"")
+        return f"{value:%H:%M}"
+    allowed = 'give "HH:MM" from 00:00 to 24:00, for example "18:00"'
+    match = _CLOCK_RE.match(value) if isinstance(value, str) else None
+    if match is None:
+        raise ValueError(f"{_quote(value)} is not a clock time; {allowed}")
+    hours, minutes = int(match.group(1)), int(match.group(2))
+    if minutes >= 60 or hours * 60 + minutes > 24 * 60:
+        raise ValueError(f"{_quote(value)} is not a clock time; {allowed}")
+    return f"{hours:02d}:{minutes:02d}"
+
+
+_CLOCK_RE = re.compile(r"^\s*(\d{1,2}):(\d{2})\s*$")
+
+CHANCE_CHECKS = {
+    # key of chance.DEFAULT_SETTINGS: checker. The ranges are what the formulas in
+    # auroraplan/chance.py can use (probabilities 0-1, durations above 0 and within a day,
+    # Kp spreads and margins on the 0-9 scale); common practice, no source.
+    "boundary_sd_kp": _number(0, 3, "Kp"),
+    "moon_beta": _number(0, 3),
+    "display_quiet": _number(0, 1, "(a probability)"),
+    "display_active": _positive(1, "(a probability)"),
+    "strong_margin_kp": _number(0, 9, "Kp"),
+    "decorrelation_min": _positive(1440, "minutes"),
+    "outing_from": _clock,
+    "outing_until": _clock,
+    "min_window_min": _positive(1440, "minutes"),
+    "max_window_min": _positive(1440, "minutes"),
+}
+PLANNER_CHECKS = {
+    # planner.DRIVE_WEIGHT_PER_MIN is 0.001 chance per minute of driving; 0.1 would make a
+    # one-hour drive cost more than any chance (common practice, no source).
+    "drive_cost_per_min": _number(0, 0.1, "chance per minute"),
+}
 FREE_TABLES = ("chance", "planner")
-"""Tables read by later stages with their own settings; their keys are not checked here."""
+"""Tables of the later stages: [chance] holds keys of chance.DEFAULT_SETTINGS, [planner] the
+same keys (the outing hours usually) and drive_cost_per_min."""
+
+SETTING_PAIRS = (
+    # (lower, upper, what the pair means)
+    ("display_quiet", "display_active", "a display is no less likely when activity is strong"),
+    ("min_window_min", "max_window_min", "the shortest best window is not longer than the longest"),
+)
+
+
+def _setting_keys(table: str) -> dict:
+    """Key -> checker of the [chance] or [planner] table; the keys are chance.DEFAULT_SETTINGS."""
+    from auroraplan.chance import DEFAULT_SETTINGS  # imported here: numpy only, but not at start
+
+    checks = {}
+    for key, default in DEFAULT_SETTINGS.items():
+        checks[key] = CHANCE_CHECKS.get(key) or (
+            _clock if isinstance(default, str) else _number(0, 1e6))
+    if table == "planner":
+        checks.update(PLANNER_CHECKS)
+    return checks
+
+
+def _check_stage_tables(doc: dict, label: str, problems: ProblemList) -> None:
+    """Check [chance] and [planner] in place: known keys, types, ranges; values normalised."""
+    set_in = {}
+    before = len(problems)
+    for table in FREE_TABLES:
+        given = doc.get(table)
+        if not isinstance(given, dict):
+            continue
+        keys = _setting_keys(table)
+        for key in list(given):
+            where = f"{label} [{table}] {key}"
+            if key not in keys:
+                problems.add(f"{where}: unknown key; allowed: {', '.join(keys)}")
+                continue
+            if key in set_in:
+                problems.add(f"{where}: also set in [{set_in[key]}]; set it in one table only")
+                continue
+            set_in[key] = table
+            checked = _check_field(problems, where, None, keys[key], given[key])
+            if checked is not None:
+                given[key] = checked
+    if len(problems) > before:
+        return
+    from auroraplan.chance import DEFAULT_SETTINGS
+
+    for low, high, meaning in SETTING_PAIRS:
+        if low in set_in or high in set_in:
+            values = {k: doc[set_in[k]][k] if k in set_in else DEFAULT_SETTINGS[k]
+                      for k in (low, high)}
+            if values[low] > values[high]:
+                key = high if high in set_in else low
+                problems.add(
+                    f"{label} [{set_in[key]}] {key}: {low} {values[low]:g} is above {high} "
+                    f"{values[high]:g}; {meaning}, give {low} ≤ {high}"
+                )
 
 
 def _load_operator(path: Path, label: str, problems: ProblemList) -> Operator | None:
@@ -372,6 +576,9 @@ def _load_operator(path: Path, label: str, problems: ProblemList) -> Operator | 
         doc = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
         problems.add(f"{label}: not valid TOML ({exc}); check quotes and [table] headers")
+        return None
+    except RecursionError:
+        problems.add(f"{label}: arrays or tables nested too deeply to read; check the brackets")
         return None
     known = tuple(OPERATOR_SCHEMA) + FREE_TABLES
     values = {}
@@ -398,6 +605,9 @@ def _load_operator(path: Path, label: str, problems: ProblemList) -> Operator | 
                                    given[key])
             if checked is not None:
                 values[(table, key)] = checked
+    if ("activity", "issued_utc") in values:
+        doc["activity"]["issued_utc"] = values[("activity", "issued_utc")]
+    _check_stage_tables(doc, label, problems)
     if problems:
         return None
     viewing = {key: values[("viewing", key)] for key in OPERATOR_SCHEMA["viewing"]
@@ -456,13 +666,13 @@ def _horizon(value):
             or len(point) != 2
             or not all(isinstance(v, int | float) and not isinstance(v, bool) for v in point)
         ):
-            raise ValueError(f"point {i} ({json.dumps(point)}) is not an [azimuth, elevation] pair; {allowed}")
-        az, el = float(point[0]), float(point[1])
+            raise ValueError(f"point {i} ({_quote(point)}) is not an [azimuth, elevation] pair; {allowed}")
+        az, el = _as_float(point[0]), _as_float(point[1])
         if not (math.isfinite(az) and 0.0 <= az <= 360.0):
-            raise ValueError(f"point {i}: azimuth {point[0]} is outside 0 to 360 degrees")
+            raise ValueError(f"point {i}: azimuth {az:g} is outside 0 to 360 degrees")
         low, high = HORIZON_EL_RANGE
         if not (math.isfinite(el) and low <= el <= high):
-            raise ValueError(f"point {i}: elevation {point[1]} is outside {low} to {high} degrees")
+            raise ValueError(f"point {i}: elevation {el:g} is outside {low} to {high} degrees")
         points.append((az, el))
     arr = np.array(points, dtype=float)
     return arr[np.argsort(arr[:, 0], kind="stable")]
@@ -483,7 +693,7 @@ def _closed(value):
         return False
     if isinstance(value, bool) or value in (0, 1):
         return bool(value)
-    raise ValueError(f"{value!r} is not true or false")
+    raise ValueError(f"{_quote(value)} is not true or false")
 
 
 def _notes(value):
@@ -491,7 +701,7 @@ def _notes(value):
         return ""
     if not isinstance(value, str):
         raise ValueError("must be text")
-    return value
+    return _printable(value.replace("\r\n", "\n").replace("\r", "\n"), _CONTROL_IN_NOTES_RE)
 
 
 SITE_PROPERTIES = {
@@ -511,6 +721,9 @@ def _site_features_geojson(text: str, label: str, problems: ProblemList):
         doc = json.loads(text)
     except json.JSONDecodeError as exc:
         problems.add(f"{label} line {exc.lineno}: not valid JSON ({exc.msg}, column {exc.colno})")
+        return None
+    except RecursionError:
+        problems.add(f"{label}: lists or objects nested too deeply to read; check the brackets")
         return None
     if not isinstance(doc, dict) or doc.get("type") != "FeatureCollection":
         problems.add(f"{label}: must be a GeoJSON FeatureCollection (RFC 7946)")
@@ -574,7 +787,7 @@ def _site_from_feature(i, feature, label, problems: ProblemList) -> Site | None:
         problems.add(f"{label} feature {i}: not a Feature with properties")
         return None
     name = props.get("name")
-    where = f"{label} feature {i}" + (f" {name!r}" if isinstance(name, str) else "")
+    where = f"{label} feature {i}" + (f" {_quote(name)}" if isinstance(name, str) else "")
     before = len(problems)
     name = _check_field(problems, where, "name", _text, name)
     coords = _check_field(problems, where, "geometry", _point, feature.get("geometry"))
@@ -645,12 +858,17 @@ def _trip_from_row(line, row, label, largest, problems: ProblemList) -> Trip | N
             f"{where}, guests: {guests} is more than any site holds (largest: {high} at "
             f"{largest[1]}); split the group into smaller trips"
         )
-    arrive = _check_field(problems, where, "arrive", _date, row["arrive"])
-    depart = _check_field(problems, where, "depart", _date, row["depart"])
+    arrive = _check_field(problems, where, "arrive", _trip_date, row["arrive"])
+    depart = _check_field(problems, where, "depart", _trip_date, row["depart"])
     outings = _check_field(problems, where, "outings", _csv_whole(1, 60, "outings"), row["outings"])
     blocked = _check_field(problems, where, "blocked", _blocked, row.get("blocked", ""))
     if arrive and depart and depart <= arrive:
         problems.add(f"{where}, depart: {depart} is not after arrive {arrive}; give a later date")
+    elif arrive and depart and (depart - arrive).days > MAX_STAY_NIGHTS:
+        problems.add(
+            f"{where}, depart: a stay of {(depart - arrive).days} nights from {arrive}; "
+            f"stays are at most {MAX_STAY_NIGHTS} nights, check the dates"
+        )
     elif arrive and depart and blocked:
         for night in blocked:
             if not arrive <= night < depart:
@@ -703,10 +921,10 @@ def _kp_sd(text):
 
 
 def _block_start(text):
-    start = parse_utc(text)
+    start = _file_time(text)
     if start.minute or start.second or start.microsecond or start.hour % BLOCK_HOURS:
         raise ValueError(
-            f"{str(text).strip()!r} is not the start of a 3-hour Kp block; "
+            f"{_quote(str(text).strip())} is not the start of a 3-hour Kp block; "
             "give 00, 03, 06, ... 21 h UTC"
         )
     return start
@@ -735,8 +953,7 @@ def _empty_clouds():
 
 
 def _load_activity(path, label, problems: ProblemList):
-    import pandas as pd
-
+    """(block starts, Kp, Kp spread) lists, or None; the frame is built once all files are good."""
     text = _read_text(path, label, problems)
     if text is None:
         return None
@@ -760,16 +977,19 @@ def _load_activity(path, label, problems: ProblemList):
         starts.append(start)
         kps.append(kp)
         sds.append(sd)
-    if problems:
-        return None
+    return None if problems else (starts, kps, sds)
+
+
+def _activity_frame(starts, kps, sds):
+    import pandas as pd
+
     frame = pd.DataFrame({"start_utc": _utc_column(starts), "kp": np.array(kps, dtype=float),
                           "kp_sd": np.array(sds, dtype=float)})
     return frame.sort_values("start_utc", kind="stable").reset_index(drop=True)
 
 
 def _load_clouds(path, label, site_names, problems: ProblemList):
-    import pandas as pd
-
+    """(site names, hours, cloud %) lists, or None; the frame is built once all files are good."""
     text = _read_text(path, label, problems)
     if text is None:
         return None
@@ -780,7 +1000,7 @@ def _load_clouds(path, label, site_names, problems: ProblemList):
         where = f"{label} line {line}"
         before = len(problems)
         name = _check_field(problems, where, "site", _text, row["site"])
-        when = _check_field(problems, where, "time_utc", parse_utc, row["time_utc"])
+        when = _check_field(problems, where, "time_utc", _file_time, row["time_utc"])
         cloud = _check_field(problems, where, "cloud_pct", _csv_number(0, 100, "%"),
                              row["cloud_pct"])
         if name is not None and site_names is not None and name not in site_names:
@@ -803,11 +1023,15 @@ def _load_clouds(path, label, site_names, problems: ProblemList):
         listed = sorted(site_names)
         shown = ", ".join(listed[:12]) + (", ..." if len(listed) > 12 else "")
         problems.add(
-            f"{label} line {first}, site: {name!r} is not a site in {FILE_NAMES['sites']} "
+            f"{label} line {first}, site: {_quote(name)} is not a site in {FILE_NAMES['sites']} "
             f"({count} row{'s' if count > 1 else ''}); known sites: {shown}"
         )
-    if problems:
-        return None
+    return None if problems else (names, times, clouds)
+
+
+def _clouds_frame(names, times, clouds):
+    import pandas as pd
+
     frame = pd.DataFrame({"site": pd.Series(names, dtype=object), "time_utc": _utc_column(times),
                           "cloud_pct": np.array(clouds, dtype=float)})
     return frame.sort_values(["site", "time_utc"], kind="stable").reset_index(drop=True)
@@ -867,7 +1091,8 @@ def load_workspace(path) -> Workspace:
     -------
     Workspace
         ``operator.settings`` is the whole operator.toml as a dict (later stages read their
-        own tables, e.g. ["activity"], ["chance"]). ``activity`` and ``clouds`` are pandas
+        own tables, e.g. ["activity"], ["chance"]); the checked values stand in it in
+        their normal form (``issued_utc`` an aware UTC datetime, outing hours "HH:MM"). ``activity`` and ``clouds`` are pandas
         DataFrames with aware UTC times; a missing optional file gives an empty frame and a
         line in ``warnings``.
 
@@ -882,8 +1107,13 @@ def load_workspace(path) -> Workspace:
     Notes
     -----
     Times in the files are ISO 8601; "Z" or an offset is honoured and a time without a
-    zone is taken as UTC. Dates in trips.csv are local calendar dates; ``blocked`` dates
-    outside the stay are errors (a typo there would leave the intended night unblocked).
+    zone is taken as UTC; they must fall in the years FILE_YEARS. Trip dates lie within
+    TRIP_DATES and a stay lasts at most MAX_STAY_NIGHTS. The [chance] and [planner] tables
+    hold only the keys of chance.DEFAULT_SETTINGS (and drive_cost_per_min in [planner]),
+    each once, within the ranges of CHANCE_CHECKS and PLANNER_CHECKS. Text fields may not
+    hold control characters or lone surrogates, which could not be written as UTF-8.
+    Dates in trips.csv are local calendar dates; ``blocked`` dates outside the stay are
+    errors (a typo there would leave the intended night unblocked).
     """
     folder = _folder(path)
     found, missing = _find_files(folder)
@@ -923,8 +1153,8 @@ def load_workspace(path) -> Workspace:
         operator=operator,
         sites=sites,
         trips=trips,
-        activity=activity if activity is not None else _empty_activity(),
-        clouds=clouds if clouds is not None else _empty_clouds(),
+        activity=_activity_frame(*activity) if activity is not None else _empty_activity(),
+        clouds=_clouds_frame(*clouds) if clouds is not None else _empty_clouds(),
         files=dict(found),
         warnings=warnings,
     )

@@ -398,7 +398,7 @@ def test_unknown_table_is_reported_with_the_known_ones(workspace_copy):
     one_problem(workspace_copy, "operator.toml [vehicles]", "unknown table", "fleet")
 
 
-def test_tables_of_later_stages_pass_through_unchecked(workspace_copy):
+def test_tables_of_later_stages_are_kept_in_settings(workspace_copy):
     path = workspace_copy / "operator.toml"
     path.write_text(path.read_text(encoding="utf-8")
                     + "\n[chance]\nmoon_beta = 0.5\n[planner]\ndrive_cost_per_min = 0.001\n",

@@ -7,6 +7,20 @@ import sys
 
 DARKNESS_LEVELS = ("civil", "nautical", "astronomical")
 
+FIRST_DATE = dt.date(1900, 1, 1)
+LAST_DATE = dt.date(2052, 12, 31)
+"""Dates the commands can compute: auroraplan.sky.FIRST_NIGHT to LAST_NIGHT, the span of the
+JPL DE421 ephemeris with a margin (repeated here so that option parsing stays light)."""
+
+SHOWN_CHARS = 40
+"""Longest piece of a bad option value quoted back in an error line."""
+
+
+def quoted(text) -> str:
+    """``repr`` of an option value for an error line, cut to SHOWN_CHARS characters."""
+    shown = repr(text)
+    return shown if len(shown) <= SHOWN_CHARS else shown[: SHOWN_CHARS - 3] + "..."
+
 
 def number_range(low: float, high: float, what: str):
     """An option type for a decimal number from ``low`` to ``high``; ``what`` names it in errors."""
@@ -16,10 +30,10 @@ def number_range(low: float, high: float, what: str):
             value = float(text)
         except ValueError:
             raise argparse.ArgumentTypeError(
-                f"{text!r} is not a number; give {what} from {low:g} to {high:g}") from None
-        if not low <= value <= high:
+                f"{quoted(text)} is not a number; give {what} from {low:g} to {high:g}") from None
+        if not low <= value <= high:  # also false for nan; 1e400 reads as inf
             raise argparse.ArgumentTypeError(
-                f"{text} is outside {low:g} to {high:g}; give {what} from {low:g} to {high:g}")
+                f"{quoted(text)} is outside {low:g} to {high:g}; give {what} from {low:g} to {high:g}")
         return value
 
     return parse
@@ -30,13 +44,19 @@ longitude = number_range(-180.0, 180.0, "a longitude in degrees (east positive)"
 
 
 def iso_date(text: str) -> dt.date:
-    """A calendar date as YYYY-MM-DD."""
+    """A calendar date as YYYY-MM-DD, from FIRST_DATE to LAST_DATE."""
     try:
-        return dt.date.fromisoformat(text)
+        value = dt.date.fromisoformat(text)
     except ValueError:
         raise argparse.ArgumentTypeError(
-            f"{text!r} is not a date; give YYYY-MM-DD, for example 2027-01-12"
+            f"{quoted(text)} is not a date; give YYYY-MM-DD, for example 2027-01-12"
         ) from None
+    if not FIRST_DATE <= value <= LAST_DATE:
+        raise argparse.ArgumentTypeError(
+            f"{value} is outside the span of the JPL DE421 ephemeris the sky is computed from; "
+            f"give a date from {FIRST_DATE} to {LAST_DATE}"
+        )
+    return value
 
 
 def utc_time(text: str) -> dt.datetime:
@@ -45,11 +65,16 @@ def utc_time(text: str) -> dt.datetime:
         value = dt.datetime.fromisoformat(text.replace("Z", "+00:00").replace("z", "+00:00"))
     except ValueError:
         raise argparse.ArgumentTypeError(
-            f"{text!r} is not an ISO 8601 time; give for example 2027-01-10T12:00Z"
+            f"{quoted(text)} is not an ISO 8601 time; give for example 2027-01-10T12:00Z"
         ) from None
     if value.tzinfo is None:
         value = value.replace(tzinfo=dt.UTC)
-    return value.astimezone(dt.UTC)
+    try:
+        return value.astimezone(dt.UTC)
+    except OverflowError:  # 0001-01-01T00:00+01:00 or 9999-12-31T23:59-01:00
+        raise argparse.ArgumentTypeError(
+            f"{quoted(text)} lies outside the calendar in UTC; give for example 2027-01-10T12:00Z"
+        ) from None
 
 
 def int_range(low: int, high: int):
@@ -59,9 +84,10 @@ def int_range(low: int, high: int):
         try:
             value = int(text)
         except ValueError:
-            raise argparse.ArgumentTypeError(f"{text!r} is not a whole number; give {low} to {high}") from None
+            raise argparse.ArgumentTypeError(
+                f"{quoted(text)} is not a whole number; give {low} to {high}") from None
         if not low <= value <= high:
-            raise argparse.ArgumentTypeError(f"{text} is outside {low} to {high}")
+            raise argparse.ArgumentTypeError(f"{quoted(text)} is outside {low} to {high}")
         return value
 
     return parse
@@ -73,9 +99,10 @@ def time_zone(text: str) -> str:
 
     try:
         zoneinfo.ZoneInfo(text)
-    except (zoneinfo.ZoneInfoNotFoundError, ValueError):
+    except (zoneinfo.ZoneInfoNotFoundError, ValueError, OSError):
+        # OSError: a folder of the zone database ("Europe") or a name too long for a path
         raise argparse.ArgumentTypeError(
-            f"{text!r} is not a known IANA time zone; give a name such as Europe/Oslo"
+            f"{quoted(text)} is not a known IANA time zone; give a name such as Europe/Oslo"
         ) from None
     return text
 

@@ -1,0 +1,206 @@
+"""The bad-input corpus: every broken file or option is one line on stderr, exit 2, nothing written.
+
+Each folder of tests/bad_inputs/ (except base/) is one case: the files of base/, overwritten by
+any file in the case folder, then changed by the directives of its case.txt:
+
+    # one line saying what is wrong (or odd but valid)
+    command: week {ws} --start 2027-01-11 --nights 1      ({ws} the workspace, {tmp} its parent)
+    replace: FILE | OLD | NEW     every OLD becomes NEW; Python escapes (\\n, \\x00) are decoded
+    append: FILE | TEXT           text added at the end
+    write: FILE | TEXT            the whole file
+    remove: FILE
+    encode: FILE | CODEC          the file's text saved in another encoding (latin-1, utf-16)
+    bom: FILE or *                a UTF-8 byte-order mark in front
+    crlf: FILE or *               Windows line endings
+    where: FRAGMENT               the file and line/feature (or the option) the error must name
+    field: FRAGMENT               the field the error must name
+    says: FRAGMENT                more text the error must hold (what is wrong, what to do)
+    output: PATH                  an output path that must not be created or changed
+    accept: yes                   odd but valid: exit 0 and sensible output instead
+    lists: T1 T2                  (accepted) trips the JSON result must list
+    stdout: TEXT                  (accepted) text standard output must hold
+
+The command runs as a subprocess in a temporary copy; the folder's files must be byte for byte
+the same afterwards (the user's files are never changed, no half-written output).
+"""
+
+import json
+import os
+import shlex
+import shutil
+import subprocess
+import sys
+from concurrent.futures import ThreadPoolExecutor
+from pathlib import Path
+
+import pytest
+
+HERE = Path(__file__).resolve().parent
+CORPUS = HERE / "bad_inputs"
+BASE = CORPUS / "base"
+REPO = HERE.parent
+MIN_REJECTING_CASES = 40
+
+CASES = sorted(p.name for p in CORPUS.iterdir() if p.is_dir() and p.name != "base")
+
+
+def unescape(text: str) -> str:
+    """Python escapes in a directive (\\n, \\x00, \\u2212); other characters as written."""
+    return text.encode("latin-1", "backslashreplace").decode("unicode_escape")
+
+
+def read_case(name: str) -> dict:
+    """case.txt as {"about": text, directive: [values, ...]} in file order."""
+    case = {"about": "", "steps": []}
+    for raw in (CORPUS / name / "case.txt").read_text(encoding="utf-8").split("\n"):
+        if not raw.strip():
+            continue
+        if raw.startswith("#"):
+            case["about"] = raw[1:].strip()
+            continue
+        key, sep, rest = raw.partition(": ")
+        if not sep:
+            key, rest = raw.rstrip(":"), ""
+        if rest.endswith(" |"):  # an editor may have dropped the space after a final bar
+            rest += " "
+        if key in ("replace", "append", "write", "remove", "encode", "bom", "crlf"):
+            case["steps"].append((key, rest.split(" | ")))
+        else:
+            case.setdefault(key, []).append(rest)
+    return case
+
+
+def text_files(ws: Path, which: str) -> list[Path]:
+    return sorted(p for p in ws.iterdir() if p.is_file()) if which == "*" else [ws / which]
+
+
+def apply_step(ws: Path, key: str, parts: list[str]) -> None:
+    if key in ("bom", "crlf"):
+        for path in text_files(ws, parts[0]):
+            data = path.read_bytes()
+            if key == "bom":
+                data = data if data.startswith(b"\xef\xbb\xbf") else b"\xef\xbb\xbf" + data
+            else:
+                data = data.replace(b"\r\n", b"\n").replace(b"\n", b"\r\n")
+            path.write_bytes(data)
+        return
+    path = ws / parts[0]
+    if key == "remove":
+        path.unlink()
+        return
+    if key == "encode":
+        path.write_bytes(path.read_text(encoding="utf-8").encode(parts[1].strip()))
+        return
+    args = [unescape(p) for p in parts[1:]]
+    text = path.read_text(encoding="utf-8") if path.exists() else ""
+    if key == "replace":
+        old, new = args
+        assert old in text, f"{parts[0]}: {old!r} is not in the file to replace"
+        text = text.replace(old, new)
+    elif key == "append":
+        text += args[0]
+    elif key == "write":
+        text = args[0]
+    path.write_bytes(text.encode("utf-8", "surrogatepass"))
+
+
+def snapshot(folder: Path) -> dict:
+    """Relative path -> bytes of every file under ``folder``."""
+    return {str(p.relative_to(folder)): p.read_bytes() for p in sorted(folder.rglob("*"))
+            if p.is_file()}
+
+
+def run_case(name: str, root: Path) -> dict:
+    """Build the case's workspace under ``root``, run its command, return what happened."""
+    try:
+        return _run_case(name, root)
+    except Exception as exc:  # a broken case fails its own test, not the others
+        return {"setup_error": f"{type(exc).__name__}: {exc}"}
+
+
+def _run_case(name: str, root: Path) -> dict:
+    case = read_case(name)
+    tmp = root / name
+    ws = tmp / "workspace"
+    shutil.copytree(BASE, ws)
+    for extra in (CORPUS / name).iterdir():
+        if extra.name != "case.txt":
+            shutil.copyfile(extra, ws / extra.name)
+    for key, parts in case["steps"]:
+        apply_step(ws, key, parts)
+
+    def fill(text):
+        return text.replace("{ws}", str(ws)).replace("{tmp}", str(tmp))
+
+    argv = [fill(a) for a in shlex.split(case["command"][0])]
+    outputs = [Path(fill(p)) for p in case.get("output", [])]
+    before = snapshot(tmp)
+    outputs_before = {p: p.read_bytes() if p.exists() else None for p in outputs}
+    env = dict(os.environ, NO_COLOR="1", COLUMNS="100",
+               PYTHONPATH=str(REPO) + os.pathsep + os.environ.get("PYTHONPATH", ""))
+    proc = subprocess.run([sys.executable, "-m", "auroraplan.cli", *argv], cwd=tmp, env=env,
+                          capture_output=True, text=True, encoding="utf-8", errors="replace",
+                          timeout=120)
+    return {
+        "case": case, "argv": argv, "returncode": proc.returncode, "stdout": proc.stdout,
+        "stderr": proc.stderr, "unchanged": snapshot(tmp) == before,
+        "outputs_unchanged": all((p.read_bytes() if p.exists() else None) == outputs_before[p]
+                                 for p in outputs),
+    }
+
+
+@pytest.fixture(scope="module")
+def results(tmp_path_factory):
+    """Every case run once; the subprocesses run side by side to keep the suite quick."""
+    root = tmp_path_factory.mktemp("bad_inputs")
+    with ThreadPoolExecutor(max_workers=max(2, os.cpu_count() or 2)) as pool:
+        return dict(zip(CASES, pool.map(lambda name: run_case(name, root), CASES), strict=True))
+
+
+def test_the_corpus_has_at_least_40_rejecting_cases_and_each_says_where():
+    rejecting = [name for name in CASES if "accept" not in read_case(name)]
+    assert len(rejecting) >= MIN_REJECTING_CASES, len(rejecting)
+    for name in rejecting:
+        case = read_case(name)
+        assert case["about"] and case.get("command") and case.get("where"), name
+        assert case.get("says"), name
+
+
+def test_the_corpus_touches_every_file_and_many_commands():
+    touched = set()
+    commands = set()
+    for name in CASES:
+        case = read_case(name)
+        commands.add(case["command"][0].split()[0])
+        touched.update(parts[0] for _, parts in case["steps"])
+        touched.update(p.name for p in (CORPUS / name).iterdir() if p.name != "case.txt")
+    assert {"operator.toml", "sites.geojson", "trips.csv", "activity.csv", "clouds.csv"} <= touched
+    assert {"week", "tonight", "sky", "oval", "arrival", "season", "itinerary"} <= commands
+
+
+@pytest.mark.parametrize("name", CASES)
+def test_case(results, name):
+    got = results[name]
+    assert "setup_error" not in got, got.get("setup_error")
+    case = got["case"]
+    command = got["argv"][0]
+    assert "Traceback" not in got["stderr"], got["stderr"]
+    assert got["unchanged"], f"{name}: files in the workspace folder were created or changed"
+    assert got["outputs_unchanged"], f"{name}: an output path was created or changed"
+    if "accept" in case:
+        assert got["returncode"] == 0, got["stderr"]
+        result = json.loads(got["stdout"])
+        listed = {trip["trip"] for trip in result["trips"]}
+        for wanted in case.get("lists", [""])[0].split():
+            assert wanted in listed, (wanted, listed)
+        for fragment in case.get("stdout", []):
+            assert fragment in got["stdout"], fragment
+        return
+    assert got["returncode"] == 2, (got["returncode"], got["stderr"])
+    lines = got["stderr"].splitlines()
+    assert len(lines) == 1, lines
+    line = lines[0]
+    assert line.startswith(f"auroraplan {command}: "), line
+    for fragment in case["where"] + case.get("field", []) + case.get("says", []):
+        assert fragment in line, (fragment, line)
+    assert got["stdout"] == "", got["stdout"]
