@@ -17,6 +17,7 @@ from pathlib import Path
 
 import numpy as np
 import pytest
+from ephem_reference import pyephem_dark_window, pyephem_observer
 
 from auroraplan import cli, report, sky, view
 from auroraplan.workspace import load_workspace
@@ -62,30 +63,6 @@ def run_main(capsys, *argv):
 
 
 # --- outside references ---------------------------------------------------------------------
-
-
-def pyephem_observer(lat, lon, horizon_deg):
-    """A PyEphem observer without refraction (the product's sun altitudes are geometric)."""
-    import ephem
-
-    obs = ephem.Observer()
-    obs.lat, obs.lon, obs.elevation = str(lat), str(lon), 0.0
-    obs.pressure = 0.0
-    obs.horizon = str(horizon_deg)
-    return obs
-
-
-def pyephem_dark_window(lat, lon, day, tz, horizon_deg):
-    """PyEphem dusk after local noon of ``day`` and the next dawn, aware UTC datetimes."""
-    import ephem
-
-    obs = pyephem_observer(lat, lon, horizon_deg)
-    noon = dt.datetime(day.year, day.month, day.day, 12, tzinfo=zoneinfo.ZoneInfo(tz))
-    obs.date = ephem.Date(noon.astimezone(dt.UTC).replace(tzinfo=None))
-    dusk = obs.next_setting(ephem.Sun(), use_center=True)
-    obs.date = dusk
-    dawn = obs.next_rising(ephem.Sun(), use_center=True)
-    return (dusk.datetime().replace(tzinfo=dt.UTC), dawn.datetime().replace(tzinfo=dt.UTC))
 
 
 def pyephem_sun_extremes(lat, lon, day, tz):

@@ -8,6 +8,7 @@ import zoneinfo
 
 import numpy as np
 import pytest
+from ephem_reference import pyephem_dark_window
 
 from auroraplan import sky
 
@@ -65,25 +66,6 @@ def test_moon_altitude_with_parallax_matches_astropy(astropy_altaz):
     np.testing.assert_allclose(track.moon_alt, astropy_altaz["moon"], atol=0.05)
 
 
-def _pyephem_twilight(lat, lon, day, tz, horizon):
-    """Dusk after local noon and the dawn after it, from PyEphem, as UTC datetimes."""
-    import ephem
-
-    obs = ephem.Observer()
-    obs.lat, obs.lon, obs.elevation = str(lat), str(lon), 0.0
-    obs.pressure = 0.0
-    obs.horizon = horizon
-    noon = dt.datetime(day.year, day.month, day.day, 12, tzinfo=zoneinfo.ZoneInfo(tz))
-    obs.date = ephem.Date(noon.astimezone(dt.UTC).replace(tzinfo=None))
-    dusk = obs.next_setting(ephem.Sun(), use_center=True)
-    obs.date = dusk
-    dawn = obs.next_rising(ephem.Sun(), use_center=True)
-    return (
-        dusk.datetime().replace(tzinfo=dt.UTC),
-        dawn.datetime().replace(tzinfo=dt.UTC),
-    )
-
-
 # Nights across the season that have a clean dusk and dawn at every place for
 # each level (the sun's lowest point at least a degree below the level).
 TWILIGHT_NIGHTS = {
@@ -105,7 +87,7 @@ def test_dusk_and_dawn_match_pyephem_within_a_minute(place, level):
     horizon = f"{sky.DARKNESS_DEG[level]:.0f}"
     for day in TWILIGHT_NIGHTS[level]:
         (night,) = sky.darkness_windows(lat, lon, day, 1, tz, level)
-        dusk, dawn = _pyephem_twilight(lat, lon, day, tz, horizon)
+        dusk, dawn = pyephem_dark_window(lat, lon, day, tz, horizon)
         start = dt.datetime.fromisoformat(night["dark_start"])
         end = dt.datetime.fromisoformat(night["dark_end"])
         assert abs((start - dusk).total_seconds()) <= 60, (name, day, "dusk")
