@@ -474,6 +474,28 @@ def test_dst_night_hour_strip_has_every_elapsed_hour_once(dst_ws, season):
         assert "CEST<" not in svg
 
 
+@pytest.mark.parametrize("season", ["spring", "autumn"])
+def test_dst_night_dark_span_shows_both_offsets(dst_ws, season, capsys):
+    # zoneinfo (IANA tz data): Europe/Oslo is UTC+2 in summer and UTC+1 in winter, so the
+    # dark hours of these nights start in one and end in the other; the shown span says so
+    # and its length, read with the offsets, is the elapsed time.
+    from auroraplan.render.style import time_span
+
+    result = report.tonight_report(dst_ws, DST_NIGHTS[season])
+    start = dt.datetime.fromisoformat(result["dark_start"])
+    end = dt.datetime.fromisoformat(result["dark_end"])
+    zone = zoneinfo.ZoneInfo(OSLO)
+    before, after = ("UTC+1", "UTC+2") if season == "spring" else ("UTC+2", "UTC+1")
+    assert start.astimezone(zone).utcoffset() == dt.timedelta(hours=int(before[-1]))
+    text = time_span(result["dark_start"], result["dark_end"])
+    assert text == f"{start:%H:%M} {before}–{end:%H:%M} {after}"
+    code = cli.main(["tonight", str(dst_ws.path), "--date", DST_NIGHTS[season].isoformat()])
+    assert code == 0 and text in capsys.readouterr().out
+    # An ordinary night keeps the short form.
+    quiet = report.tonight_report(dst_ws, DST_NIGHTS[season] - dt.timedelta(days=7))
+    assert "UTC" not in time_span(quiet["dark_start"], quiet["dark_end"])
+
+
 def test_dst_night_calendar_times(dst_ws):
     from icalendar import Calendar
 

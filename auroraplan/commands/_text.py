@@ -6,6 +6,13 @@ def clock(iso: str | None) -> str:
     return iso[11:16] if iso else "—"
 
 
+def span(start_iso: str | None, end_iso: str | None) -> str:
+    """A local window HH:MM–HH:MM, with UTC offsets when the clocks change inside it."""
+    from auroraplan.render.style import time_span
+
+    return time_span(start_iso, end_iso)
+
+
 def chance_cell(chance, plain=False) -> str:
     """A chance as a percentage, bold when good; 'n/a' without data."""
     if chance is None:

@@ -57,10 +57,10 @@ def print_tonight(result):
     """The shortlist as a terminal table."""
     from auroraplan.commands._common import console
     from auroraplan.commands._common import table as new_table
-    from auroraplan.commands._text import chance_cell, clock
+    from auroraplan.commands._text import chance_cell, span
 
     out = console()
-    dark = (f"dark {clock(result['dark_start'])}–{clock(result['dark_end'])}"
+    dark = (f"dark {span(result['dark_start'], result['dark_end'])}"
             if result["dark_start"] else "no darkness")
     out.print(f"[bold]Night of {result['date']}[/] · {result['base']['name']} · {dark} "
               f"({result['darkness_level']}) · moon {100 * result['moon_illumination']:.0f}% lit · "
@@ -82,7 +82,7 @@ def print_tonight(result):
                 else "—")
         table.add_row(
             str(s["rank"]), s["name"], chance_cell(s["chance"]),
-            f"{clock(s['window_start'])}–{clock(s['window_end'])}" if s["window_start"] else "—",
+            span(s['window_start'], s['window_end']) if s["window_start"] else "—",
             f"{s['drive_min']:.0f}′", look, s["limiting"] or "—",
             f"{s['cloud_pct']:.0f}%" if s["cloud_pct"] is not None else "clim.",
             f"{s['kp_needed']:.1f}" if s["kp_needed"] is not None else "> 9",

@@ -80,7 +80,7 @@ def print_week(result):
     """Readable terminal tables: per trip nights × best sites, then the plan."""
     from auroraplan.commands._common import console
     from auroraplan.commands._common import table as new_table
-    from auroraplan.commands._text import chance_cell, clock, kind_mark, short_date
+    from auroraplan.commands._text import chance_cell, clock, kind_mark, short_date, span
 
     out = console()
     out.print(f"[bold]{result['operator']}[/] · base {result['base']['name']} · "
@@ -109,7 +109,7 @@ def print_week(result):
                 short_date(night["date"]) + kind_mark(night["kind"]),
                 night["site"] or "—",
                 chance_cell(night["chance"]),
-                f"{clock(night['window_start'])}–{clock(night['window_end'])}"
+                span(night['window_start'], night['window_end'])
                 if night["window_start"] else "—",
                 night["limiting"] or "—",
                 "blocked" if night["blocked"] else (f"→ {p['site']}" if p else ""),

@@ -99,7 +99,25 @@ def local_time(iso_text) -> str:
 
 
 def time_span(start_iso, end_iso) -> str:
-    """A local time window as HH:MM–HH:MM ("—" when there is none)."""
+    """A local time window as HH:MM–HH:MM ("—" when there is none).
+
+    When the clocks change inside the window (the nights of the spring and autumn
+    changes) each end carries its UTC offset, e.g. "01:30 UTC+2–02:30 UTC+1", so that a
+    window across the repeated autumn hour does not read an hour shorter than it is.
+    """
     if not start_iso or not end_iso:
         return "—"
-    return f"{local_time(start_iso)}–{local_time(end_iso)}"
+    import datetime as _dt
+
+    start, end = _dt.datetime.fromisoformat(start_iso), _dt.datetime.fromisoformat(end_iso)
+    if start.utcoffset() == end.utcoffset():
+        return f"{local_time(start_iso)}–{local_time(end_iso)}"
+    return f"{local_time(start_iso)} {_utc_offset(start)}–{local_time(end_iso)} {_utc_offset(end)}"
+
+
+def _utc_offset(t) -> str:
+    """'UTC+2', 'UTC-3:30' for an aware datetime."""
+    minutes = round(t.utcoffset().total_seconds() / 60)
+    sign = "+" if minutes >= 0 else "-"
+    hours, rest = divmod(abs(minutes), 60)
+    return f"UTC{sign}{hours}" + (f":{rest:02d}" if rest else "")
