@@ -100,7 +100,6 @@ def all_closed_note(ws) -> str | None:
             f"plan; set \"closed\": false on a site that is safe to use, or add a site.")
 
 
-
 def local_iso(t64, tz: str) -> str | None:
     """A UTC datetime64 as local ISO 8601 with offset, to the minute; None for NaT."""
     if t64 is None or np.isnat(t64):

@@ -13,6 +13,19 @@ def span(start_iso: str | None, end_iso: str | None) -> str:
     return time_span(start_iso, end_iso)
 
 
+def print_notes(out, result) -> bool:
+    """Print a report's notes under its heading; False when every site is closed (nothing
+    follows then, only that one line)."""
+    if result.get("closed_note"):
+        out.print(f"[bold]{result['closed_note']}[/]", soft_wrap=True)
+        return False
+    if result.get("forecast"):
+        out.print(f"[dim]{result['forecast']['note']}[/]")
+    if result.get("darkness_note"):
+        out.print(f"[bold]{result['darkness_note']}[/]", soft_wrap=True)
+    return True
+
+
 def chance_cell(chance, plain=False) -> str:
     """A chance as a percentage, bold when good; 'n/a' without data."""
     if chance is None:

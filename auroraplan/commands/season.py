@@ -69,12 +69,11 @@ def season_chart_data(result):
 def print_season(result):
     from auroraplan.commands._common import console
     from auroraplan.commands._common import table as new_table
-    from auroraplan.commands._text import chance_cell
+    from auroraplan.commands._text import chance_cell, print_notes
 
     out = console()
     out.print(f"[bold]Season outlook[/] · {result['base']['name']} · {result['from']} to {result['to']}")
-    if result.get("closed_note"):
-        out.print(f"[bold]{result['closed_note']}[/]", soft_wrap=True)
+    if not print_notes(out, result):
         return
     out.print(f"[dim]{result['method']}[/]")
     # One line per week: the mean of its nights, so a season fits a screen.

@@ -57,7 +57,7 @@ def print_tonight(result):
     """The shortlist as a terminal table."""
     from auroraplan.commands._common import console
     from auroraplan.commands._common import table as new_table
-    from auroraplan.commands._text import chance_cell, span
+    from auroraplan.commands._text import chance_cell, print_notes, span
 
     out = console()
     dark = (f"dark {span(result['dark_start'], result['dark_end'])}"
@@ -65,12 +65,8 @@ def print_tonight(result):
     out.print(f"[bold]Night of {result['date']}[/] · {result['base']['name']} · {dark} "
               f"({result['darkness_level']}) · moon {100 * result['moon_illumination']:.0f}% lit · "
               f"times in {result['base']['timezone']}")
-    if result.get("closed_note"):
-        out.print(f"[bold]{result['closed_note']}[/]", soft_wrap=True)
+    if not print_notes(out, result):
         return
-    out.print(f"[dim]{result['forecast']['note']}[/]")
-    if result.get("darkness_note"):
-        out.print(f"[bold]{result['darkness_note']}[/]", soft_wrap=True)
     table = new_table()
     for col, justify in (("#", "right"), ("site", "left"), ("chance", "right"), ("window", "left"),
                          ("drive", "right"), ("look", "left"), ("limit", "left"),

@@ -80,18 +80,21 @@ def print_week(result):
     """Readable terminal tables: per trip nights × best sites, then the plan."""
     from auroraplan.commands._common import console
     from auroraplan.commands._common import table as new_table
-    from auroraplan.commands._text import chance_cell, clock, kind_mark, short_date, span
+    from auroraplan.commands._text import (
+        chance_cell,
+        clock,
+        kind_mark,
+        print_notes,
+        short_date,
+        span,
+    )
 
     out = console()
     out.print(f"[bold]{result['operator']}[/] · base {result['base']['name']} · "
               f"nights from {result['start']} ({result['nights']}) · "
               f"times in {result['base']['timezone']}")
-    if result.get("closed_note"):
-        out.print(f"[bold]{result['closed_note']}[/]", soft_wrap=True)
+    if not print_notes(out, result):
         return
-    out.print(f"[dim]{result['forecast']['note']}[/]")
-    if result.get("darkness_note"):
-        out.print(f"[bold]{result['darkness_note']}[/]", soft_wrap=True)
     planned = {(p["trip"], p["date"]): p for p in result["plan"]}
     away = [t["trip"] for t in result["trips"] if not t["nights"]]
     for trip in (t for t in result["trips"] if t["nights"]):
