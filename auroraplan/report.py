@@ -152,8 +152,13 @@ def forecast_info(ws, kinds) -> dict:
         note = "Kp forecast where it reaches; later nights are an outlook from Kp climatology."
     else:
         note = notes[kind]
+    issued = ((ws.operator.settings or {}).get("activity") or {}).get("issued_utc")
+    if isinstance(issued, dt.datetime):
+        issued = issued.astimezone(dt.UTC).strftime("%Y-%m-%dT%H:%M:%SZ")
     return {
         "file": str(file.name) if file else None,
+        # When the forecast was made: [activity] issued_utc, else the start of its first block.
+        "issued_utc": issued or first,
         "first_block_utc": first,
         "last_block_utc": last,
         "kind": kind,

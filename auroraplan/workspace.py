@@ -229,6 +229,13 @@ def _text(value):
     return _printable(value.strip())
 
 
+def _paragraph(value):
+    """A non-empty text that may run over several lines (an operator's policy, a note)."""
+    if not isinstance(value, str) or not value.strip():
+        raise ValueError("must be a non-empty text")
+    return _printable(value.strip(), _CONTROL_IN_NOTES_RE)
+
+
 def _zone(value):
     _text(value)
     try:
@@ -434,6 +441,21 @@ def _spread_checkers():
     return checks
 
 
+def _positive(high, unit):
+    """A number above 0 and at most ``high``."""
+    as_number = _number(0, high, unit)
+
+    def check(value):
+        value = as_number(value)
+        if value <= 0:
+            raise ValueError(f"{value:g} must be above 0; give up to {high} {unit}")
+        return value
+
+    return check
+
+
+PRINT_LANGUAGES = ("en", "de")  # the languages with a catalogue (auroraplan.i18n.LANGUAGES)
+
 OPERATOR_SCHEMA = {
     # table: {key: (checker, required)}
     "base": {
@@ -453,20 +475,23 @@ OPERATOR_SCHEMA = {
     # history_file: Kp history in the CelesTrak space-weather format, relative to
     # the workspace, used instead of the bundled file for the climatology.
     "activity": {**_spread_checkers(), "history_file": (_text, False)},
+    # What guests and guides read besides the plan: who to call, where to meet, and the
+    # operator's own words for a cloudy or cancelled night (itinerary and run sheet).
+    "contact": {
+        "phone": (_text, False),
+        "emergency": (_text, False),
+        "meeting_point": (_text, False),
+        "meeting_address": (_text, False),
+        "meeting_lat": (_number(-90, 90, "degrees"), False),
+        "meeting_lon": (_number(-180, 180, "degrees"), False),
+    },
+    "print": {
+        "language": (_choice(PRINT_LANGUAGES), False),
+        "cloudy_night_policy": (_paragraph, False),
+        "chance_meaning": (_paragraph, False),
+        "forecast_max_age_hours": (_positive(240, "hours"), False),
+    },
 }
-
-
-def _positive(high, unit):
-    """A number above 0 and at most ``high``."""
-    as_number = _number(0, high, unit)
-
-    def check(value):
-        value = as_number(value)
-        if value <= 0:
-            raise ValueError(f"{value:g} must be above 0; give up to {high} {unit}")
-        return value
-
-    return check
 
 
 def _clock(value) -> str:

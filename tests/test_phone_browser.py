@@ -5,28 +5,17 @@ but it fails in CI (environment variable CI set), where the browser must be pres
 """
 
 import json
-import os
 from pathlib import Path
 
 import pytest
+from browser_check import ARGS, CHROMIUM, browser_or_skip
 
 from auroraplan.render.phone import phone_page_html
 from auroraplan.render.style import NIGHT_BG, PAPER
 
-CHROMIUM = "/usr/bin/chromium"
-ARGS = ["--headless=new", "--no-sandbox", "--disable-gpu", "--disable-background-networking",
-        "--disable-component-update", "--disable-sync", "--no-first-run"]
 PHONE = {"width": 360, "height": 740}
 FIXTURES = Path(__file__).parent / "fixtures"
 ARTIFACTS = Path(__file__).parent / "_artifacts"
-
-
-def _browser_or_skip():
-    if not Path(CHROMIUM).exists():
-        if os.environ.get("CI"):
-            pytest.fail(f"{CHROMIUM} is missing; CI must install Debian's chromium")
-        pytest.skip(f"{CHROMIUM} not installed")
-    return pytest.importorskip("playwright.sync_api")
 
 
 def _rgb(hex_colour: str) -> str:
@@ -43,7 +32,7 @@ def page_file(tmp_path_factory):
 
 
 def test_phone_page_at_360_by_740_offline_with_night_mode(page_file, tmp_path):
-    sync_api = _browser_or_skip()
+    sync_api = browser_or_skip()
     ARTIFACTS.mkdir(exist_ok=True)
     requests = []
     with sync_api.sync_playwright() as pw:

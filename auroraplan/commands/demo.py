@@ -81,12 +81,24 @@ def build_steps(ws, out: Path):
         ]
 
     def tonight():
-        from auroraplan.render.phone import phone_page_html
+        from auroraplan import runsheet
+        from auroraplan.commands.tonight import page_for
 
         state["tonight"] = report.tonight_report(ws, DEMO_TONIGHT)
-        write_text_atomic(out / "tonight.html", phone_page_html(state["tonight"]))
-        return [{"title": f"Guide's phone page for the night of {DEMO_TONIGHT}",
-                 "href": "tonight.html", "description": "works offline once saved on the phone"}]
+        write_text_atomic(out / "tonight.html", page_for(ws, state["tonight"]))
+        entries = [{"title": f"Guide's phone page for the night of {DEMO_TONIGHT}",
+                    "href": "tonight.html", "description": "works offline once saved on the phone"}]
+        for outing in state["season_week"]["plan"]:
+            if outing["date"] != DEMO_TONIGHT.isoformat():
+                continue
+            sheet = runsheet.run_sheet(state["tonight"], state["season_week"], outing["trip"],
+                                       ws.operator.settings)
+            name = run_sheet_file_name(outing["trip"], outing["date"])
+            write_text_atomic(out / name, page_for(ws, state["tonight"], sheet))
+            entries.append({"title": f"Run sheet {outing['trip']}: {outing['group']}",
+                            "href": name,
+                            "description": "pick-up, site, where to look, go / wait / swap"})
+        return entries
 
     def itineraries():
         from auroraplan.render.itinerary_pdf import itinerary_pdf
@@ -129,6 +141,14 @@ def build_steps(ws, out: Path):
                  "description": "chance per night and the best start dates for 5 nights"}]
 
     return [week, tonight, itineraries, charts, season]
+
+
+def run_sheet_file_name(trip_id: str, date: str) -> str:
+    """run-sheet-<date>-<trip>.html with only [A-Za-z0-9._-] from the trip id."""
+    from auroraplan.commands.itinerary import itinerary_file_name
+
+    safe = itinerary_file_name(trip_id)[len("itinerary-"):-len(".pdf")]
+    return f"run-sheet-{date}-{safe}.html"
 
 
 def _json(obj) -> str:

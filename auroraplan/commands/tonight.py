@@ -2,7 +2,9 @@
 
 Each site gets its best window in local time, what limits it, where to look,
 cloud, moon and drive time. With --html, the same shortlist as a
-self-contained page for a guide's phone (works offline once saved).
+self-contained page for a guide's phone (works offline once saved); with
+--trip as well, that page opens with the group's run sheet: pick-up, site,
+backup, window, where to look, and whether to go, wait or swap to the backup.
 """
 
 from auroraplan.commands._common import int_range, iso_date
@@ -14,8 +16,14 @@ def add_arguments(parser):
                         help="the night's evening date, YYYY-MM-DD (default: tonight at the base)")
     parser.add_argument("--top", type=int_range(1, 1000), default=8,
                         help="how many sites to list (default 8)")
+    parser.add_argument("--trip", metavar="ID",
+                        help="the group's run sheet: its planned outing tonight first "
+                             "(the trip's id in trips.csv)")
     parser.add_argument("--json", action="store_true", help="print the result as JSON")
     parser.add_argument("--html", metavar="FILE", help="also write the phone page to FILE")
+    parser.add_argument("--png", metavar="FILE",
+                        help="also write the night timeline chart of the best site (or, with "
+                             "--trip, of the group's site) to FILE")
 
 
 def tonight_date(tz: str):
@@ -32,32 +40,142 @@ def run(args):
     from auroraplan import report
     from auroraplan.commands._common import print_json
     from auroraplan.commands._progress import working
-    from auroraplan.outfiles import check_output_path, write_text_atomic
+    from auroraplan.outfiles import check_output_path, write_bytes_atomic
     from auroraplan.workspace import load_workspace
 
     ws = load_workspace(args.workspace)
-    html_path = check_output_path(args.html, list(ws.files.values())) if args.html else None
+    protected = list(ws.files.values())
+    outputs = {k: check_output_path(v, protected)
+               for k, v in (("html", args.html), ("png", args.png)) if v}
     date = args.date or tonight_date(ws.operator.timezone)
+    sheet = None
     with working(f"Ranking {len(ws.sites)} sites for the night of {date}", quiet=args.json):
-        result = report.tonight_report(ws, date, top=args.top)
-    if html_path:
-        from auroraplan.render.phone import phone_page_html
+        if args.trip is not None:
+            from auroraplan import runsheet
 
-        write_text_atomic(html_path, phone_page_html(result))
+            runsheet.find_trip({"trips": [{"trip": t.trip} for t in ws.trips]}, args.trip)
+            result = report.tonight_report(ws, date)
+            sheet = runsheet.run_sheet(result, report.bookings_report(ws), args.trip,
+                                       ws.operator.settings)
+        else:
+            result = report.tonight_report(ws, date, top=args.top)
+        payloads = {}
+        if "html" in outputs:
+            payloads["html"] = page_for(ws, result, sheet).encode("utf-8")
+        if "png" in outputs:
+            payloads["png"] = timeline_png(ws, result, date, sheet)
+    for key, path in outputs.items():
+        write_bytes_atomic(path, payloads[key])
     if args.json:
-        print_json(result)
+        print_json(dict(result, run_sheet=sheet) if sheet else result)
     else:
+        if sheet:
+            print_run_sheet(sheet)
         print_tonight(result)
-        if html_path:
-            print(f"wrote {html_path}")
+        for path in outputs.values():
+            print(f"wrote {path}")
     return 0
 
 
-def print_tonight(result):
-    """The shortlist as a terminal table."""
+def page_for(ws, result, sheet=None) -> str:
+    """The guide's phone page: the run sheet when there is one, else tonight's list."""
+    from auroraplan.render.phone import phone_page_html, run_sheet_html
+    from auroraplan.runsheet import language
+
+    lang = language(ws.operator.settings)
+    return run_sheet_html(sheet, result, lang) if sheet else phone_page_html(result, lang)
+
+
+def timeline_png(ws, result, date, sheet=None) -> bytes:
+    """The night timeline chart of the group's site, or of tonight's best site."""
+    from auroraplan import report
+    from auroraplan.render.charts import night_timeline_png
+
+    name = (sheet or {}).get("site_name") or (
+        result["sites"][0]["name"] if result["sites"] else None)
+    if name is None:
+        from auroraplan.errors import InputError
+
+        raise InputError("--png: no open site to draw tonight; open a site in the sites file")
+    return night_timeline_png(report.site_timeline(ws, date, name))
+
+
+def print_run_sheet(sheet):
+    """The group's outing and tonight's call, above the site table."""
+    from rich.markup import escape
+
     from auroraplan.commands._common import console
+    from auroraplan.commands._text import clock, span
+    from auroraplan.i18n import Words
+    from auroraplan.runsheet import age_sentences, call_words
+
+    out = console()
+    w = Words()
+    out.print(escape(f"{sheet['trip']} · {sheet['group']} · {sheet['guests']} guests"),
+              style="bold")
+    verdict, reason = call_words(sheet, w)
+    out.print(f"[bold]{escape(verdict)}[/] {escape(reason)}")
+    if sheet["decision"] is not None:
+        out.print(escape(f"pick-up {clock(sheet['pickup'])} at {sheet['pickup_place']['name']} · "
+                         f"{sheet['site_name']} · backup {sheet['backup_name'] or '—'} · "
+                         f"window {span(sheet['window_start'], sheet['window_end'])}"))
+    for text in age_sentences(sheet, w):
+        out.print(f"[bold yellow]{escape(text)}[/]")
+
+
+# Terminal layout. Site, chance and window are never dropped; the other columns go in
+# DROP_ORDER when the terminal is too narrow, and when even the three do not fit (or
+# below STACK_BELOW columns) each site becomes a short block of lines.
+COLUMNS = ("#", "site", "chance", "window", "drive", "look", "limit", "cloud", "Kp")
+DROP_ORDER = ("Kp", "#", "cloud", "limit", "drive", "look")
+STACK_BELOW = 60
+
+
+def _cells(s) -> dict:
+    from auroraplan.commands._text import chance_cell, span
+
+    look = (f"{s['look_compass']} {s['look_azimuth']:.0f}°" if s["look_azimuth"] is not None
+            else "—")
+    return {
+        "#": str(s["rank"]), "site": s["name"], "chance": chance_cell(s["chance"]),
+        "window": span(s["window_start"], s["window_end"]) if s["window_start"] else "—",
+        "drive": f"{s['drive_min']:.0f}′", "look": look, "limit": s["limiting"] or "—",
+        "cloud": f"{s['cloud_pct']:.0f}%" if s["cloud_pct"] is not None else "clim.",
+        "Kp": f"{s['kp_needed']:.1f}" if s["kp_needed"] is not None else "> 9",
+    }
+
+
+def _table(columns, rows):
     from auroraplan.commands._common import table as new_table
-    from auroraplan.commands._text import chance_cell, print_notes, span
+
+    table = new_table()
+    right = {"#", "chance", "drive", "cloud", "Kp"}
+    for col in columns:
+        table.add_column(col, justify="right" if col in right else "left", no_wrap=True)
+    for r in rows:
+        table.add_row(*(r[c] for c in columns))
+    return table
+
+
+def fitting_columns(out, rows: list[dict]) -> list[str] | None:
+    """The columns of COLUMNS whose table fits the terminal unwrapped, or None to stack."""
+    from rich.measure import Measurement
+
+    if out.width < STACK_BELOW:
+        return None
+    wide = out.options.update(width=10_000, max_width=10_000)
+    chosen, drop = list(COLUMNS), list(DROP_ORDER)
+    while Measurement.get(out, wide, _table(chosen, rows)).maximum > out.width:
+        if not drop:
+            return None
+        chosen.remove(drop.pop(0))
+    return chosen
+
+
+def print_tonight(result):
+    """The shortlist as a terminal table, or one block per site on a narrow terminal."""
+    from auroraplan.commands._common import console
+    from auroraplan.commands._text import print_notes, span
 
     out = console()
     dark = (f"dark {span(result['dark_start'], result['dark_end'])}"
@@ -67,23 +185,16 @@ def print_tonight(result):
               f"times in {result['base']['timezone']}")
     if not print_notes(out, result):
         return
-    table = new_table()
-    for col, justify in (("#", "right"), ("site", "left"), ("chance", "right"), ("window", "left"),
-                         ("drive", "right"), ("look", "left"), ("limit", "left"),
-                         ("cloud", "right"), ("Kp", "right")):
-        table.add_column(col, justify=justify, no_wrap=col != "site",
-                         min_width=14 if col == "site" else None)
-    for s in result["sites"]:
-        look = (f"{s['look_compass']} {s['look_azimuth']:.0f}°" if s["look_azimuth"] is not None
-                else "—")
-        table.add_row(
-            str(s["rank"]), s["name"], chance_cell(s["chance"]),
-            span(s['window_start'], s['window_end']) if s["window_start"] else "—",
-            f"{s['drive_min']:.0f}′", look, s["limiting"] or "—",
-            f"{s['cloud_pct']:.0f}%" if s["cloud_pct"] is not None else "clim.",
-            f"{s['kp_needed']:.1f}" if s["kp_needed"] is not None else "> 9",
-        )
-    out.print(table)
+    rows = [_cells(s) for s in result["sites"]]
+    columns = fitting_columns(out, rows)
+    if columns is None:
+        for r in rows:
+            out.print(f"{r['#']}. [bold]{r['site']}[/]")
+            out.print(f"   {r['chance']} · {r['window']}")
+            out.print(f"   look {r['look']} · drive {r['drive']}")
+            out.print(f"   cloud {r['cloud']} · limit {r['limit']} · Kp {r['Kp']}")
+    else:
+        out.print(_table(columns, rows))
     out.print(f"[dim]{result['notice']}[/]")
     for w in result.get("warnings", []):
         out.print(f"[yellow]note:[/] {w}")

@@ -79,16 +79,6 @@ def _styles():
     }
 
 
-def _find_trip(report: dict, trip_id: str) -> dict:
-    from auroraplan.errors import InputError
-
-    for trip in report.get("trips", []):
-        if str(trip["trip"]) == str(trip_id):
-            return trip
-    known = ", ".join(str(t["trip"]) for t in report.get("trips", [])) or "none"
-    raise InputError(f"trip {trip_id!r} is not in this plan; known trips: {known}")
-
-
 def _night_rows(report: dict, trip: dict, st: dict) -> list:
     from reportlab.platypus import Paragraph
 
@@ -201,7 +191,9 @@ def itinerary_pdf(report: dict, trip_id: str, paper: str = "A4") -> bytes:
     size = PAPER_PT.get(str(paper).lower())
     if size is None:
         raise InputError(f"paper {paper!r} is not known; choose A4 or Letter")
-    trip = _find_trip(report, trip_id)
+    from auroraplan.runsheet import find_trip
+
+    trip = find_trip(report, trip_id)
     st = _styles()
     buf = io.BytesIO()
     doc = SimpleDocTemplate(
