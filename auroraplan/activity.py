@@ -241,14 +241,19 @@ def forecast_at(activity_df, times_utc, settings=None):
     return kp_mean, kp_sd, covered
 
 
-def prob_kp_at_least(kp_needed, kp_mean, kp_sd):
-    """Chance that the true Kp reaches the Kp a site needs.
+def forecast_p_kp_at_least(kp_needed, kp_mean, kp_sd):
+    """Chance that the true Kp reaches the Kp a site needs, from a forecast and its spread.
 
-    The true Kp is taken as normally distributed about the forecast:
-    P = Phi((kp_mean - kp_needed) / kp_sd), with Phi the standard normal distribution
-    function (``scipy.special.ndtr``). The normal error model ignores that Kp is bounded
-    to 0-9 and quantised in thirds; it is the usual way to turn a forecast and its spread
-    into a probability (common practice, no source).
+    The true Kp is taken as a normal distribution about the forecast truncated
+    to the Kp scale [0, 9] (Kp cannot leave it), so P(Kp >= 0) = 1 and
+    P(Kp > 9) = 0:
+
+        P(Kp >= k) = (Phi(b) - Phi(z)) / (Phi(b) - Phi(a)),
+        a = (0 - mean) / sd,  b = (9 - mean) / sd,  z = (k - mean) / sd,
+
+    with Phi the standard normal distribution function (``scipy.special.ndtr``)
+    and k clipped to [0, 9]. A normal error about the forecast is common
+    practice, no source; truncation keeps every probability on the scale.
 
     Parameters
     ----------
@@ -267,19 +272,26 @@ def prob_kp_at_least(kp_needed, kp_mean, kp_sd):
 
     References
     ----------
-    Wilks, D. S. (2011), Statistical Methods in the Atmospheric Sciences, 3rd ed.,
-    Academic Press, ch. 4 (the Gaussian distribution).
+    Johnson, N. L., Kotz, S. & Balakrishnan, N. (1994), Continuous Univariate
+    Distributions vol. 1, 2nd ed., Wiley, ch. 13 (the truncated normal distribution).
     """
     from scipy.special import ndtr
 
     needed = np.asarray(kp_needed, dtype=float)
     mean = np.broadcast_to(np.asarray(kp_mean, dtype=float), needed.shape)
     sd = np.broadcast_to(np.asarray(kp_sd, dtype=float), needed.shape)
-    margin = mean - needed
+    k = np.clip(needed, 0.0, KP_MAX)
     with np.errstate(divide="ignore", invalid="ignore"):
-        z = margin / sd
-    certain = np.where(margin >= 0, 1.0, 0.0)
-    p = np.where(sd > 0, ndtr(z), certain)
+        lower = ndtr((0.0 - mean) / sd)
+        upper = ndtr((KP_MAX - mean) / sd)
+        inside = upper - lower
+        p = (upper - ndtr((k - mean) / sd)) / inside
+    certain = np.where(mean >= needed, 1.0, 0.0)
+    # A forecast far outside the scale leaves no normal mass on it: the nearer end holds it.
+    p = np.where(inside > 0, np.clip(p, 0.0, 1.0), np.where(mean >= KP_MAX, 1.0, 0.0))
+    p = np.where(sd > 0, p, certain)
+    p = np.where(needed <= 0.0, 1.0, p)
+    p = np.where(needed > KP_MAX, 0.0, p)
     p = np.where(np.isnan(mean) | np.isnan(sd), np.nan, p)
     # an unreachable need stays unreachable with or without a forecast
     p = np.where(np.isposinf(needed), 0.0, p)

@@ -10,7 +10,7 @@ visible minutes and the probability of at least one visible display.
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field, replace
+from dataclasses import dataclass, field
 
 import numpy as np
 
@@ -69,6 +69,34 @@ def display_probability(p_reach, p_strong, cfg=None):
     return q0 * np.asarray(p_reach) + (q1 - q0) * np.asarray(p_strong)
 
 
+def activity_factor(p_at_least, kp_needed, kp_lost, cfg=None):
+    """Chance of a visible display per decorrelation time from P(Kp ≥ k) (N, T).
+
+    A storm that carries the band out of a polar-cap site's sight does not
+    help it: the band is in view for Kp needed ≤ Kp < Kp lost
+    (:func:`auroraplan.view.kp_lost_at`), so
+    p_reach = P(Kp ≥ need) − P(Kp ≥ lost) and p_strong likewise with the
+    need raised by ``strong_margin_kp``; then :func:`display_probability`.
+
+    Parameters
+    ----------
+    p_at_least : callable
+        ``p_at_least(kp (N, T)) -> (N, T)``: P(Kp ≥ kp) from a forecast or climatology.
+    kp_needed, kp_lost : ndarray (N, T)
+        Kp needed on the horizon and Kp at which the band is lost (inf: never).
+    cfg : dict, optional
+        Chance settings (``strong_margin_kp``, ``display_quiet``, ``display_active``).
+    """
+    cfg = cfg or DEFAULT_SETTINGS
+    p_lost = np.zeros(kp_needed.shape)
+    if np.isfinite(kp_lost).any():
+        p_lost = np.where(np.isfinite(kp_lost),
+                          p_at_least(np.where(np.isfinite(kp_lost), kp_lost, 0.0)), 0.0)
+    p_reach = np.maximum(p_at_least(kp_needed) - p_lost, 0.0)
+    p_strong = np.maximum(p_at_least(kp_needed + cfg["strong_margin_kp"]) - p_lost, 0.0)
+    return display_probability(p_reach, p_strong, cfg)
+
+
 @dataclass
 class ChanceGrid:
     """Chance and its factors per site (N) and time step (T)."""
@@ -79,11 +107,12 @@ class ChanceGrid:
     darkness: np.ndarray  # (N, T) 0 or 1: dark and inside the outing hours
     moon: np.ndarray  # (N, T) 0..1
     activity: np.ndarray  # (N, T) chance of a display per decorrelation time; NaN without data
-    cloud: np.ndarray  # (N, T) P(clear) 0..1
+    p_clear: np.ndarray  # (N, T) P(clear line of sight) 0..1
     chance: np.ndarray  # (N, T)
     kp_needed: np.ndarray  # (N, T)
-    look_azimuth_deg: np.ndarray  # (N, T)
+    look_azimuth_deg: np.ndarray  # (N, T) where to look at the forecast Kp (true bearing)
     look_elevation_deg: np.ndarray  # (N, T)
+    overhead: np.ndarray  # (N, T) bool: the band is over the site at the forecast Kp
     cloud_pct: np.ndarray  # (N, T), NaN where no cloud forecast
     kp_mean: np.ndarray  # (T,) forecast Kp, NaN beyond the forecast
     kp_sd: np.ndarray  # (T,)
@@ -132,14 +161,16 @@ def moon_factor(dark_sky_mag, moonlit_sky_mag, beta=DEFAULT_SETTINGS["moon_beta"
 
 
 def p_aurora_from_forecast(kp_needed, kp_mean, kp_sd, boundary_sd_kp):
-    """P(aurora visible) = P(Kp + boundary error ≥ Kp needed), both normal.
+    """P(aurora visible) = P(Kp + boundary error ≥ Kp needed), on the Kp scale 0-9.
 
-    The forecast's spread and the boundary's own spread add in quadrature.
+    The forecast's spread and the boundary's own spread add in quadrature;
+    the result is a normal truncated to [0, 9]
+    (:func:`auroraplan.activity.forecast_p_kp_at_least`).
     """
-    from auroraplan.activity import prob_kp_at_least
+    from auroraplan.activity import forecast_p_kp_at_least
 
     total_sd = np.sqrt(np.asarray(kp_sd, float) ** 2 + boundary_sd_kp**2)
-    return prob_kp_at_least(kp_needed, kp_mean, total_sd)
+    return forecast_p_kp_at_least(kp_needed, kp_mean, total_sd)
 
 
 # Three-point Gauss–Hermite rule for E[f(X)], X ~ N(0, 1) (Abramowitz &
@@ -153,12 +184,12 @@ def p_aurora_from_climatology(climatology, kp_needed, times_utc, boundary_sd_kp,
 
     With ``known`` = (block starts, Kp) of known activity, times one solar
     rotation after a known block use the 27-day recurrence blend
-    (:meth:`auroraplan.climatology.Climatology.prob_with_recurrence`).
+    (:meth:`auroraplan.climatology.Climatology.p_kp_at_least_with_recurrence`).
     """
     def one(need):
         if known is not None and len(known[0]):
-            return climatology.prob_with_recurrence(need, times_utc, *known)
-        return climatology.prob_kp_at_least(need, times_utc)
+            return climatology.p_kp_at_least_with_recurrence(need, times_utc, *known)
+        return climatology.p_kp_at_least(need, times_utc)
 
     total = np.zeros(np.shape(kp_needed))
     for node, weight in zip(_GH_NODES, _GH_WEIGHTS, strict=True):
@@ -195,7 +226,7 @@ def compute_grid(
         Step between times, minutes.
     use_forecast, use_clouds : bool
         Set False for long-range work (season) to use climatology only.
-    climatology : object with ``prob_kp_at_least(kp_needed, times_utc)``, optional
+    climatology : object with ``p_kp_at_least(kp_needed, times_utc)``, optional
         Used beyond the forecast; without it such steps have NaN activity.
     settings : dict, optional
         Overrides of :data:`DEFAULT_SETTINGS`.
@@ -221,8 +252,16 @@ def compute_grid(
     mlt = magnetic.mlt(table.mlon, times_utc)
     kp_needed = view.kp_needed_at(table, mlt)
     kp_lost = view.kp_lost_at(table, mlt)
-    look_az = view.look_at(table, mlt)
-    look_el = view.look_at(replace(table, look_azimuth_deg=table.look_elevation_deg), mlt)
+
+    settings_activity = op.settings.get("activity", {}) if op.settings else {}
+    if use_forecast and ws.activity is not None and len(ws.activity):
+        kp_mean, kp_sd, covered = forecast_at(ws.activity, times_utc, settings_activity)
+    else:
+        kp_mean = np.full(times_utc.shape, np.nan)
+        kp_sd = np.full(times_utc.shape, np.nan)
+        covered = np.zeros(times_utc.shape, bool)
+    look = look_for_forecast(table, kp_needed, kp_lost, kp_mean, mlt)
+    look_az, look_el = look["look_azimuth_deg"], look["look_elevation_deg"]
 
     target_alt = np.clip(np.nan_to_num(look_el, nan=op.min_elevation_deg), op.min_elevation_deg, 90.0)
     target_az = np.nan_to_num(look_az, nan=0.0)
@@ -232,18 +271,11 @@ def compute_grid(
     )
     moon = moon_factor(arr["sky_mag"][:, None], moonlit, cfg["moon_beta"])
 
-    settings_activity = op.settings.get("activity", {}) if op.settings else {}
-    if use_forecast and ws.activity is not None and len(ws.activity):
-        kp_mean, kp_sd, covered = forecast_at(ws.activity, times_utc, settings_activity)
-    else:
-        kp_mean = np.full(times_utc.shape, np.nan)
-        kp_sd = np.full(times_utc.shape, np.nan)
-        covered = np.zeros(times_utc.shape, bool)
     kind = np.where(covered, "forecast", "none").astype(object)
     rest = ~covered if climatology else np.zeros_like(covered)
     known = None
     if use_forecast and ws.activity is not None and len(ws.activity) and \
-            hasattr(climatology, "prob_with_recurrence"):
+            hasattr(climatology, "p_kp_at_least_with_recurrence"):
         from auroraplan.activity import utc_datetime64
 
         known = (utc_datetime64(ws.activity["start_utc"]), ws.activity["kp"].to_numpy(float))
@@ -260,15 +292,7 @@ def compute_grid(
                 climatology, kp[:, rest], times_utc[rest], cfg["boundary_sd_kp"], known)
         return p
 
-    # A storm that pushes the band out of a polar-cap site's view does not help it:
-    # the band is in view for Kp needed <= Kp < Kp lost (view.kp_lost_at).
-    p_lost = np.zeros(kp_needed.shape)
-    if np.isfinite(kp_lost).any():
-        p_lost = np.where(np.isfinite(kp_lost),
-                          p_at_least(np.where(np.isfinite(kp_lost), kp_lost, 0.0)), 0.0)
-    p_reach = np.maximum(p_at_least(kp_needed) - p_lost, 0.0)
-    p_strong = np.maximum(p_at_least(kp_needed + cfg["strong_margin_kp"]) - p_lost, 0.0)
-    activity = display_probability(p_reach, p_strong, cfg)
+    activity = activity_factor(p_at_least, kp_needed, kp_lost, cfg)
 
     if use_clouds:
         p_clear, cloud_pct, cloud_warnings = weather.clear_probability(sites, ws.clouds, times_utc, tz=op.timezone)
@@ -282,12 +306,52 @@ def compute_grid(
     chance = darkness * moon * activity * p_clear
     return ChanceGrid(
         times_utc=times_utc, night_index=np.asarray(night_index), step_min=float(step_min),
-        darkness=darkness, moon=moon, activity=activity, cloud=p_clear, chance=chance,
+        darkness=darkness, moon=moon, activity=activity, p_clear=p_clear, chance=chance,
         kp_needed=kp_needed, look_azimuth_deg=look_az, look_elevation_deg=look_el,
+        overhead=look["overhead"],
         cloud_pct=cloud_pct, kp_mean=kp_mean, kp_sd=kp_sd, kind=kind,
         mlt=mlt, sun_alt=track.sun_alt, moon_alt=track.moon_alt, dark_sky=dark, outing=outing,
         moon_illumination=track.moon_illumination, warnings=warnings,
     )
+
+
+LOOK_KP_BELOW_LOST = 0.01
+"""How far below Kp lost the look is taken when the forecast exceeds it (one fine Kp step)."""
+
+
+def look_for_forecast(table, kp_needed, kp_lost, kp_mean, mlt):
+    """Where to look per site and time for the Kp forecast at that time.
+
+    The band is placed at the forecast Kp when that reaches the site's need
+    (a storm: overhead, or equatorward of the site), else at the Kp needed
+    (where the band will first appear). Without a forecast the Kp needed is
+    used; past Kp lost, the last Kp at which the band is still in sight.
+
+    Parameters
+    ----------
+    table : auroraplan.view.KpNeeded
+    kp_needed, kp_lost : ndarray (N, T)
+    kp_mean : ndarray (T,)
+        Forecast Kp, NaN where none.
+    mlt : ndarray (N, T)
+
+    Returns
+    -------
+    dict of ndarray (N, T)
+        As :func:`auroraplan.view.sightline`, NaN look where the need is not
+        reachable by Kp 9.
+    """
+    from auroraplan import view
+
+    kp_look = np.fmax(np.broadcast_to(kp_mean, kp_needed.shape), kp_needed)
+    kp_look = np.where(np.isfinite(kp_lost), np.minimum(kp_look, kp_lost - LOOK_KP_BELOW_LOST),
+                       kp_look)
+    reachable = np.isfinite(kp_look)
+    out = view.sightline(table, np.clip(np.nan_to_num(kp_look, posinf=0.0), 0.0, 9.0), mlt)
+    for key in ("look_azimuth_deg", "look_elevation_deg"):
+        out[key] = np.where(reachable, out[key], np.nan)
+    out["overhead"] = out["overhead"] & reachable
+    return out
 
 
 def settings_for(ws, overrides=None) -> dict:
@@ -432,7 +496,7 @@ def summarise_nights(grid: ChanceGrid, nights: int, settings=None) -> NightSumma
         kinds = set(grid.kind[cols][dark_steps] if dark_steps.any() else grid.kind[cols]) or {"none"}
         out.kind[d] = next(k for k in ("none", "outlook", "forecast") if k in kinds)
         has_data = (~np.isnan(shown) | (dark == 0)).all(axis=1)
-        p = p_display_seen(shown, grid.cloud[:, cols], grid.step_min, cfg["decorrelation_min"])
+        p = p_display_seen(shown, grid.p_clear[:, cols], grid.step_min, cfg["decorrelation_min"])
         out.p_any[:, d] = np.where(has_data, p, np.nan)
         filled = np.nan_to_num(c, nan=0.0)
         out.expected_min[:, d] = filled.sum(axis=1) * grid.step_min
@@ -494,7 +558,7 @@ def limiting_factor(grid, cols, lo, hi, any_dark, cfg):
         mean(grid.darkness[:, cols]),
         mean(grid.moon[:, cols]),
         mean(grid.activity[:, cols]) / cfg["display_active"],
-        mean(grid.cloud[:, cols]),
+        mean(grid.p_clear[:, cols]),
     ])
     names = np.array(FACTORS, dtype=object)[np.argmin(factors, axis=0)]
     return np.where(any_dark, names, "darkness")

@@ -427,7 +427,7 @@ class Climatology:
     first_day, last_day : numpy.datetime64
         Span of the history.
     recurrence_weight : numpy.ndarray, shape (K,)
-        Weight a(k) of the 27-day recurrence blend, see :meth:`prob_with_recurrence`.
+        Weight a(k) of the 27-day recurrence blend, see :meth:`p_kp_at_least_with_recurrence`.
     """
 
     k_grid: np.ndarray
@@ -446,7 +446,7 @@ class Climatology:
         phase = self.cycle.phase_index(t)
         return self.prob[month, block, phase]
 
-    def prob_kp_at_least(self, kp_needed, times_utc) -> np.ndarray:
+    def p_kp_at_least(self, kp_needed, times_utc) -> np.ndarray:
         """Climatological chance that Kp reaches what each site needs at each time.
 
         Kp is a quantised reading (thirds) of a continuous level of activity, so the
@@ -467,7 +467,7 @@ class Climatology:
         table = self.table_at(times_utc)  # (T, K)
         return interpolate_exceedance(table, need, self.k_grid)
 
-    def prob_with_recurrence(self, kp_needed, times_utc, known_start_utc, known_kp):
+    def p_kp_at_least_with_recurrence(self, kp_needed, times_utc, known_start_utc, known_kp):
         """Climatology blended with the activity one solar rotation (27 days) earlier.
 
         For a time whose block 27 days earlier is in the known Kp (observed or
@@ -600,11 +600,3 @@ def build_climatology(history: KpHistory | None = None) -> Climatology:
 def default_climatology() -> Climatology:
     """The climatology of the bundled history, built once per process."""
     return build_climatology(load_history())
-
-
-def prob_kp_at_least(kp_needed, times_utc, climatology: Climatology | None = None) -> np.ndarray:
-    """P(Kp ≥ kp_needed) from the climatology (default: the bundled history's).
-
-    Shapes and conventions as :meth:`Climatology.prob_kp_at_least`: (N, T) in, (N, T) out.
-    """
-    return (climatology or default_climatology()).prob_kp_at_least(kp_needed, times_utc)

@@ -8,15 +8,19 @@ the usual assumption of hemispheric symmetry). The models:
 ``starkov1994`` (default)
     Starkov (1994a) poleward and equatorward edges of the discrete oval and
     the equatorward edge of the diffuse aurora, with Kp turned into AL by
-    Starkov (1994b). Starkov's Kp-to-AL relation flattens above Kp ~ 7 (AL
-    491 nT at Kp 6, 579 at 7, 652 at 9), so his boundaries barely move
-    between Kp 7 and 9 while real storms push the aurora far equatorward.
-    Our storm handling: above Kp 6 the three Starkov boundaries are held at
-    their Kp 6 shape and shifted by Gussenhoven et al.'s (1983) slope of the
-    diffuse equatorward boundary at that MLT (about -2 degrees per Kp near
-    midnight) times (Kp - 6). The threshold Kp 6 is our choice (common
-    practice, no source): it is where Starkov's AL(Kp) curve starts to bend
-    over. See ``STORM_HANDLING``.
+    Starkov (1994b), held at its minimum below Kp 0.23 (see :func:`kp_to_al`).
+    Starkov's Kp-to-AL relation flattens above Kp ~ 7 (AL 491 nT at Kp 6,
+    579 at 7, 652 at 9), so his equatorward boundaries barely move between
+    Kp 7 and 9, while the equatorward boundary of the diffuse aurora observed
+    by DMSP keeps moving about 2 degrees per Kp (Gussenhoven et al. 1983,
+    linear fits over all Kp in their data). What the default changes relative
+    to the published model, and nothing else: above Kp 6 the two
+    *equatorward* boundaries (discrete and diffuse) keep their Kp 6 shape and
+    move by Gussenhoven et al.'s slope at that MLT times (Kp - 6). The
+    poleward edge is Starkov's as published at every Kp: no published source
+    moves it with the diffuse boundary. The threshold Kp 6 is our choice
+    (common practice, no source): it is where Starkov's AL(Kp) curve starts to
+    bend over. See ``STORM_HANDLING``.
 ``starkov1994-published``
     The same model exactly as published, without the storm extension.
 ``gussenhoven1983``
@@ -109,8 +113,9 @@ STORM_KP = 6.0
 
 STORM_HANDLING = {
     "starkov1994": (
-        "above Kp 6 the Starkov boundaries keep their Kp 6 shape and move equatorward "
-        "by Gussenhoven et al. (1983) diffuse-boundary slope x (Kp - 6)"
+        "above Kp 6 the two equatorward Starkov boundaries keep their Kp 6 shape and move "
+        "equatorward by Gussenhoven et al. (1983) diffuse-boundary slope x (Kp - 6); the "
+        "poleward edge stays as published"
     ),
     "starkov1994-published": "none: Starkov (1994) as published (boundaries stall above Kp 7)",
     "gussenhoven1983": "none: the published linear fits in Kp, used up to Kp 9",
@@ -137,8 +142,26 @@ def check_kp(kp) -> np.ndarray:
     return kp
 
 
+def _al_turning_kp() -> float:
+    """Kp at which Starkov's AL(Kp) cubic has its minimum (dAL/dKp = 0, the smaller root)."""
+    _, c1, c2, c3 = KP_TO_AL
+    a, b, c = 3.0 * c3, 2.0 * c2, c1
+    roots = np.roots([a, b, c]).real
+    return float(min(r for r in roots if r > 0))
+
+
+KP_AL_TURNING = _al_turning_kp()
+"""Kp ~ 0.232 where AL = 18 - 12.3 Kp + 27.2 Kp^2 - 2 Kp^3 has its minimum (16.6 nT)."""
+
+
 def kp_to_al(kp):
     """|AL| in nT from Kp by Starkov (1994b): AL = 18 - 12.3 Kp + 27.2 Kp^2 - 2.0 Kp^3.
+
+    The published cubic dips from 18 nT at Kp 0 to 16.6 nT at Kp 0.232 before
+    rising, which would shrink the oval slightly as Kp rises from 0 (an
+    artefact of the fit, not physics). Below ``KP_AL_TURNING`` AL is held at
+    that minimum, so AL never falls as Kp rises and no equatorward boundary
+    moves poleward with Kp.
 
     Parameters
     ----------
@@ -154,7 +177,7 @@ def kp_to_al(kp):
     ----------
     Starkov (1994b), Geomagnetism and Aeronomy 34(1), 101-103; Sigernes et al. (2011).
     """
-    kp = np.asarray(kp, dtype=float)
+    kp = np.maximum(np.asarray(kp, dtype=float), KP_AL_TURNING)
     c0, c1, c2, c3 = KP_TO_AL
     return np.abs(c0 + kp * (c1 + kp * (c2 + kp * c3)))
 
@@ -268,13 +291,14 @@ def gussenhoven1983(kp, mlt_h) -> dict:
 
 
 def starkov1994(kp, mlt_h) -> dict:
-    """Starkov (1994a) boundaries that keep moving equatorward in storms (the default).
+    """Starkov (1994a) boundaries whose equatorward edges keep moving in storms (the default).
 
-    Up to Kp 6 identical to :func:`starkov1994_published`. Above Kp 6 each
-    boundary is the Kp 6 boundary plus Gussenhoven et al.'s (1983) slope at
-    that MLT times (Kp - 6): continuous at Kp 6 and moving about 2 degrees
-    of latitude per Kp near magnetic midnight, as the diffuse boundary does
-    in Gussenhoven's fits.
+    Up to Kp 6 identical to :func:`starkov1994_published`. Above Kp 6 the
+    equatorward edges of the discrete oval and of the diffuse aurora are their
+    Kp 6 positions plus Gussenhoven et al.'s (1983) slope at that MLT times
+    (Kp - 6): continuous at Kp 6 and moving about 2 degrees of latitude per Kp
+    near magnetic midnight, as the diffuse boundary does in Gussenhoven's
+    fits. The poleward edge is Starkov's as published at every Kp.
 
     Parameters
     ----------
@@ -293,10 +317,13 @@ def starkov1994(kp, mlt_h) -> dict:
     Starkov (1994a, 1994b); Gussenhoven et al. (1983) for the slopes.
     """
     kp = np.asarray(kp, dtype=float)
+    published = starkov1994_published(kp, mlt_h)
     base = starkov1994_published(np.minimum(kp, STORM_KP), mlt_h)
     _, slope = _gussenhoven_fit(mlt_h)
     shift = slope * np.maximum(kp - STORM_KP, 0.0)
-    return {name: value + shift for name, value in base.items()}
+    return {"poleward": published["poleward"],
+            "equatorward": base["equatorward"] + shift,
+            "diffuse": base["diffuse"] + shift}
 
 
 MODELS = {

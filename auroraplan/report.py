@@ -123,7 +123,7 @@ def _num(x, digits=3):
     x = float(x)
     if not math.isfinite(x):
         return None
-    return round(x, digits)
+    return round(x, digits) + 0.0  # + 0.0 turns a rounded -0.0 into 0.0
 
 
 def made_at(tz: str, now: dt.datetime | None = None) -> str:
@@ -132,23 +132,43 @@ def made_at(tz: str, now: dt.datetime | None = None) -> str:
     return now.astimezone(ZoneInfo(tz)).isoformat(timespec="minutes")
 
 
-def forecast_info(ws, kinds) -> dict:
-    """Which forecast a report was made from, for the people who read it."""
+def forecast_info(ws, kinds, times_utc=None) -> dict:
+    """Which forecast a report was made from, for the people who read it.
+
+    Parameters
+    ----------
+    ws : Workspace
+    kinds : sequence of str
+        "forecast" | "outlook" | "none" per night or per time step.
+    times_utc : ndarray of datetime64, optional
+        The time of each entry of ``kinds`` (dark steps). With it, outlook
+        steps that fall between the forecast's first and last blocks are
+        named as gaps in the forecast, with their local hours.
+    """
     df = ws.activity
-    kinds = set(kinds)
-    kind = "forecast" if kinds == {"forecast"} else ("outlook" if "outlook" in kinds else
-                                                     ("forecast" if "forecast" in kinds else "none"))
+    kinds = list(kinds)
+    kind_set = set(kinds)
+    kind = "forecast" if kind_set == {"forecast"} else (
+        "outlook" if "outlook" in kind_set else ("forecast" if "forecast" in kind_set else "none"))
     first = last = None
+    gaps: list[str] = []
     if df is not None and len(df):
-        first = utc_iso(np.datetime64(df["start_utc"].min().tz_convert(None), "s"))
-        last = utc_iso(np.datetime64(df["start_utc"].max().tz_convert(None), "s"))
+        first_t = np.datetime64(df["start_utc"].min().tz_convert(None), "s")
+        last_t = np.datetime64(df["start_utc"].max().tz_convert(None), "s")
+        first, last = utc_iso(first_t), utc_iso(last_t)
+        if times_utc is not None:
+            gaps = _forecast_gaps(np.asarray(times_utc, "datetime64[s]"), np.asarray(kinds),
+                                  first_t, last_t, ws.operator.timezone)
     file = ws.files.get("activity")
     notes = {
         "forecast": "Kp from the forecast file for every dark hour.",
         "outlook": "Nights beyond the Kp forecast use the Kp climatology (outlook), not a forecast.",
         "none": "No Kp forecast covers these nights.",
     }
-    if "forecast" in kinds and "outlook" in kinds:
+    if gaps:
+        note = (f"The Kp forecast has a gap at {', '.join(gaps)}: those hours use the outlook "
+                "from Kp climatology, the other hours the forecast.")
+    elif "forecast" in kind_set and "outlook" in kind_set:
         note = "Kp forecast where it reaches; later nights are an outlook from Kp climatology."
     else:
         note = notes[kind]
@@ -162,8 +182,27 @@ def forecast_info(ws, kinds) -> dict:
         "first_block_utc": first,
         "last_block_utc": last,
         "kind": kind,
+        "gaps": gaps,
         "note": note,
     }
+
+
+def _forecast_gaps(times, kinds, first_block, last_block, tz) -> list[str]:
+    """Local spans 'HH:MM–HH:MM' of outlook steps between a forecast's first and last block."""
+    from auroraplan.render.style import time_span
+
+    inside = (kinds == "outlook") & (times >= first_block) & (times < last_block)
+    spans, start = [], None
+    step = np.median(np.diff(times)) if times.size > 1 else np.timedelta64(600, "s")
+    for i, flag in enumerate(inside):
+        if flag and start is None:
+            start = i
+        if start is not None and (not flag or i == len(inside) - 1
+                                  or times[i + 1] - times[i] > step):
+            end = i if flag else i - 1
+            spans.append(time_span(local_iso(times[start], tz), local_iso(times[end] + step, tz)))
+            start = None
+    return spans
 
 
 def base_info(ws) -> dict:
@@ -230,7 +269,8 @@ def tonight_report(ws, date: dt.date, top: int | None = None, now=None, climatol
         "base": base_info(ws),
         "date": date.isoformat(),
         "made_at": made_at(tz, now),
-        "forecast": forecast_info(ws, grid.kind[dark_any] if dark_any.any() else grid.kind),
+        "forecast": forecast_info(ws, grid.kind[dark_any], grid.times_utc[dark_any])
+        if dark_any.any() else forecast_info(ws, grid.kind),
         "darkness_level": ws.operator.darkness,
         "dark_start": local_iso(grid.times_utc[dark_cols[0]], tz) if dark_cols.size else None,
         "dark_end": (local_iso(grid.times_utc[dark_cols[-1]] + np.timedelta64(DEFAULT_STEP_MIN, "m"), tz)
@@ -316,7 +356,7 @@ def hourly_chance(grid, i, tz, settings=None):
         sl = slice(start, start + per_hour)
         if not (grid.darkness[i, sl] > 0).any():
             continue
-        p = p_display_seen(shown[sl], grid.cloud[i, sl], grid.step_min, cfg["decorrelation_min"])
+        p = p_display_seen(shown[sl], grid.p_clear[i, sl], grid.step_min, cfg["decorrelation_min"])
         rows.append({"time": local_iso(grid.times_utc[start], tz), "zone": _zone_name(
             grid.times_utc[start], tz), "chance": _num(p, 3)})
     return rows
@@ -461,7 +501,7 @@ def week_report(ws, start: dt.date, nights: int = 7, progress=None, now=None,
         "start": start.isoformat(),
         "nights": nights,
         "made_at": made_at(tz, now),
-        "forecast": forecast_info(ws, list(summary.kind)),
+        "forecast": _week_forecast_info(ws, grid, summary),
         "vehicles": int(ws.operator.vehicles),
         "night_kinds": [{"date": d.isoformat(), "kind": k} for d, k in zip(dates, summary.kind, strict=True)],
         "darkness_note": dark_note["note"],
@@ -481,6 +521,17 @@ def week_report(ws, start: dt.date, nights: int = 7, progress=None, now=None,
         "cautions": CAUTIONS,
         "notice": FORECAST_NOT_PROMISE,
     }
+
+
+def _week_forecast_info(ws, grid, summary) -> dict:
+    """forecast_info over the nights, naming gaps inside the forecast by their hours."""
+    dark_any = grid.darkness.any(axis=0)
+    info = forecast_info(ws, list(summary.kind), None)
+    if dark_any.any():
+        gaps = forecast_info(ws, grid.kind[dark_any], grid.times_utc[dark_any])
+        if gaps["gaps"]:
+            info.update(gaps=gaps["gaps"], note=gaps["note"])
+    return info
 
 
 def bookings_report(ws, now=None) -> dict:
@@ -560,6 +611,7 @@ def season_report(ws, first: dt.date, last: dt.date, trip_nights: int = 5, progr
     step = DEFAULT_STEP_MIN
     p_any = np.zeros((len(sites), nights))
     dark_hours = np.zeros(nights)
+    outing_dark = np.zeros(nights, bool)
     illum = np.zeros(nights)
     first_times, _ = sky.night_times(first, 1, tz, step)
     table = chance_mod.kp_table(ws, sites, first_times[len(first_times) // 2])
@@ -578,6 +630,7 @@ def season_report(ws, first: dt.date, last: dt.date, trip_nights: int = 5, progr
         dark_hours[done:done + n] = summary.dark_hours[-1]
         for d in range(n):
             sel = grid.night_index == d
+            outing_dark[done + d] = bool((grid.darkness[:, sel] > 0).any())
             illum[done + d] = grid.moon_illumination[sel][len(grid.moon_illumination[sel]) // 2]
         warnings.extend(grid.warnings)
         done += n
@@ -586,6 +639,14 @@ def season_report(ws, first: dt.date, last: dt.date, trip_nights: int = 5, progr
     best = np.argmax(p_any[:-1], axis=0) if open_sites else np.full(nights, -1)
     best_chance = p_any[best, np.arange(nights)] if open_sites else np.zeros(nights)
     dates = [first + dt.timedelta(days=d) for d in range(nights)]
+    starts = best_starts(dates, best_chance, trip_nights, best_count,
+                         dark_night=outing_dark) if open_sites else []
+    starts_note = None
+    if open_sites and not starts:
+        starts_note = (
+            f"No start of {trip_nights} nights from {first} to {last} has a night dark "
+            f"enough ({ws.operator.darkness} darkness inside the outing hours) with any "
+            "chance, so no start date is recommended; look at the darker months.")
     rows = [{
         "date": d.isoformat(),
         "dark_hours": _num(dark_hours[i], 2),
@@ -607,31 +668,39 @@ def season_report(ws, first: dt.date, last: dt.date, trip_nights: int = 5, progr
                    "3-hour UT block and solar-cycle phase; cloud from each site's clear-sky "
                    "climatology. Every night is an outlook, not a forecast."),
         "nights": rows,
-        "best_starts": best_starts(dates, best_chance, trip_nights, best_count) if open_sites else [],
+        "best_starts": starts,
+        "best_starts_note": starts_note,
         "closed_note": all_closed_note(ws),
         "warnings": list(dict.fromkeys(ws.warnings + warnings)),
         "notice": FORECAST_NOT_PROMISE,
     }
 
 
-def best_starts(dates, chance, trip_nights, count=5, min_gap_days=3):
+def best_starts(dates, chance, trip_nights, count=5, min_gap_days=3, dark_night=None):
     """Best start dates for a stay of ``trip_nights`` nights.
 
     Each start is scored by P(at least one night with a display) over the
     stay, 1 − Π(1 − chance), nights taken as independent; the expected
     number of such nights is given too. Starts closer than ``min_gap_days``
     to a better one are left out so that the list offers real alternatives.
+    A start whose stay has no dark night (``dark_night``: darkness inside the
+    outing hours, per night) or no chance at all is never offered: the list
+    may be shorter than ``count``, or empty.
     """
-    chance = np.asarray(chance, float)
+    chance = np.clip(np.nan_to_num(np.asarray(chance, float)), 0.0, 1.0)
     n = len(chance) - trip_nights + 1
     if n <= 0:
         return []
+    dark = np.ones(len(chance), bool) if dark_night is None else np.asarray(dark_night, bool)
+    has_dark = np.convolve(dark.astype(float), np.ones(trip_nights), mode="valid")[:n] > 0
     log_miss = np.log1p(-np.clip(chance, 0.0, 1 - 1e-12))
     window = np.convolve(log_miss, np.ones(trip_nights), mode="valid")[:n]
     expected = np.convolve(chance, np.ones(trip_nights), mode="valid")[:n]
     score = -np.expm1(window)
     picked: list[int] = []
     for i in np.lexsort((np.arange(n), -score)):
+        if not has_dark[i] or score[i] <= 0.0:
+            continue
         if all(abs(int(i) - j) >= min_gap_days for j in picked):
             picked.append(int(i))
         if len(picked) == count:
@@ -669,7 +738,7 @@ def oval_map_data(ws, kp: float, date: dt.date, basemap=None) -> dict:
     base_mlat, _ = magnetic.geo_to_aacgm(np.array([op.base_lat]), np.array([op.base_lon]), 0.0,
                                          when)
     hemisphere = "south" if np.nan_to_num(base_mlat[0], nan=op.base_lat) < 0 else "north"
-    bands = view.band_outline(kp, when, model=op.oval_model, height_km=op.emission_height_km,
+    bands = view.band_outline(kp, when, model=op.oval_model, emission_height_km=op.emission_height_km,
                               hemisphere=hemisphere)
     return {
         "base": {"name": op.base_name, "lat": op.base_lat, "lon": op.base_lon},

@@ -1,8 +1,8 @@
 """Can the aurora be seen from a site: line of sight to the oval band, horizon masks, Kp needed.
 
 The band is the discrete oval between its equatorward and poleward edges
-(:mod:`auroraplan.oval`), at the emission height (default 110 km, the lower
-border of typical green aurora). Along the site's own magnetic meridian
+(:mod:`auroraplan.oval`), at the emission height (``emission_height_km``,
+default 110 km, the lower border of typical green aurora). Along the site's own magnetic meridian
 (same AACGM longitude) points of the band are turned back into geographic
 positions with AACGM-v2 at that height and seen from the site on a
 spherical Earth (R = 6371.2 km, the IGRF reference radius): elevation from
@@ -21,16 +21,18 @@ at that azimuth plus the operator's margin (``min_elevation_deg``).
 
 Visibility need not keep rising with Kp. The oval expands equatorward as Kp
 grows (Starkov 1994a; Feldstein & Starkov 1967), so a site poleward of the
-band at high Kp (the polar cap, e.g. Svalbard near 76 degrees MLAT) sees the
-band at low Kp and loses it below its southern horizon in a strong storm.
-Besides the least Kp at which the band comes into view, the table therefore
-keeps the least Kp above it at which the band has gone out of view again
-(``horizon_lost``). One interval of visibility per site and MLT is kept:
-the equatorward edge moves monotonically equatorward with Kp in the Starkov
-model, but the poleward edge does not, so a band that leaves a site's view
-and comes back at a still higher Kp is counted as out of view from its first
-exit (a cautious choice; found on the same 0.25 Kp scan and 0.01 Kp
-bisection as the Kp needed).
+band (the polar cap, e.g. Svalbard near 76 degrees MLAT) could in principle
+lose the band below its southern horizon in a strong storm. Besides the
+least Kp at which the band comes into view, the table therefore keeps the
+least Kp above it at which the band has gone out of sight on the equator
+side (``kp_lost``): out of view *and* its poleward edge below the lowest
+magnetic latitude the site can see. A band that is merely poleward of a
+site's view (as the oval is at low Kp) is never counted as lost. Found on
+the same 0.25 Kp scan and 0.01 Kp bisection as the Kp needed.
+
+The site's magnetic latitude is taken at the emission height straight above
+it, the same height as the band's edges (Shepherd 2014: AACGM-v2 latitude
+depends on height, here by 0.1-0.35 degrees between the ground and 110 km).
 
 Southern sites use ``|MLAT|`` against the northern boundaries (hemispheric
 symmetry, see :mod:`auroraplan.oval`) and look toward the southern pole.
@@ -78,36 +80,41 @@ class KpNeeded:
     ----------
     mlt_h : ndarray (M,)
         Magnetic local time of each column, 0 to 23.75 h in 15-minute steps.
-    horizon : ndarray (N, M)
+    kp_horizon : ndarray (N, M)
         Least Kp at which some part of the band is above the site's horizon
         mask plus margin; ``inf`` when not reached by Kp 9.
-    horizon_lost : ndarray (N, M)
-        Least Kp above ``horizon`` at which the band has moved out of view
-        again (equatorward of a polar-cap site, below its horizon); ``inf``
-        when it stays in view up to Kp 9 or never comes into view.
-    overhead : ndarray (N, M)
+    kp_lost : ndarray (N, M)
+        Least Kp above ``kp_horizon`` at which the band has passed out of the
+        site's sight on the equator side (its poleward edge below everything a
+        polar-cap site can see); ``inf`` when it stays in view up to Kp 9 or
+        never comes into view.
+    kp_overhead : ndarray (N, M)
         Least Kp at which the site is under the band; ``inf`` when never.
     look_azimuth_deg, look_elevation_deg : ndarray (N, M)
-        Where to look at the Kp in ``horizon`` (true bearing, degrees; NaN
-        where ``horizon`` is inf).
+        Where to look at the Kp in ``kp_horizon`` (true bearing, degrees; NaN
+        where ``kp_horizon`` is inf). For any other Kp use :func:`sightline`.
     mlat, mlon : ndarray (N,)
-        AACGM-v2 latitude and longitude of the sites.
+        AACGM-v2 latitude and longitude of the point at the emission height
+        straight above each site (the height of the band's edges).
+    clearance : MeridianClearance
+        The sites' sight lines along their magnetic meridians.
     """
 
     mlt_h: np.ndarray
-    horizon: np.ndarray
-    overhead: np.ndarray
+    kp_horizon: np.ndarray
+    kp_overhead: np.ndarray
     look_azimuth_deg: np.ndarray
     look_elevation_deg: np.ndarray
     mlat: np.ndarray
     mlon: np.ndarray
     model: str = oval.DEFAULT_MODEL
     settings: dict = field(default_factory=dict)
-    horizon_lost: np.ndarray | None = None
+    kp_lost: np.ndarray | None = None
+    clearance: MeridianClearance | None = None
 
     def __post_init__(self):
-        if self.horizon_lost is None:
-            self.horizon_lost = np.full(np.shape(self.horizon), np.inf)
+        if self.kp_lost is None:
+            self.kp_lost = np.full(np.shape(self.kp_horizon), np.inf)
 
 
 # --- spherical geometry ---------------------------------------------------------------------
@@ -138,14 +145,14 @@ def central_angle_and_bearing(lat1, lon1, lat2, lon2):
     return gamma, bearing
 
 
-def elevation_deg(gamma_rad, site_height_km, target_height_km):
-    """Elevation of a point at ``target_height_km`` seen across central angle ``gamma_rad``.
+def elevation_deg(gamma_rad, site_height_km, point_height_km):
+    """Elevation of a point at ``point_height_km`` seen across central angle ``gamma_rad``.
 
     Parameters
     ----------
     gamma_rad : array_like
         Central angle between the site and the point's foot, radians.
-    site_height_km, target_height_km : array_like
+    site_height_km, point_height_km : array_like
         Heights above the sphere of radius ``R_EARTH_KM``.
 
     Returns
@@ -154,34 +161,8 @@ def elevation_deg(gamma_rad, site_height_km, target_height_km):
         Geometric elevation in degrees (no refraction), 90 straight up.
     """
     r_s = R_EARTH_KM + np.asarray(site_height_km, dtype=float)
-    r_p = R_EARTH_KM + np.asarray(target_height_km, dtype=float)
+    r_p = R_EARTH_KM + np.asarray(point_height_km, dtype=float)
     return np.degrees(np.arctan2(r_p * np.cos(gamma_rad) - r_s, r_p * np.sin(gamma_rad)))
-
-
-def ground_distance_km(elevation, target_height_km, site_height_km=0.0):
-    """Ground distance to the foot of a point at a height seen at a given elevation.
-
-    Inverse of :func:`elevation_deg`: the angle at the point in the triangle
-    (Earth centre, site, point) is asin(r_s cos(e) / r_p) by the sine rule,
-    so the central angle is 90 - e - that angle.
-
-    Parameters
-    ----------
-    elevation : array_like
-        Elevation in degrees.
-    target_height_km, site_height_km : float
-        Heights above the sphere.
-
-    Returns
-    -------
-    ndarray
-        Distance along the ground in km.
-    """
-    e = np.radians(np.asarray(elevation, dtype=float))
-    r_s = R_EARTH_KM + site_height_km
-    r_p = R_EARTH_KM + target_height_km
-    gamma = np.pi / 2 - e - np.arcsin(r_s * np.cos(e) / r_p)
-    return R_EARTH_KM * gamma
 
 
 # --- horizon masks --------------------------------------------------------------------------
@@ -307,40 +288,68 @@ def _as_site_arrays(lat, lon, height_m):
 
 
 def _discrete_edges(kp, mlt_h, model):
+    """Equatorward and poleward edges of the discrete oval (degrees magnetic latitude)."""
     b = oval.MODELS[model](kp, mlt_h)
     return b["equatorward"], b["poleward"]
 
 
-class _Sky:
-    """Clearance above the mask along each site's magnetic meridian, on a latitude grid."""
+class MeridianClearance:
+    """How far above its horizon mask each site sees points along its own magnetic meridian.
 
-    def __init__(self, lat, lon, height_km, mlat, mlon, mask, lam, emission_km, margin, when):
-        self.lam0 = lam[0]
-        self.lam = lam
+    Points of the meridian at the emission height are sampled every
+    ``LAT_STEP_DEG`` of magnetic latitude (``lat_grid_deg``), turned into
+    geographic positions with AACGM-v2 and seen from the site. The geometry
+    does not depend on Kp or MLT, so it is computed once per site and reused
+    for every Kp and time.
+
+    Attributes
+    ----------
+    site_mlat_deg : ndarray (N,)
+        ``|MLAT|`` of the point at the emission height straight above each
+        site: the same height as the band's edges it is compared with.
+    lat_grid_deg : ndarray (L,)
+        Magnetic latitudes sampled along the meridian.
+    elevation_deg, azimuth_deg, clearance_deg : ndarray (N, L)
+        Elevation and true bearing of each point, and its elevation above the
+        horizon mask plus margin (``-inf`` where undefined).
+    lowest_visible_deg : ndarray (N,)
+        The lowest magnetic latitude on the meridian that the site can see
+        (``inf`` when it sees none): a band whose poleward edge lies below it
+        has passed out of the site's sight on the equator side.
+    """
+
+    def __init__(self, lat, lon, site_height_km, mlat, mlon, mask, lat_grid_deg, emission_height_km,
+                 margin_deg, when):
+        self.lat_grid_deg = lat_grid_deg
+        self.grid_start_deg = lat_grid_deg[0]
         hemi = np.where(mlat < 0, -1.0, 1.0)
-        self.m = np.abs(mlat)
-        plat, plon = magnetic.aacgm_to_geo(hemi[:, None] * lam[None, :], mlon[:, None],
-                                           emission_km, when)
+        self.site_mlat_deg = np.abs(mlat)
+        plat, plon = magnetic.aacgm_to_geo(hemi[:, None] * lat_grid_deg[None, :], mlon[:, None],
+                                           emission_height_km, when)
         gamma, az = central_angle_and_bearing(lat[:, None], lon[:, None], plat, plon)
-        el = elevation_deg(gamma, height_km[:, None], emission_km)
-        clear = el - mask_at(mask, np.nan_to_num(az)) - margin
-        self.el = np.where(np.isfinite(el), el, -90.0)
-        self.az = np.where(np.isfinite(az), az, np.nan)
-        self.clear = np.where(np.isfinite(clear), clear, -np.inf)
-        visible = self.clear > 0
-        self.count = np.concatenate(
+        el = elevation_deg(gamma, site_height_km[:, None], emission_height_km)
+        clear = el - mask_at(mask, np.nan_to_num(az)) - margin_deg
+        self.elevation_deg = np.where(np.isfinite(el), el, -90.0)
+        self.azimuth_deg = np.where(np.isfinite(az), az, np.nan)
+        self.clearance_deg = np.where(np.isfinite(clear), clear, -np.inf)
+        visible = self.clearance_deg > 0
+        self.visible_count = np.concatenate(
             [np.zeros((len(lat), 1), dtype=np.int32), np.cumsum(visible, axis=1, dtype=np.int32)],
             axis=1,
         )
+        self.lowest_visible_deg = np.where(
+            visible.any(axis=1), lat_grid_deg[np.argmax(visible, axis=1)], np.inf)
         # Facing the magnetic pole from under the band: bearing to the next point poleward.
-        k = np.clip(np.nan_to_num(np.ceil((self.m - self.lam0) / LAT_STEP_DEG)).astype(int) + 1,
-                    0, lam.size - 1)
-        self.poleward_az = self.az[np.arange(len(lat)), k]
+        k = np.clip(np.nan_to_num(np.ceil((self.site_mlat_deg - self.grid_start_deg)
+                                          / LAT_STEP_DEG)).astype(int) + 1,
+                    0, lat_grid_deg.size - 1)
+        self.poleward_azimuth_deg = self.azimuth_deg[np.arange(len(lat)), k]
 
-    def _index(self, edge):
+    def _index(self, edge_deg):
         """Fractional position of latitudes on the grid: (lower index, weight)."""
-        f = np.clip((edge - self.lam0) / LAT_STEP_DEG, 0.0, self.lam.size - 1.0)
-        lo = np.minimum(np.floor(f).astype(np.intp), self.lam.size - 2)
+        n_lat = self.lat_grid_deg.size
+        f = np.clip((edge_deg - self.grid_start_deg) / LAT_STEP_DEG, 0.0, n_lat - 1.0)
+        lo = np.minimum(np.floor(f).astype(np.intp), n_lat - 2)
         return lo, f - lo
 
     @staticmethod
@@ -350,64 +359,86 @@ class _Sky:
             return values[:, idx]
         return np.take_along_axis(values, idx, axis=1)
 
-    def _interp(self, values, edge, shared=False):
-        lo, w = self._index(edge)
+    def _interp(self, values, edge_deg, shared=False):
+        lo, w = self._index(edge_deg)
         a = self._pick(values, lo, shared)
         return a + w * (self._pick(values, lo + 1, shared) - a)
 
-    def visible(self, rows, eq, pw, shared=False):
-        """Is some part of the band [eq, pw] visible from each site, and is the site under it?
+    def _site_mlat(self, rows, edge_deg, shared):
+        return self.site_mlat_deg[rows].reshape((-1,) + (1,) * (edge_deg.ndim if shared else 1))
 
-        ``eq`` and ``pw`` are either shared by all sites, shape (K, M), giving
-        (n, K, M) results, or one row per site, shape (n, M).
+    def visible(self, rows, equatorward_deg, poleward_deg, shared=False):
+        """Is some part of the band visible from each site, and is the site under it?
+
+        ``equatorward_deg`` and ``poleward_deg`` are either shared by all
+        sites, shape (K, M), giving (n, K, M) results, or one row per site,
+        shape (n, M).
         """
-        clear, count = self.clear[rows], self.count[rows]
-        m = self.m[rows].reshape((-1,) + (1,) * (eq.ndim if shared else 1))
-        under = (eq <= m) & (m <= pw)
-        seen = (self._interp(clear, eq, shared) > 0) | (self._interp(clear, pw, shared) > 0)
-        n_lam = self.lam.size
-        a = np.clip(np.floor((eq - self.lam0) / LAT_STEP_DEG).astype(np.intp) + 1, 0, n_lam)
-        b = np.clip(np.ceil((pw - self.lam0) / LAT_STEP_DEG).astype(np.intp), 0, n_lam)
+        clear, count = self.clearance_deg[rows], self.visible_count[rows]
+        m = self._site_mlat(rows, equatorward_deg, shared)
+        under = (equatorward_deg <= m) & (m <= poleward_deg)
+        seen = ((self._interp(clear, equatorward_deg, shared) > 0)
+                | (self._interp(clear, poleward_deg, shared) > 0))
+        n_lat = self.lat_grid_deg.size
+        a = np.clip(np.floor((equatorward_deg - self.grid_start_deg) / LAT_STEP_DEG)
+                    .astype(np.intp) + 1, 0, n_lat)
+        b = np.clip(np.ceil((poleward_deg - self.grid_start_deg) / LAT_STEP_DEG)
+                    .astype(np.intp), 0, n_lat)
         inside = (self._pick(count, b, shared) - self._pick(count, a, shared)) > 0
         return under | seen | (inside & (b > a)), under
 
-    def look(self, rows, eq, pw):
-        """Azimuth and elevation of the band's best-cleared point, (n, M) each."""
-        clear = self.clear[rows]
-        within = (self.lam[None, None, :] > eq[..., None]) & (self.lam[None, None, :] < pw[..., None])
+    def passed_equatorward(self, rows, poleward_deg, shared=False):
+        """Has the band's poleward edge passed equatorward of all the site can see?"""
+        lowest = self.lowest_visible_deg[rows].reshape(
+            (-1,) + (1,) * (poleward_deg.ndim if shared else 1))
+        return poleward_deg < lowest
+
+    def look(self, rows, equatorward_deg, poleward_deg):
+        """Azimuth and elevation of the band's best-cleared point, and whether the site
+        is under the band; (n, M) each, with one band per site and column."""
+        clear = self.clearance_deg[rows]
+        grid = self.lat_grid_deg[None, None, :]
+        within = (grid > equatorward_deg[..., None]) & (grid < poleward_deg[..., None])
         inner = np.where(within, clear[:, None, :], -np.inf)
         k_in = np.argmax(inner, axis=2)
         c_in = np.take_along_axis(inner, k_in[..., None], axis=2)[..., 0]
-        n_lam = self.lam.size
-        k_e = np.clip(np.rint((eq - self.lam0) / LAT_STEP_DEG).astype(np.intp), 0, n_lam - 1)
-        k_p = np.clip(np.rint((pw - self.lam0) / LAT_STEP_DEG).astype(np.intp), 0, n_lam - 1)
-        choice = np.argmax(np.stack([self._interp(clear, eq), self._interp(clear, pw), c_in]),
-                           axis=0)
+        n_lat = self.lat_grid_deg.size
+        k_e = np.clip(np.rint((equatorward_deg - self.grid_start_deg) / LAT_STEP_DEG)
+                      .astype(np.intp), 0, n_lat - 1)
+        k_p = np.clip(np.rint((poleward_deg - self.grid_start_deg) / LAT_STEP_DEG)
+                      .astype(np.intp), 0, n_lat - 1)
+        choice = np.argmax(np.stack([self._interp(clear, equatorward_deg),
+                                     self._interp(clear, poleward_deg), c_in]), axis=0)
         k = np.choose(choice, [k_e, k_p, k_in])
-        el_rows = self.el[rows]
-        el = np.choose(choice, [self._interp(el_rows, eq), self._interp(el_rows, pw),
+        el_rows = self.elevation_deg[rows]
+        el = np.choose(choice, [self._interp(el_rows, equatorward_deg),
+                                self._interp(el_rows, poleward_deg),
                                 np.take_along_axis(el_rows, k, axis=1)])
-        az = np.take_along_axis(self.az[rows], k, axis=1)
-        m = self.m[rows][:, None]
-        under = (eq <= m) & (m <= pw)
-        az = np.where(under, self.poleward_az[rows][:, None], az)
+        az = np.take_along_axis(self.azimuth_deg[rows], k, axis=1)
+        m = self.site_mlat_deg[rows][:, None]
+        under = (equatorward_deg <= m) & (m <= poleward_deg)
+        az = np.where(under, self.poleward_azimuth_deg[rows][:, None], az)
         el = np.where(under, 90.0, el)
-        return az, el
+        return az, el, under
 
 
-def _lat_grid(eq, pw):
+def _lat_grid(equatorward_deg, poleward_deg):
     """Magnetic latitudes sampled along the meridian: all the band can reach, with a margin."""
-    return np.arange(np.floor(np.min(eq)) - 1.0, np.ceil(np.max(pw)) + 1.0 + 1e-9, LAT_STEP_DEG)
+    return np.arange(np.floor(np.min(equatorward_deg)) - 1.0,
+                     np.ceil(np.max(poleward_deg)) + 1.0 + 1e-9, LAT_STEP_DEG)
 
 
-def sightline(lat, lon, height_m, horizons, kp, mlt_h, min_elevation_deg=5.0,
-              emission_height_km=110.0, model=oval.DEFAULT_MODEL, when=None, names=None):
-    """Whether, and where, each site sees the band at given Kp and MLT.
+LOOK_CELLS = 4_000_000
+"""Most (site, time, latitude) cells :func:`sightline` holds at once (bounds memory)."""
+
+
+def sightline(table: KpNeeded, kp, mlt_h) -> dict:
+    """Whether, and where, each site of a Kp-needed table sees the band at given Kp and MLT.
 
     Parameters
     ----------
-    lat, lon, height_m, horizons, min_elevation_deg, emission_height_km, model, when, names
-        As for :func:`kp_needed_table`.
+    table : KpNeeded
+        From :func:`kp_needed_table` (it carries the sites' meridian geometry).
     kp : array_like (N, T)
         Kp at each site and time (broadcast with ``mlt_h``).
     mlt_h : array_like (N, T)
@@ -415,30 +446,35 @@ def sightline(lat, lon, height_m, horizons, kp, mlt_h, min_elevation_deg=5.0,
 
     Returns
     -------
-    dict
-        ``visible`` (N, T) bool, ``look_azimuth_deg`` and ``look_elevation_deg``
-        (N, T): the band's best-cleared point (elevation 90 when under the band).
+    dict of ndarray (N, T)
+        ``visible`` (bool), ``overhead`` (bool: the site is under the band),
+        ``look_azimuth_deg`` and ``look_elevation_deg``: the band's
+        best-cleared point (elevation 90 and the magnetic-poleward bearing
+        when overhead; toward the equator when the band lies equatorward).
     """
-    oval.check_model(model)
-    lat, lon, height_m = _as_site_arrays(lat, lon, height_m)
-    n = lat.size
-    horizons = check_horizons(horizons, n, names)
+    clearance = table.clearance
+    n = clearance.site_mlat_deg.size
     kp = oval.check_kp(kp)
     mlt_h = np.asarray(mlt_h, dtype=float)
     shape = np.broadcast_shapes(kp.shape, mlt_h.shape)
     if len(shape) < 2:
         shape = (n, shape[0] if shape else 1)
     kp, mlt_h = np.broadcast_to(kp, shape), np.broadcast_to(mlt_h, shape)
-    eq, pw = _discrete_edges(kp, mlt_h, model)
-    if not (np.all(np.isfinite(eq)) and np.all(np.isfinite(pw))):
-        raise InputError(f"oval model {model!r} has no discrete-oval edges")
-    mlat, mlon = magnetic.geo_to_aacgm(lat, lon, height_m / 1000.0, when)
-    sky = _Sky(lat, lon, height_m / 1000.0, mlat, mlon, horizon_table(horizons, n),
-               _lat_grid(eq, pw), float(emission_height_km), float(min_elevation_deg), when)
-    rows = np.arange(n)
-    visible = sky.visible(rows, eq, pw)[0]
-    az, el = sky.look(rows, eq, pw)
-    return {"visible": visible, "look_azimuth_deg": az, "look_elevation_deg": el}
+    equatorward_deg, poleward_deg = _discrete_edges(kp, mlt_h, table.model)
+    out = {"visible": np.zeros(shape, bool), "overhead": np.zeros(shape, bool),
+           "look_azimuth_deg": np.full(shape, np.nan), "look_elevation_deg": np.full(shape, np.nan)}
+    chunk = max(1, LOOK_CELLS // max(1, shape[1] * clearance.lat_grid_deg.size))
+    for start in range(0, n, chunk):
+        rows = np.arange(start, min(start + chunk, n))
+        eq, pw = equatorward_deg[rows], poleward_deg[rows]
+        out["visible"][rows] = clearance.visible(rows, eq, pw)[0]
+        az, el, under = clearance.look(rows, eq, pw)
+        out["look_azimuth_deg"][rows], out["look_elevation_deg"][rows] = az, el
+        out["overhead"][rows] = under
+    bad = ~np.isfinite(table.mlat)
+    out["visible"][bad] = out["overhead"][bad] = False
+    out["look_azimuth_deg"][bad] = out["look_elevation_deg"][bad] = np.nan
+    return out
 
 
 def _first_index(flags, coarse):
@@ -515,42 +551,54 @@ def kp_needed_table(lat, lon, height_m, horizons, min_elevation_deg=5.0,
             f"{', '.join(k for k in oval.MODELS if k.startswith('starkov'))} for Kp needed"
         )
     coarse = np.arange(0, kp_fine.size, KP_COARSE_EVERY)
-    mlat, mlon = magnetic.geo_to_aacgm(lat, lon, height_m / 1000.0, when)
-    sky = _Sky(lat, lon, height_m / 1000.0, mlat, mlon, horizon_table(horizons, n),
-               _lat_grid(eq, pw), float(emission_height_km), float(min_elevation_deg), when)
+    # One height for both sides of every comparison: the site's magnetic
+    # coordinates are those of the point at the emission height above it.
+    mlat, mlon = magnetic.geo_to_aacgm(lat, lon, float(emission_height_km), when)
+    clearance = MeridianClearance(lat, lon, height_m / 1000.0, mlat, mlon,
+                                  horizon_table(horizons, n), _lat_grid(eq, pw),
+                                  float(emission_height_km), float(min_elevation_deg), when)
     cols = np.arange(mlt_h.size)[None, :]
 
     shape = (n, mlt_h.size)
-    horizon, overhead = np.full(shape, np.inf), np.full(shape, np.inf)
-    lost = np.full(shape, np.inf)
+    kp_horizon, kp_overhead = np.full(shape, np.inf), np.full(shape, np.inf)
+    kp_lost = np.full(shape, np.inf)
     look_az, look_el = np.full(shape, np.nan), np.full(shape, np.nan)
     for start in range(0, n, SITE_CHUNK):
         rows = np.arange(start, min(start + SITE_CHUNK, n))
-        vis, under = sky.visible(rows, eq[coarse], pw[coarse], shared=True)  # (n, K, M)
+
+        def seen(k, rows=rows):
+            return clearance.visible(rows, eq[k, cols], pw[k, cols])[0]
+
+        def under(k, rows=rows):
+            return clearance.visible(rows, eq[k, cols], pw[k, cols])[1]
+
+        def gone(k, rows=rows):
+            return ~seen(k) & clearance.passed_equatorward(rows, pw[k, cols])
+
+        vis, overhead = clearance.visible(rows, eq[coarse], pw[coarse], shared=True)  # (n, K, M)
         first_h = _first_index(vis, coarse)
-        first_o = _first_index(under, coarse)
-        # First coarse Kp after the first visible one at which the band is out of view.
+        first_o = _first_index(overhead, coarse)
+        # First coarse Kp after the first visible one at which the band has passed
+        # equatorward of everything the site can see.
         after = coarse[None, :, None] > np.where(first_h >= 0, first_h, coarse[-1])[:, None, :]
-        first_l = _first_index(~vis & after, coarse)
-        first_h = _bisect(lambda k, rows=rows: sky.visible(rows, eq[k, cols], pw[k, cols])[0],
-                          first_h, KP_COARSE_EVERY)
-        first_l = _bisect(lambda k, rows=rows: ~sky.visible(rows, eq[k, cols], pw[k, cols])[0],
-                          first_l, KP_COARSE_EVERY)
-        lost[rows] = np.where(first_l >= 0, kp_fine[np.maximum(first_l, 0)], np.inf)
-        first_o = _bisect(lambda k, rows=rows: sky.visible(rows, eq[k, cols], pw[k, cols])[1],
-                          first_o, KP_COARSE_EVERY)
-        horizon[rows] = np.where(first_h >= 0, kp_fine[np.maximum(first_h, 0)], np.inf)
-        overhead[rows] = np.where(first_o >= 0, kp_fine[np.maximum(first_o, 0)], np.inf)
+        out_of_sight = ~vis & clearance.passed_equatorward(rows, pw[coarse], shared=True)
+        first_l = _first_index(out_of_sight & after, coarse)
+        first_h = _bisect(seen, first_h, KP_COARSE_EVERY)
+        first_l = _bisect(gone, first_l, KP_COARSE_EVERY)
+        first_o = _bisect(under, first_o, KP_COARSE_EVERY)
+        kp_lost[rows] = np.where(first_l >= 0, kp_fine[np.maximum(first_l, 0)], np.inf)
+        kp_horizon[rows] = np.where(first_h >= 0, kp_fine[np.maximum(first_h, 0)], np.inf)
+        kp_overhead[rows] = np.where(first_o >= 0, kp_fine[np.maximum(first_o, 0)], np.inf)
         k = np.maximum(first_h, 0)
-        az, el = sky.look(rows, eq[k, cols], pw[k, cols])
+        az, el, _ = clearance.look(rows, eq[k, cols], pw[k, cols])
         look_az[rows] = np.where(first_h >= 0, az, np.nan)
         look_el[rows] = np.where(first_h >= 0, el, np.nan)
     bad = ~np.isfinite(mlat)  # near the magnetic equator AACGM is undefined: never
-    horizon[bad], overhead[bad], lost[bad] = np.inf, np.inf, np.inf
+    kp_horizon[bad], kp_overhead[bad], kp_lost[bad] = np.inf, np.inf, np.inf
     return KpNeeded(
-        mlt_h=mlt_h, horizon=horizon, overhead=overhead, horizon_lost=lost,
-        look_azimuth_deg=look_az,
-        look_elevation_deg=look_el, mlat=mlat, mlon=mlon, model=model,
+        mlt_h=mlt_h, kp_horizon=kp_horizon, kp_overhead=kp_overhead, kp_lost=kp_lost,
+        look_azimuth_deg=look_az, look_elevation_deg=look_el, mlat=mlat, mlon=mlon,
+        model=model, clearance=clearance,
         settings={"min_elevation_deg": float(min_elevation_deg),
                   "emission_height_km": float(emission_height_km)},
     )
@@ -579,7 +627,7 @@ def kp_needed_at(table: KpNeeded, mlt_h) -> np.ndarray:
         Linear interpolation between the 15-minute columns; where a
         neighbour is inf (not reachable) the larger, i.e. inf, is kept.
     """
-    return _interp_mlt(table, table.horizon, mlt_h, np.maximum)
+    return _interp_mlt(table, table.kp_horizon, mlt_h, np.maximum)
 
 
 def kp_lost_at(table: KpNeeded, mlt_h) -> np.ndarray:
@@ -589,7 +637,7 @@ def kp_lost_at(table: KpNeeded, mlt_h) -> np.ndarray:
     in view) the smaller, finite value is kept, so a polar-cap site is never
     credited with a storm that has carried the band out of its sight.
     """
-    return _interp_mlt(table, table.horizon_lost, mlt_h, np.minimum)
+    return _interp_mlt(table, table.kp_lost, mlt_h, np.minimum)
 
 
 def _interp_mlt(table: KpNeeded, values, mlt_h, pick):
@@ -604,14 +652,6 @@ def _interp_mlt(table: KpNeeded, values, mlt_h, pick):
     return np.where(finite, lin, np.where(w == 0, a, pick(a, b)))
 
 
-def look_at(table: KpNeeded, mlt_h) -> np.ndarray:
-    """Azimuth (degrees true) to look at, per site and MLT (N, T), from the nearest column."""
-    lo, hi, w = _mlt_columns(table, mlt_h)
-    col = np.where(w < 0.5, lo, hi)
-    az = table.look_azimuth_deg
-    return np.take_along_axis(az, col.reshape(len(az), -1), axis=1).reshape(col.shape)
-
-
 def best_night_mlt(table: KpNeeded) -> tuple[np.ndarray, np.ndarray]:
     """The night-side MLT (18-06 h) of least Kp needed on the horizon, and that Kp, per site.
 
@@ -620,7 +660,7 @@ def best_night_mlt(table: KpNeeded) -> tuple[np.ndarray, np.ndarray]:
     """
     t = table.mlt_h
     night = (t >= NIGHT_MLT[0]) | (t <= NIGHT_MLT[1])
-    kp = np.where(night[None, :], table.horizon, np.inf)
+    kp = np.where(night[None, :], table.kp_horizon, np.inf)
     from_midnight = np.minimum(t, 24.0 - t)
     score = np.where(np.isfinite(kp), kp * 100.0 + from_midnight[None, :], np.inf)
     k = np.argmin(np.where(night[None, :], score, np.inf), axis=1)
@@ -629,7 +669,7 @@ def best_night_mlt(table: KpNeeded) -> tuple[np.ndarray, np.ndarray]:
     return t[k], kp[np.arange(len(kp)), k]
 
 
-def band_outline(kp, when_utc, model=oval.DEFAULT_MODEL, height_km=110.0,
+def band_outline(kp, when_utc, model=oval.DEFAULT_MODEL, emission_height_km=110.0,
                  hemisphere="north") -> dict:
     """Geographic outline of the oval band at one time, for maps.
 
@@ -641,8 +681,8 @@ def band_outline(kp, when_utc, model=oval.DEFAULT_MODEL, height_km=110.0,
         The time (fixes which magnetic longitude is at which MLT).
     model : str
         Oval model name.
-    height_km : float
-        Height of the outline (emission height), km.
+    emission_height_km : float
+        Height of the outline (the emission height), km.
     hemisphere : {"north", "south"}
 
     Returns
@@ -662,7 +702,7 @@ def band_outline(kp, when_utc, model=oval.DEFAULT_MODEL, height_km=110.0,
     mlon = np.mod((b_mlt - mlt_at_zero) * 15.0 + 180.0, 360.0) - 180.0
     out = {"mlt_h": b_mlt, "kp": float(kp), "model": model, "hemisphere": hemisphere}
     for name in oval.BOUNDARY_NAMES:
-        lat, lon = magnetic.aacgm_to_geo(signs[hemisphere] * bounds[name], mlon, height_km,
+        lat, lon = magnetic.aacgm_to_geo(signs[hemisphere] * bounds[name], mlon, emission_height_km,
                                          when_utc, refine=1)
         out[f"{name}_lat"], out[f"{name}_lon"] = lat, lon
     return out

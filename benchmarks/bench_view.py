@@ -57,7 +57,7 @@ def run(quick=False) -> dict:
     for i in range(sample):
         alone = view.kp_needed_table(lat[i:i + 1], lon[i:i + 1], height[i:i + 1],
                                      masks[i:i + 1], when=WHEN)
-        if not np.array_equal(alone.horizon[0], table.horizon[i]):
+        if not np.array_equal(alone.kp_horizon[0], table.kp_horizon[i]):
             raise AssertionError(f"site {i}: per-site and vectorised tables differ")
     baseline = (time.perf_counter() - start) * n / sample
 

@@ -5,14 +5,14 @@ import warnings
 import numpy as np
 import pandas as pd
 import pytest
-from scipy.stats import norm
+from scipy.stats import truncnorm
 
 from auroraplan.activity import (
     ForecastSpread,
     forecast_at,
+    forecast_p_kp_at_least,
     kp_spread,
     parse_kp,
-    prob_kp_at_least,
 )
 
 THIRDS = [f"{n}{s}" for n in range(10) for s in "-o+" if f"{n}{s}" not in ("0-", "9+")]
@@ -159,36 +159,48 @@ def test_demo_forecast_storm_block_and_spread(demo_dir):
     np.testing.assert_allclose(sd, [1.2, 0.5 + 0.4 * 2.25])
 
 
-# --- prob_kp_at_least --------------------------------------------------------------------
+# --- forecast_p_kp_at_least -----------------------------------------------------------
 
 
-def test_probability_matches_the_normal_survival_function():
-    """Reference: scipy.stats.norm.sf, P(X >= needed) for X ~ N(mean, sd)."""
+def test_probability_matches_the_truncated_normal_survival_function():
+    """Reference: scipy.stats.truncnorm.sf, P(X >= needed) for N(mean, sd) cut to [0, 9]."""
     rng = np.random.default_rng(7)
     needed = rng.uniform(0, 9, size=(5, 40))
     mean = rng.uniform(0, 9, size=40)
     sd = rng.uniform(0.2, 2.0, size=40)
-    expected = norm.sf(needed, loc=mean, scale=sd)
-    np.testing.assert_allclose(prob_kp_at_least(needed, mean, sd), expected, rtol=1e-12,
-                               atol=1e-15)
+    expected = truncnorm.sf(needed, (0 - mean) / sd, (9 - mean) / sd, loc=mean, scale=sd)
+    np.testing.assert_allclose(forecast_p_kp_at_least(needed, mean, sd), expected, rtol=1e-9,
+                               atol=1e-12)
 
 
-def test_a_forecast_exactly_at_the_need_is_an_even_chance():
-    assert prob_kp_at_least([[5.0]], [5.0], [1.0])[0, 0] == pytest.approx(0.5)
-    # one sd above the need: Phi(1) = 0.8413 (standard normal table)
-    assert prob_kp_at_least([[4.0]], [5.0], [1.0])[0, 0] == pytest.approx(0.8413, abs=1e-4)
+def test_kp_cannot_leave_the_scale():
+    # A Kp 0 forecast: the true Kp is at least 0 for certain (the untruncated normal gave
+    # 0.5 and halved the chance of a site under the quiet oval); nothing reaches beyond 9.
+    p = forecast_p_kp_at_least([[0.0, 9.0, 9.01]], [0.0, 9.0, 9.0], [1.0, 1.0, 1.0])
+    assert p[0, 0] == 1.0 and p[0, 2] == 0.0
+    # At the top of the scale with sd 1, P(Kp >= 9) is 0 (a point): the need must be met
+    # from below; just under 9 a little mass remains.
+    assert forecast_p_kp_at_least([[8.9]], [9.0], [1.0])[0, 0] == pytest.approx(
+        truncnorm.sf(8.9, -9.0, 0.0, loc=9.0, scale=1.0), rel=1e-9)
+
+
+def test_a_forecast_at_the_need_mid_scale_is_nearly_an_even_chance():
+    # Mid-scale the truncation hardly matters: Phi(0) = 0.5 and Phi(1) = 0.8413
+    # (standard normal table), within 1e-4 for mean 4.5 and sd 1.
+    assert forecast_p_kp_at_least([[4.5]], [4.5], [1.0])[0, 0] == pytest.approx(0.5, abs=1e-4)
+    assert forecast_p_kp_at_least([[3.5]], [4.5], [1.0])[0, 0] == pytest.approx(0.8413, abs=1e-4)
 
 
 def test_a_site_that_needs_more_kp_has_a_smaller_chance():
-    needed = np.linspace(0, 9, 28)[:, None] * np.ones((1, 3))
-    p = prob_kp_at_least(needed, [3.0, 5.0, 7.0], [1.0, 1.0, 1.0])
+    needed = np.linspace(0.1, 8.9, 28)[:, None] * np.ones((1, 3))
+    p = forecast_p_kp_at_least(needed, [3.0, 5.0, 7.0], [1.0, 1.0, 1.0])
     assert np.all(np.diff(p, axis=0) < 0)
     assert np.all(np.diff(p, axis=1) > 0)  # stronger forecast, same spread: better chance
 
 
 def test_unreachable_need_missing_forecast_and_certain_forecast():
     needed = np.array([[np.inf, 4.0, 4.0, 4.0]])
-    p = prob_kp_at_least(needed, [9.0, np.nan, 4.0, 3.9], [1.0, 1.0, 0.0, 0.0])
+    p = forecast_p_kp_at_least(needed, [9.0, np.nan, 4.0, 3.9], [1.0, 1.0, 0.0, 0.0])
     assert p[0, 0] == 0.0  # Kp above 9 cannot be reached
     assert np.isnan(p[0, 1])  # no forecast: left to climatology, not read as quiet
     assert p[0, 2] == 1.0 and p[0, 3] == 0.0

@@ -131,3 +131,94 @@ def test_a_brighter_or_higher_moon_never_raises_the_moon_factor(alt1, alt2, phas
     assert factor(high, thinner) <= factor(low, thinner) + 1e-12
     assert factor(low, fuller) <= factor(low, thinner) + 1e-12
     assert abs(factor(-5.0, fuller) - 1.0) < 1e-12  # a moon below the horizon adds nothing
+
+
+# --- activity never falls as Kp rises -------------------------------------------------------
+
+
+def _site_grid(when):
+    """Sites every degree of magnetic latitude 55-80, both hemispheres, three meridians."""
+    from auroraplan import magnetic
+
+    mlat = np.arange(55.0, 80.01, 1.0)
+    mlon = np.array([-100.0, 0.0, 105.0])
+    grid_mlat, grid_mlon = np.meshgrid(mlat, mlon, indexing="ij")
+    lat, lon = [], []
+    for sign in (1.0, -1.0):
+        la, lo = magnetic.aacgm_to_geo(sign * grid_mlat.ravel(), grid_mlon.ravel(), 0.0, when,
+                                       refine=1)
+        lat.append(la)
+        lon.append(lo)
+    return np.concatenate(lat), np.concatenate(lon)
+
+
+def test_activity_factor_never_falls_as_kp_rises_below_the_polar_cap():
+    # Invariant (Feldstein & Starkov 1967: the oval expands equatorward with activity):
+    # for a sub-auroral or auroral-zone site (|MLAT| 55-72) a stronger forecast never
+    # lowers the display chance, at every MLT column, in both hemispheres. Before the
+    # Kp-AL dip was held (Starkov 1994b cubic falls from 18 to 16.6 nT up to Kp 0.23),
+    # about one site in four near 63 degrees lost the band at Kp 0.1-0.2.
+    from auroraplan import view
+
+    when = dt.datetime(2027, 1, 12)
+    lat, lon = _site_grid(when)
+    table = view.kp_needed_table(lat, lon, 0.0, None, when=when)
+    zone = (np.abs(table.mlat) >= 55.0) & (np.abs(table.mlat) <= 72.0)
+    assert zone.sum() >= 100
+    assert np.isinf(table.kp_lost[zone]).all()
+    need, lost = table.kp_horizon[zone], table.kp_lost[zone]
+    factors = []
+    for kp_mean in np.arange(0.0, 9.01, 0.25):
+        def p_at_least(k, kp_mean=kp_mean):
+            return chance.p_aurora_from_forecast(k, np.full(k.shape[1], kp_mean),
+                                                 np.full(k.shape[1], 0.5), 0.5)
+        factors.append(chance.activity_factor(p_at_least, need, lost))
+    factors = np.stack(factors)
+    assert np.all(np.diff(factors, axis=0) >= -1e-12)
+    # and it rises where the need lies inside the ladder
+    assert (factors[-1] > factors[0] + 0.3).mean() > 0.5
+
+
+def test_a_band_is_lost_only_when_it_has_passed_out_of_sight():
+    # Wherever the table says the band is lost (polar-cap sites only), just below that Kp it
+    # is visible and just above it the band is out of view with its poleward edge below
+    # everything the site can see; sites equatorward of 72 degrees never lose it.
+    from auroraplan import oval, view
+
+    when = dt.datetime(2027, 1, 12)
+    lat, lon = _site_grid(when)
+    table = view.kp_needed_table(lat, lon, 0.0, None, when=when)
+    rows, cols = np.nonzero(np.isfinite(table.kp_lost))
+    assert rows.size and np.all(np.abs(table.mlat[rows]) > 72.0)
+    pick = np.linspace(0, rows.size - 1, min(40, rows.size)).astype(int)
+    for r, c in zip(rows[pick], cols[pick], strict=True):
+        sub = view.kp_needed_table([lat[r]], [lon[r]], 0.0, None, when=when)
+        lost, mlt = table.kp_lost[r, c], table.mlt_h[c]
+        before = view.sightline(sub, max(lost - 0.02, 0.0), [[mlt]])
+        after = view.sightline(sub, min(lost + 0.02, 9.0), [[mlt]])
+        assert before["visible"][0, 0] and not after["visible"][0, 0]
+        poleward = oval.boundaries(min(lost + 0.02, 9.0), mlt, table.model)["poleward"]
+        assert poleward < sub.clearance.lowest_visible_deg[0]
+
+
+def test_no_start_is_offered_for_a_stay_without_a_dark_night():
+    # Bright summer nights (no darkness in the outing hours) then the first dark nights:
+    # only starts whose stay reaches a dark night with some chance are offered.
+    dates = [dt.date(2027, 7, 1) + dt.timedelta(days=i) for i in range(20)]
+    c = np.zeros(20)
+    c[15:] = 0.2
+    dark = np.arange(20) >= 15
+    best = best_starts(dates, -0.0 * c, 5, count=10, dark_night=dark)
+    assert best == []  # dark nights but no chance at all: nothing to recommend
+    best = best_starts(dates, c, 5, count=10, dark_night=dark)
+    assert best and all(dt.date.fromisoformat(b["start"]) >= dates[11] for b in best)
+    assert all(b["expected_nights"] > 0 for b in best)
+
+
+def test_json_numbers_never_carry_a_minus_zero():
+    import math
+
+    from auroraplan.report import _num
+
+    for value in (-0.0, -1e-17, -0.0004):
+        assert math.copysign(1.0, _num(value, 3)) == 1.0

@@ -162,11 +162,11 @@ def test_storms_are_likelier_at_solar_maximum_than_minimum(climatology):
     assert at["declining"] > at["minimum"]
 
 
-def test_prob_kp_at_least_interpolates_and_handles_unreachable(climatology):
+def test_p_kp_at_least_interpolates_and_handles_unreachable(climatology):
     times = np.array(["2027-01-10T21:00", "2027-01-11T00:00"], dtype="datetime64[s]")
     table = climatology.table_at(times)
     need = np.array([[0.0, np.inf], [4.5, np.nan], [-1.0, 10.0], [9.0, 13 / 3]])
-    p = climatology.prob_kp_at_least(need, times)
+    p = climatology.p_kp_at_least(need, times)
     assert p.shape == (4, 2)
     assert p[0, 0] == 1.0 and p[2, 0] == 1.0
     assert p[0, 1] == 0.0 and p[1, 1] == 0.0 and p[2, 1] == 0.0
@@ -236,9 +236,9 @@ def test_recurrence_blend_follows_the_rotation_before(climatology):
                       dtype="datetime64[s]")
     known = np.array(["2027-01-14T21:00", "2027-01-14T21:00"], dtype="datetime64[s]")
     need = np.full((1, 3), 5.0)
-    plain = climatology.prob_kp_at_least(need, nights)
-    stormy = climatology.prob_with_recurrence(need, nights, known[:1], [6.0])
-    quiet = climatology.prob_with_recurrence(need, nights, known[:1], [1.0])
+    plain = climatology.p_kp_at_least(need, nights)
+    stormy = climatology.p_kp_at_least_with_recurrence(need, nights, known[:1], [6.0])
+    quiet = climatology.p_kp_at_least_with_recurrence(need, nights, known[:1], [1.0])
     assert stormy[0, 0] > plain[0, 0] > quiet[0, 0] > 0
     assert stormy[0, 2] == plain[0, 2] == quiet[0, 2]
     k5 = 15

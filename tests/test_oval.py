@@ -51,7 +51,38 @@ def test_every_gussenhoven_fit_is_as_transcribed():
 def test_kp_to_al_follows_starkov_1994b():
     # AL = 18 - 12.3 Kp + 27.2 Kp^2 - 2.0 Kp^3, worked by hand at Kp 3: 18 - 36.9 + 244.8 - 54.
     assert oval.kp_to_al(3.0) == pytest.approx(171.9, abs=1e-9)
-    assert oval.kp_to_al(0.0) == pytest.approx(18.0)
+    # The cubic's minimum, worked by hand: dAL/dKp = -12.3 + 54.4 Kp - 6 Kp^2 = 0 at
+    # Kp = (54.4 - sqrt(54.4^2 - 4 * 6 * 12.3)) / 12 = 0.2320; AL there is 16.585 nT.
+    assert oval.KP_AL_TURNING == pytest.approx(0.2320, abs=1e-4)
+    assert oval.kp_to_al(0.2320) == pytest.approx(16.585, abs=1e-3)
+    # Below it AL is held at that minimum (the published cubic gives 18 nT at Kp 0 and
+    # would shrink the oval as Kp rises from 0).
+    assert oval.kp_to_al(0.0) == pytest.approx(16.585, abs=1e-3)
+
+
+@pytest.mark.parametrize("model", ["starkov1994", "starkov1994-published"])
+def test_no_equatorward_edge_moves_poleward_as_kp_rises(model):
+    # Invariant: at every MLT the equatorward edges of the discrete oval and of the diffuse
+    # aurora never move poleward as Kp rises (Feldstein & Starkov 1967: the oval expands
+    # equatorward with activity). Allowed wobble 0.002 degrees: Starkov's cubic fits in
+    # log AL bend by about 0.001 degree on the dayside near Kp 9.
+    kp = np.linspace(0.0, 9.0, 901)[:, None]
+    mlt = np.arange(0.0, 24.0, 0.25)[None, :]
+    b = oval.boundaries(kp, mlt, model)
+    for name in ("equatorward", "diffuse"):
+        assert np.diff(b[name], axis=0).max() < 0.002, name
+
+
+def test_default_model_leaves_the_poleward_edge_as_published():
+    # What the default changes relative to Starkov (1994a): only the equatorward edges
+    # above Kp 6. The poleward edge equals the published one at every Kp and MLT.
+    kp = np.linspace(0.0, 9.0, 37)[:, None]
+    mlt = np.arange(0.0, 24.0, 0.5)[None, :]
+    ours = oval.boundaries(kp, mlt, "starkov1994")
+    published = oval.boundaries(kp, mlt, "starkov1994-published")
+    np.testing.assert_array_equal(ours["poleward"], published["poleward"])
+    quiet = kp[:, 0] <= oval.STORM_KP
+    np.testing.assert_array_equal(ours["equatorward"][quiet], published["equatorward"][quiet])
 
 
 def test_gussenhoven_at_a_published_hour_bin_centre_is_the_published_line():

@@ -302,3 +302,17 @@ def test_a_storm_recurs_one_solar_rotation_later_in_the_outlook(ws):
     for s in storm["sites"]:
         assert s["chance"] >= calm_by[s["name"]] - 1e-9
     assert storm["sites"][0]["chance"] > calm_by[storm["sites"][0]["name"]] + 0.005
+
+
+def test_a_gap_inside_tonights_forecast_is_named_by_its_hours(ws):
+    # Drop the 21Z block of 12 January (22:00-01:00 in Oslo, fully dark at Tromsø): those
+    # hours use the outlook and the note says so, rather than calling later nights an outlook.
+    starts = ws.activity["start_utc"]
+    gap = starts == pd.Timestamp("2027-01-12T21:00Z")
+    assert gap.sum() == 1
+    holed = dataclasses.replace(ws, activity=ws.activity[~gap].reset_index(drop=True))
+    info = report.tonight_report(holed, STORM_NIGHT)["forecast"]
+    assert info["gaps"] == ["22:00–01:00"]
+    assert "22:00–01:00" in info["note"] and "outlook" in info["note"]
+    assert "later nights" not in info["note"]
+    assert report.tonight_report(ws, STORM_NIGHT)["forecast"]["gaps"] == []

@@ -93,5 +93,8 @@ def print_season(result):
         best.add_column(col)
     for b in result["best_starts"]:
         best.add_row(b["start"], b["end"], chance_cell(b["chance_any"]), f"{b['expected_nights']:.1f}")
-    out.print(best)
+    if result.get("best_starts_note"):
+        out.print(f"[bold]{result['best_starts_note']}[/]", soft_wrap=True)
+    else:
+        out.print(best)
     out.print(f"[dim]{result['notice']}[/]")

@@ -53,16 +53,16 @@ def sites_report(ws, date=None) -> dict:
 
     rows = []
     for i, s in enumerate(sites):
-        kp_h = table.horizon[i, 0]
+        kp_h = table.kp_horizon[i, 0]
         az = table.look_azimuth_deg[i, 0]
         local = at[i].astype("datetime64[s]").item().replace(tzinfo=dt.UTC).astimezone(zone)
         rows.append({
             "name": s.name,
             "mlat": round(float(table.mlat[i]), 2),
             "mlon": round(float(table.mlon[i]), 2),
-            "kp_needed_overhead": _finite(table.overhead[i, 0]),
+            "kp_needed_overhead": _finite(table.kp_overhead[i, 0]),
             "kp_needed_horizon": _finite(kp_h),
-            "kp_lost_horizon": _finite(table.horizon_lost[i, 0]),
+            "kp_lost_horizon": _finite(table.kp_lost[i, 0]),
             "look_azimuth": _finite(az, 1),
             "look_compass": compass_point(az) if np.isfinite(az) else None,
             "look_elevation": _finite(table.look_elevation_deg[i, 0], 1),
