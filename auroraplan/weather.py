@@ -2,14 +2,16 @@
 
 from __future__ import annotations
 
+from dataclasses import dataclass, field
+
 import numpy as np
 
 from auroraplan.activity import utc_datetime64
 
-MAX_REACH_H = 1.0
-"""A forecast value is used up to this many hours from the nearest forecast hour; further
-out (gaps, before the first hour, after the last) the forecast says nothing. Hourly
-forecasts are bridged over one missing hour. Common practice, no source."""
+END_HOLD_H = 1.0
+"""At the ends of a forecast, and beside a gap longer than ``WeatherSettings.max_gap_h``, the
+nearest forecast value is held this many hours, never sloped; further out the forecast says
+nothing. Common practice, no source."""
 
 DEFAULT_CLEAR = 0.35
 """P(clear) for a site with neither a cloud forecast nor a clear_by_month table: about one
@@ -38,12 +40,13 @@ def clear_fraction(cloud_pct):
     return 1.0 - np.clip(np.asarray(cloud_pct, dtype=float), 0.0, 100.0) / 100.0
 
 
-def cloud_at(times_s, forecast_s, forecast_pct, reach_h=MAX_REACH_H):
-    """Cloud cover at given times from one site's forecast hours.
+def cloud_at(times_s, forecast_s, forecast_pct, max_gap_h=6.0, hold_h=END_HOLD_H):
+    """Cloud cover at given times from a forecast's steps (one site, or many sites at once).
 
-    Linear between the two forecast hours around a time; a time further than ``reach_h``
-    from every forecast hour gets NaN. Before the first and after the last hour the end
-    value is held (never extrapolated along a slope) up to ``reach_h``.
+    Linear between two consecutive forecast steps that are at most ``max_gap_h`` apart (so
+    1-, 3- and 6-hourly forecasts are bridged by default); beside a longer gap and before the
+    first or after the last step, the nearest step's value is held up to ``hold_h``; further
+    out NaN (the forecast says nothing there). Common practice, no source.
 
     Parameters
     ----------
@@ -51,24 +54,37 @@ def cloud_at(times_s, forecast_s, forecast_pct, reach_h=MAX_REACH_H):
         Wanted times, seconds since 1970 UTC.
     forecast_s : numpy.ndarray of int (K,)
         Forecast times, seconds since 1970 UTC, ascending.
-    forecast_pct : numpy.ndarray (K,)
-        Cloud cover at those times, percent.
-    reach_h : float
-        Hours a forecast value reaches.
+    forecast_pct : numpy.ndarray (K,) or (K, N)
+        Cloud cover at those times, percent, for one site or N sites.
+    max_gap_h, hold_h : float
+        Longest gap bridged, hours; how long an end value is held, hours.
 
     Returns
     -------
-    numpy.ndarray (T,)
+    numpy.ndarray (T,) or (T, N)
         Cloud cover, percent; NaN where the forecast says nothing.
     """
     times_s = np.asarray(times_s, dtype=np.int64)
+    forecast_s = np.asarray(forecast_s, dtype=np.int64)
+    values = np.asarray(forecast_pct, dtype=float)
+    shape = times_s.shape + values.shape[1:]
     if len(forecast_s) == 0:
-        return np.full(times_s.shape, np.nan)
-    after = np.clip(np.searchsorted(forecast_s, times_s), 0, len(forecast_s) - 1)
-    before = np.clip(after - 1, 0, len(forecast_s) - 1)
-    nearest = np.minimum(np.abs(forecast_s[after] - times_s), np.abs(times_s - forecast_s[before]))
-    value = np.interp(times_s, forecast_s, forecast_pct)
-    return np.where(nearest <= reach_h * 3600.0, value, np.nan)
+        return np.full(shape, np.nan)
+    k = len(forecast_s)
+    after = np.clip(np.searchsorted(forecast_s, times_s), 0, k - 1)
+    before = np.clip(np.searchsorted(forecast_s, times_s, side="right") - 1, 0, k - 1)
+    gap = forecast_s[after] - forecast_s[before]
+    frac = np.where(gap > 0, (times_s - forecast_s[before]) / np.where(gap > 0, gap, 1), 0.0)
+    between = (forecast_s[before] <= times_s) & (times_s <= forecast_s[after]) \
+        & (gap <= max_gap_h * 3600.0)
+    d_before = np.abs(times_s - forecast_s[before])
+    d_after = np.abs(forecast_s[after] - times_s)
+    nearest = np.where(d_before <= d_after, before, after)
+    held = np.minimum(d_before, d_after) <= hold_h * 3600.0
+    expand = (slice(None),) + (None,) * (values.ndim - 1)
+    linear = values[before] * (1 - frac)[expand] + values[after] * frac[expand]
+    out = np.where(between[expand], linear, np.where(held[expand], values[nearest], np.nan))
+    return out.reshape(shape)
 
 
 def local_month_index(lon_deg, times_utc, tz=None):
@@ -115,24 +131,291 @@ def _forecast_by_site(clouds_df):
     return {names[a]: (times[a:b], pct[a:b]) for a, b in zip(starts, ends, strict=True)}
 
 
-def clear_probability(sites, clouds_df, times_utc, tz=None):
-    """P(clear sky) per site and time.
+@dataclass(frozen=True)
+class WeatherSettings:
+    """Settings of the cloud stage, from operator.toml ``[weather]``.
 
-    From the hourly cloud forecast where there is one (``cloud_at``, ``clear_fraction``);
-    else the site's ``clear_by_month`` fraction for the local month; else
-    ``DEFAULT_CLEAR`` with a warning naming the site.
+    max_gap_h : float
+        Longest gap between forecast steps that is interpolated (``cloud_at``), hours,
+        0-24; default 6 bridges 1-, 3- and 6-hourly forecasts. Common practice, no source.
+    layer_weights : (float, float, float)
+        Share of low, medium and high cloud that hides the aurora (``weatherfiles.
+        effective_layers``), each 0-1; default 1, 0.8, 0.5. An assumption.
+    clouds_unit : str
+        Unit of ``cloud_pct`` in clouds.csv: "percent" (default) or "fraction".
+    sky_radius_km : float
+        A sky reported at a site (``--sky``) ranks the models for sites this close, km;
+        default 50. An assumption.
+    sky_hours : float
+        ... for this many hours after the report; default 6. An assumption.
+    sky_sd_pct : float
+        Model weight exp(-(error / sky_sd_pct)² / 2), percent; default 20. An assumption.
+    """
+
+    max_gap_h: float = 6.0
+    layer_weights: tuple = (1.0, 0.8, 0.5)
+    clouds_unit: str = "percent"
+    sky_radius_km: float = 50.0
+    sky_hours: float = 6.0
+    sky_sd_pct: float = 20.0
+
+
+WEATHER_LIMITS = {
+    # field: (low, high, unit) -- what the rules above can use
+    "max_gap_h": (0.0, 24.0, "hours"),
+    "sky_radius_km": (0.0, 1000.0, "km"),
+    "sky_hours": (0.0, 24.0, "hours"),
+    "sky_sd_pct": (1.0, 100.0, "percent"),
+}
+CLOUDS_UNITS = ("percent", "fraction")
+
+
+def settings_from(doc: dict | None) -> WeatherSettings:
+    """WeatherSettings from a checked operator.toml document (its [weather] table)."""
+    return WeatherSettings(**((doc or {}).get("weather") or {}))
+
+
+@dataclass(frozen=True)
+class SkyReport:
+    """The sky seen now at a site (``--sky SITE=PCT``)."""
+
+    site: str
+    cloud_pct: float
+    time_utc: np.datetime64
+
+
+@dataclass
+class CloudGrid:
+    """Cloud per site (N) and time (T), with where each value came from."""
+
+    p_clear: np.ndarray  # (N, T) 0..1, never NaN
+    cloud_pct: np.ndarray  # (N, T) the figure used, percent; NaN = climatology
+    source: np.ndarray  # (N, T) str: "clouds.csv" | "models" | "climatology" | "default"
+    models: list  # (M,) model names
+    model_pct: np.ndarray  # (M, N, T) each model's cloud (mean over its members); NaN = none
+    model_weight: np.ndarray  # (M, N, T) weight of each model in the figure
+    spread_pct: np.ndarray  # (N, T) largest minus smallest model value; NaN with < 2 models
+    warnings: list = field(default_factory=list)
+
+
+def blend_models(model_pct, weight):
+    """The cloud figure and spread from several models' values.
+
+    cloud = sum(w_m C_m) / sum(w_m) over the models with a value (each model one equally
+    likely outcome unless a sky report re-weights them; an assumption), so P(clear) =
+    1 - cloud / 100 is the weighted mean of the models' clear fractions (``clear_fraction``).
+    spread = max C_m - min C_m over the models with a value; NaN with fewer than two.
+    A model's C_m is the mean over its ensemble members.
+
+    Parameters
+    ----------
+    model_pct, weight : numpy.ndarray (M, N, T)
+
+    Returns
+    -------
+    cloud_pct, spread_pct : numpy.ndarray (N, T)
+    """
+    have = np.isfinite(model_pct)
+    w = np.where(have, weight, 0.0)
+    total = w.sum(axis=0)
+    cloud = np.where(total > 0, (np.nan_to_num(model_pct) * w).sum(axis=0)
+                     / np.where(total > 0, total, 1.0), np.nan)
+    count = have.sum(axis=0)
+    with np.errstate(invalid="ignore"):
+        high = np.where(have, model_pct, -np.inf).max(axis=0, initial=-np.inf)
+        low = np.where(have, model_pct, np.inf).min(axis=0, initial=np.inf)
+    spread = np.where(count >= 2, high - low, np.nan)
+    return cloud, spread
+
+
+def models_at(series, times_s, settings=WeatherSettings()):
+    """Each model's cloud (mean over members) at the sites and times.
+
+    For every model and member, each time takes the newest run whose steps cover it
+    (``cloud_at`` per run; runs in order of reference time); an hour that only the ends of
+    runs reach (``END_HOLD_H``) takes the newest of those.
+
+    Parameters
+    ----------
+    series : list of weatherfiles.Series
+    times_s : numpy.ndarray of int (T,)
+
+    Returns
+    -------
+    names : list of str (M,)
+    model_pct : numpy.ndarray (M, N, T)
+    used : dict
+        Path -> bool: whether the file gave a value at any wanted time.
+    """
+    times_s = np.asarray(times_s, np.int64)
+    names = sorted({s.model for s in series})
+    n = series[0].cloud_pct.shape[1] if series else 0
+    by_member = {}
+    used = {}
+    for s in sorted(series, key=lambda s: s.reference_utc):
+        value = cloud_at(times_s, s.valid_utc.astype(np.int64), s.cloud_pct,
+                         settings.max_gap_h).T  # (N, T)
+        key = (s.model, s.member)
+        current = by_member.setdefault(key, np.full((n, times_s.size), np.nan))
+        fresh = np.isfinite(value)
+        if s.valid_utc.size:  # a newer run overrides inside its own steps, fills outside
+            first, last = s.valid_utc[[0, -1]].astype(np.int64)
+            fresh &= ((times_s >= first) & (times_s <= last))[None, :] | np.isnan(current)
+        current[fresh] = value[fresh]
+        used[s.file] = used.get(s.file, False) or bool(fresh.any())
+    model_pct = np.full((len(names), n, times_s.size), np.nan)
+    for m, name in enumerate(names):
+        stack = np.array([v for (model, _), v in by_member.items() if model == name])
+        with np.errstate(invalid="ignore"):
+            have = np.isfinite(stack).sum(axis=0)
+            model_pct[m] = np.where(have > 0, np.nansum(stack, axis=0) / np.maximum(have, 1),
+                                    np.nan)
+    return names, model_pct, used
+
+
+def _great_circle_km(lat1, lon1, lat2, lon2):
+    """Haversine distance on a sphere of radius 6371 km (mean Earth radius, IUGG)."""
+    p1, p2 = np.radians(lat1), np.radians(lat2)
+    dp, dl = p2 - p1, np.radians(np.asarray(lon2) - np.asarray(lon1))
+    a = np.sin(dp / 2) ** 2 + np.cos(p1) * np.cos(p2) * np.sin(dl / 2) ** 2
+    return 2 * 6371.0 * np.arcsin(np.sqrt(np.clip(a, 0, 1)))
+
+
+def sky_weights(sites, times_s, names, series, reports, settings=WeatherSettings()):
+    """Model weights (M, N, T) after the sky seen at sites now, and one line per report.
+
+    For each report, each model's error e_m = |C_m(site, report time) - observed|, and its
+    weight w_m = exp(-(e_m / sky_sd_pct)² / 2) (a Gaussian likelihood of the observation;
+    an assumption), applied at sites within ``sky_radius_km`` of the reported site for
+    ``sky_hours`` after the report; the nearest report counts where several reach a site.
+    Everywhere else every model weighs 1.
+    """
+    weight = np.ones((len(names), len(sites), len(times_s)))
+    lines = []
+    if not reports:
+        return weight, lines
+    if not names:
+        return weight, [f"sky reported at {', '.join(r.site for r in reports)}: no "
+                        "weather-model files to compare with; the report is not used"]
+    lat = np.array([s.lat for s in sites], float)
+    lon = np.array([s.lon for s in sites], float)
+    index = {s.name: i for i, s in enumerate(sites)}
+    best_km = np.full(len(sites), np.inf)
+    for report in reports:
+        i = index[report.site]
+        t_obs = np.array([np.datetime64(report.time_utc, "s").astype(np.int64)])
+        _, at_obs, _ = models_at(series, t_obs, settings)
+        seen = at_obs[:, i, 0]
+        if not np.isfinite(seen).any():
+            lines.append(f"sky reported at {report.site}: no model covers it at the report "
+                         "time; the report is not used")
+            continue
+        error = np.abs(seen - report.cloud_pct)
+        w = np.where(np.isfinite(error), np.exp(-0.5 * (error / settings.sky_sd_pct) ** 2), 1.0)
+        w = w / w.max()
+        km = _great_circle_km(lat[i], lon[i], lat, lon)
+        near = (km <= settings.sky_radius_km) & (km < best_km)
+        best_km = np.where(near, km, best_km)
+        soon = (times_s >= t_obs[0]) & (times_s <= t_obs[0] + settings.sky_hours * 3600)
+        weight[:, near[:, None] & soon[None, :]] = 0.0
+        weight += w[:, None, None] * (near[:, None] & soon[None, :])[None]
+        ranked = sorted(zip(names, w, error, strict=True), key=lambda x: -x[1])
+        told = ", ".join(f"{n} weight {v:.2f}" + (f" (off by {e:.0f} points)"
+                                                 if np.isfinite(e) else " (no value)")
+                         for n, v, e in ranked)
+        lines.append(f"sky reported at {report.site}: {report.cloud_pct:.0f} % cloud; for the "
+                     f"next {settings.sky_hours:g} h at {int(near.sum())} site(s) within "
+                     f"{settings.sky_radius_km:g} km the models count as: {told}")
+    return weight, lines
+
+
+def cloud_grid(sites, clouds_df, times_utc, tz=None, reading=None, reports=(),
+               settings=WeatherSettings()):
+    """Cloud and P(clear sky) per site and time, from every source, with provenance.
+
+    Order of preference per site and time: clouds.csv (interpolated by ``cloud_at``; it
+    overrides the model files), else the weather-model files (``blend_models``), else the
+    site's ``clear_by_month`` for the local month, else ``DEFAULT_CLEAR`` with a warning.
 
     Parameters
     ----------
     sites : list of workspace.Site (N)
-        Uses ``name``, ``lon`` and ``clear_by_month``.
     clouds_df : pandas.DataFrame or None
-        Columns ``site``, ``time_utc`` (UTC) and ``cloud_pct``, as read by
-        ``load_workspace``.
+        Columns ``site``, ``time_utc`` (UTC), ``cloud_pct`` (percent).
     times_utc : array_like of datetime64 (T,)
-        UTC times.
     tz : str or None
         The operator's IANA zone for the local month; None = mean solar time per site.
+    reading : weatherfiles.FileReading or None
+        Series read from the weather-model files for these sites.
+    reports : sequence of SkyReport
+    settings : WeatherSettings
+
+    Returns
+    -------
+    CloudGrid
+    """
+    times = utc_datetime64(times_utc)
+    times_s = times.astype(np.int64)
+    n = len(sites)
+    forecasts = _forecast_by_site(clouds_df)
+    empty = (np.array([], dtype=np.int64), np.array([], dtype=float))
+    csv_cloud = np.stack(
+        [cloud_at(times_s, *forecasts.get(site.name, empty), settings.max_gap_h)
+         for site in sites]) if sites else np.empty((0, times.size))
+
+    series = reading.series if reading is not None else []
+    warnings = list(reading.warnings) if reading is not None else []
+    names, model_pct, used = models_at(series, times_s, settings)
+    for path, gave in used.items():
+        if not gave:
+            mine = [s.valid_utc for s in series if s.file == path]
+            first = min(v[0] for v in mine if v.size)
+            last = max(v[-1] for v in mine if v.size)
+            warnings.append(f"{path}: its valid times ({first}Z to {last}Z) miss the nights "
+                            "asked for; the file is not used")
+    weight, sky_lines = sky_weights(sites, times_s, names, series, list(reports), settings)
+    warnings.extend(sky_lines)
+    model_cloud, spread = blend_models(model_pct, weight) if names else (
+        np.full((n, times.size), np.nan), np.full((n, times.size), np.nan))
+    if names:
+        missed = [site.name for i, site in enumerate(sites)
+                  if not np.isfinite(model_pct[:, i]).any()]
+        if missed and len(missed) < n:
+            warnings.append(f"weather-model files: no grid covers {', '.join(missed)}; "
+                            "cloud there comes from clouds.csv or climatology")
+
+    climatology = np.array(
+        [site.clear_by_month if site.clear_by_month is not None else [np.nan] * 12
+         for site in sites], dtype=float,
+    ).reshape(n, 12)
+    months = local_month_index([site.lon for site in sites], times, tz)
+    monthly = np.take_along_axis(climatology, months, axis=1)
+    fallback = np.where(np.isnan(monthly), DEFAULT_CLEAR, monthly)
+
+    from_csv = np.isfinite(csv_cloud)
+    from_models = ~from_csv & np.isfinite(model_cloud)
+    cloud = np.where(from_csv, csv_cloud, model_cloud)
+    p_clear = np.where(np.isnan(cloud), fallback, clear_fraction(cloud))
+    source = np.where(from_csv, "clouds.csv", np.where(
+        from_models, "models", np.where(np.isnan(monthly), "default", "climatology")))
+    overlap = from_csv & np.isfinite(model_cloud)
+    if overlap.any():
+        warnings.append(f"clouds.csv overrides the weather-model files at "
+                        f"{int(overlap.any(axis=1).sum())} site(s) for the hours it covers")
+    needs_default = np.isnan(cloud) & np.isnan(monthly)
+    warnings.extend(
+        f"site {site.name!r}: no cloud forecast and no clear_by_month for some hours; "
+        f"using P(clear) = {DEFAULT_CLEAR}"
+        for site, flag in zip(sites, needs_default.any(axis=1), strict=True) if flag
+    )
+    return CloudGrid(p_clear=p_clear, cloud_pct=cloud, source=source, models=names,
+                     model_pct=model_pct, model_weight=weight, spread_pct=spread,
+                     warnings=warnings)
+
+
+def clear_probability(sites, clouds_df, times_utc, tz=None, reading=None, reports=(),
+                      settings=WeatherSettings()):
+    """P(clear sky) per site and time: ``cloud_grid`` without the provenance.
 
     Returns
     -------
@@ -141,33 +424,10 @@ def clear_probability(sites, clouds_df, times_utc, tz=None):
     cloud_pct : numpy.ndarray (N, T)
         Forecast cloud cover, percent; NaN where there is no forecast.
     warnings : list of str
-        One line per site that fell back to ``DEFAULT_CLEAR``.
 
     References
     ----------
-    The clear-fraction rule and the interpolation reach: common practice, no source.
+    The clear-fraction rule and the interpolation in time: common practice, no source.
     """
-    times = utc_datetime64(times_utc)
-    times_s = times.astype(np.int64)
-    forecasts = _forecast_by_site(clouds_df)
-    empty = (np.array([], dtype=np.int64), np.array([], dtype=float))
-    cloud = np.stack(
-        [cloud_at(times_s, *forecasts.get(site.name, empty)) for site in sites]
-    ) if sites else np.empty((0, times.size))
-
-    climatology = np.array(
-        [site.clear_by_month if site.clear_by_month is not None else [np.nan] * 12
-         for site in sites], dtype=float,
-    ).reshape(len(sites), 12)
-    months = local_month_index([site.lon for site in sites], times, tz)
-    monthly = np.take_along_axis(climatology, months, axis=1)
-    fallback = np.where(np.isnan(monthly), DEFAULT_CLEAR, monthly)
-    p_clear = np.where(np.isnan(cloud), fallback, clear_fraction(cloud))
-
-    needs_default = np.isnan(cloud) & np.isnan(monthly)
-    warnings = [
-        f"site {site.name!r}: no cloud forecast and no clear_by_month for some hours; "
-        f"using P(clear) = {DEFAULT_CLEAR}"
-        for site, flag in zip(sites, needs_default.any(axis=1), strict=True) if flag
-    ]
-    return p_clear, cloud, warnings
+    grid = cloud_grid(sites, clouds_df, times_utc, tz, reading, reports, settings)
+    return grid.p_clear, grid.cloud_pct, grid.warnings

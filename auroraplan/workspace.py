@@ -108,7 +108,7 @@ CSV_COLUMNS = {
     # role: (required columns, optional columns)
     "trips": (("trip", "group", "guests", "arrive", "depart", "outings"), ("blocked",)),
     "activity": (("start_utc", "kp"), ("kp_sd",)),
-    "clouds": (("site", "time_utc", "cloud_pct"), ()),
+    "clouds": (("site", "time_utc", "cloud_pct"), ("unit",)),
 }
 
 SITE_LIMITS = {
@@ -533,6 +533,9 @@ PLANNER_CHECKS = {
     "drive_cost_per_min": _number(0, 0.1, "chance per minute"),
 }
 FREE_TABLES = ("chance", "planner")
+STAGE_TABLES = FREE_TABLES + ("weather",)
+"""Tables of operator.toml beyond OPERATOR_SCHEMA: [weather] holds the fields of
+weather.WeatherSettings."""
 """Tables of the later stages: [chance] holds keys of chance.DEFAULT_SETTINGS, [planner] the
 same keys (the outing hours usually) and drive_cost_per_min."""
 
@@ -593,6 +596,39 @@ def _check_stage_tables(doc: dict, label: str, problems: ProblemList) -> None:
                 )
 
 
+def _weather_checks() -> dict:
+    """Key -> checker of the [weather] table, from weather.WeatherSettings and its limits."""
+    from auroraplan.weather import CLOUDS_UNITS, WEATHER_LIMITS
+
+    def layer_weights(value):
+        if not isinstance(value, list) or len(value) != 3:
+            raise ValueError(f"{_quote(value)} is not three numbers; give [low, medium, high], "
+                             "each 0 to 1")
+        share = _number(0, 1, "(a share)")
+        return tuple(share(v) for v in value)
+
+    checks = {key: _number(*limits) for key, limits in WEATHER_LIMITS.items()}
+    checks["layer_weights"] = layer_weights
+    checks["clouds_unit"] = _choice(CLOUDS_UNITS)
+    return checks
+
+
+def _check_weather_table(doc: dict, label: str, problems: ProblemList) -> None:
+    """Check [weather] in place: known keys (weather.WeatherSettings), types and ranges."""
+    given = doc.get("weather")
+    if not isinstance(given, dict):
+        return
+    checks = _weather_checks()
+    for key in list(given):
+        where = f"{label} [weather] {key}"
+        if key not in checks:
+            problems.add(f"{where}: unknown key; allowed: {', '.join(checks)}")
+            continue
+        checked = _check_field(problems, where, None, checks[key], given[key])
+        if checked is not None:
+            given[key] = checked
+
+
 def _load_operator(path: Path, label: str, problems: ProblemList) -> Operator | None:
     text = _read_text(path, label, problems)
     if text is None:
@@ -605,7 +641,7 @@ def _load_operator(path: Path, label: str, problems: ProblemList) -> Operator | 
     except RecursionError:
         problems.add(f"{label}: arrays or tables nested too deeply to read; check the brackets")
         return None
-    known = tuple(OPERATOR_SCHEMA) + FREE_TABLES
+    known = tuple(OPERATOR_SCHEMA) + STAGE_TABLES
     values = {}
     for table, value in doc.items():
         if table not in known:
@@ -633,6 +669,7 @@ def _load_operator(path: Path, label: str, problems: ProblemList) -> Operator | 
     if ("activity", "issued_utc") in values:
         doc["activity"]["issued_utc"] = values[("activity", "issued_utc")]
     _check_stage_tables(doc, label, problems)
+    _check_weather_table(doc, label, problems)
     if problems:
         return None
     viewing = {key: values[("viewing", key)] for key in OPERATOR_SCHEMA["viewing"]
@@ -1013,12 +1050,40 @@ def _activity_frame(starts, kps, sds):
     return frame.sort_values("start_utc", kind="stable").reset_index(drop=True)
 
 
-def _load_clouds(path, label, site_names, problems: ProblemList):
-    """(site names, hours, cloud %) lists, or None; the frame is built once all files are good."""
+CLOUD_UNITS = {"%": "percent", "percent": "percent", "pct": "percent", "fraction": "fraction",
+               "1": "fraction", "0-1": "fraction"}
+"""Words allowed in the ``unit`` column of clouds.csv, and what they mean."""
+
+
+def _cloud_unit(text):
+    word = str(text).strip().lower()
+    if word not in CLOUD_UNITS:
+        raise ValueError(f"{_quote(str(text).strip())} is not known; give percent (or %) or "
+                         "fraction")
+    return CLOUD_UNITS[word]
+
+
+def _cloud_value(unit):
+    """Checker of one cloud cell in ``unit``: returns percent."""
+    if unit == "fraction":
+        fraction = _csv_number(0, 1, "(a fraction)")
+        return lambda text: 100.0 * fraction(text)
+    return _csv_number(0, 100, "%")
+
+
+def _load_clouds(path, label, site_names, problems: ProblemList, default_unit="percent"):
+    """(site names, hours, cloud %) lists, or None; the frame is built once all files are good.
+
+    ``cloud_pct`` is percent unless the row's ``unit`` column or ``[weather] clouds_unit``
+    says fraction. A file whose values all lie within 0-1 (and are not all 0) with no unit
+    saying fraction is rejected: 0.7 % is far likelier to be a fraction typed as percent.
+    """
     text = _read_text(path, label, problems)
     if text is None:
         return None
     names, times, clouds = [], [], []
+    unit_said = default_unit == "fraction"
+    largest = 0.0
     unknown = {}  # site name -> (first line, rows)
     first_line = {}
     for line, row in _read_csv_rows(text, label, "clouds", problems):
@@ -1026,8 +1091,13 @@ def _load_clouds(path, label, site_names, problems: ProblemList):
         before = len(problems)
         name = _check_field(problems, where, "site", _text, row["site"])
         when = _check_field(problems, where, "time_utc", _file_time, row["time_utc"])
-        cloud = _check_field(problems, where, "cloud_pct", _csv_number(0, 100, "%"),
-                             row["cloud_pct"])
+        unit = default_unit
+        if str(row.get("unit", "")).strip():
+            unit = _check_field(problems, where, "unit", _cloud_unit, row["unit"])
+            unit_said = True
+        cloud = _check_field(problems, where, "cloud_pct", _cloud_value(unit), row["cloud_pct"])
+        if cloud is not None:
+            largest = max(largest, cloud if unit == "percent" else 100.0)
         if name is not None and site_names is not None and name not in site_names:
             first, count = unknown.get(name, (line, 0))
             unknown[name] = (first, count + 1)
@@ -1050,6 +1120,12 @@ def _load_clouds(path, label, site_names, problems: ProblemList):
         problems.add(
             f"{label} line {first}, site: {_quote(name)} is not a site in {FILE_NAMES['sites']} "
             f"({count} row{'s' if count > 1 else ''}); known sites: {shown}"
+        )
+    if clouds and not unit_said and 0.0 < largest <= 1.0 and not problems:
+        problems.add(
+            f"{label}, cloud_pct: every value lies within 0-1 (largest {largest:g}), which "
+            "looks like fractions; write percent 0-100, or add a column unit with "
+            "'fraction', or set clouds_unit = \"fraction\" in [weather] of operator.toml"
         )
     return None if problems else (names, times, clouds)
 
@@ -1167,7 +1243,10 @@ def load_workspace(path) -> Workspace:
         warnings.append(f"{folder / FILE_NAMES['activity']}: not found; no Kp forecast, "
                         "chances come from climatology")
     if "clouds" in found:
-        clouds = step("clouds", lambda p, label, probs: _load_clouds(p, label, site_names, probs))
+        unit = ((operator.settings.get("weather") or {}).get("clouds_unit", "percent")
+                if operator is not None else "percent")
+        clouds = step("clouds", lambda p, label, probs: _load_clouds(p, label, site_names,
+                                                                     probs, unit))
     else:
         warnings.append(f"{folder / FILE_NAMES['clouds']}: not found; no cloud forecast, "
                         "chances use each site's monthly clear-sky fraction")

@@ -50,14 +50,35 @@ def test_cloud_is_held_at_most_an_hour_past_either_end_never_sloped():
     np.testing.assert_allclose(got[1:4], [40.0, 80.0, 80.0])
 
 
-def test_a_long_gap_is_not_bridged_in_its_middle():
-    hours = seconds("2027-01-12T10:00", "2027-01-12T13:00")
-    got = cloud_at(seconds("2027-01-12T11:00", "2027-01-12T11:30", "2027-01-12T12:00"),
+def test_a_three_hourly_forecast_is_bridged_hour_by_hour():
+    # 3-hourly steps, as many open-data services issue them: the hours between are linear
+    hours = seconds("2027-01-12T09:00", "2027-01-12T12:00")
+    got = cloud_at(seconds("2027-01-12T10:00", "2027-01-12T11:00"), hours, np.array([0.0, 90.0]))
+    np.testing.assert_allclose(got, [30.0, 60.0])  # by hand: 0 + 90/3, 0 + 2 * 90/3
+
+
+def test_a_gap_longer_than_the_limit_is_held_an_hour_each_side_and_unknown_between():
+    hours = seconds("2027-01-12T10:00", "2027-01-12T17:00")  # 7 h > the default 6 h
+    got = cloud_at(seconds("2027-01-12T11:00", "2027-01-12T13:30", "2027-01-12T16:00"),
                    hours, np.array([10.0, 70.0]))
-    # 11:00 is an hour from 10:00: 10 + 60 * 1/3 = 30; 11:30 is 1.5 h from both: unknown
-    assert got[0] == pytest.approx(30.0)
+    assert got[0] == pytest.approx(10.0) and got[2] == pytest.approx(70.0)
     assert np.isnan(got[1])
-    assert got[2] == pytest.approx(50.0)
+    # the same gap is bridged when the operator allows 8 h: 10 + 60 * 3.5/7 = 40
+    assert cloud_at(seconds("2027-01-12T13:30"), hours, np.array([10.0, 70.0]),
+                    max_gap_h=8.0)[0] == pytest.approx(40.0)
+
+
+def test_a_three_hourly_clear_file_gives_steady_hourly_chances():
+    # an all-clear 3-hourly forecast must not dip to climatology between its steps
+    sites = [site("Open Fell")]
+    steps = [f"2027-01-12T{h:02d}:00Z" for h in (15, 18, 21, 0)]
+    steps[-1] = "2027-01-13T00:00Z"
+    df = clouds([("Open Fell", t, 0) for t in steps])
+    times = np.arange(np.datetime64("2027-01-12T15:00"), np.datetime64("2027-01-13T00:00"),
+                      np.timedelta64(1, "h")).astype("datetime64[s]")
+    p, cloud, _ = clear_probability(sites, df, times)
+    np.testing.assert_allclose(p, 1.0)
+    np.testing.assert_allclose(cloud, 0.0)
 
 
 def test_clear_chance_is_the_cloud_free_fraction():
