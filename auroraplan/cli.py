@@ -13,6 +13,8 @@ COMMANDS = {
     "oval": ("oval", "auroral oval boundary latitudes by magnetic local time for a Kp"),
     "sites": ("sites", "each site's magnetic latitude and the Kp it needs"),
     "week": ("week", "ranked nights and sites per trip, and the excursion plan"),
+    "confirm": ("confirm", "confirm proposed outings in the plan of record"),
+    "release": ("release", "release outings of the plan of record so they may move"),
     "tonight": ("tonight", "tonight's shortlist of sites; the guide's phone page"),
     "itinerary": ("itinerary", "printable PDF itinerary for a trip"),
     "season": ("season", "long-range chance per night and the best trip start dates"),

@@ -409,9 +409,25 @@ def site_timeline(ws, date: dt.date, site_name: str, climatology=None) -> dict:
 # week
 
 
+FIXED_VALUE = 1000.0
+"""Value given to an outing the plan must keep (confirmed, or another trip's outing of
+record): larger than the chance of every other outing together, so the solver keeps
+every fixed outing that fits before it weighs any chance."""
+
+
 def week_report(ws, start: dt.date, nights: int = 7, progress=None, now=None,
-                climatology=None, ranked_top: int = 5) -> dict:
-    """Ranked nights and sites per trip, and the excursion plan for the fleet."""
+                climatology=None, ranked_top: int = 5, fixed=None, replan=None) -> dict:
+    """Ranked nights and sites per trip, and the excursion plan for the fleet.
+
+    Parameters
+    ----------
+    fixed : dict, optional
+        (trip id, ISO night) -> (site name, state): outings of the plan of record the
+        plan must keep (confirmed outings, and the outings of trips not re-planned).
+    replan : set of str, optional
+        The trips the plan may give new outings; None for every trip. The others keep
+        exactly their ``fixed`` outings.
+    """
     from auroraplan import planner
 
     tz = ws.operator.timezone
@@ -430,12 +446,20 @@ def week_report(ws, start: dt.date, nights: int = 7, progress=None, now=None,
     cost_per_min = float(ws.operator.settings.get("planner", {}).get(
         "drive_cost_per_min", planner.DRIVE_WEIGHT_PER_MIN))
     drive_cost = np.array([s.drive_min for s in sites], float) * cost_per_min
+    plan_value, plan_allowed, fixed_at, record_notes = _keep_fixed(
+        ws, dates, value, allowed, outings, fixed or {}, replan)
     chosen = planner.plan_excursions(
-        value, allowed, guests, outings, vehicles, capacity, drive_cost=drive_cost
+        plan_value, plan_allowed, guests, outings, vehicles, capacity, drive_cost=drive_cost
     ) if len(trips) else []
     backups = planner.choose_backups(
         value, allowed, chosen, guests, capacity, drive_cost=drive_cost
     ) if chosen else []
+    kept = {(r, d) for r, d, _ in chosen}
+    for (r, d), (s, state) in fixed_at.items():
+        if (r, d) not in kept:
+            record_notes.append(
+                f"{trips[r].trip}'s {state} outing on {dates[d]} to {sites[s].name} no longer "
+                "fits the fleet or the site; release it or change the plan by hand")
 
     dark_note = no_darkness(grid, dates, ws.operator.darkness, ws.operator.base_lat,
                             settings_for(ws))
@@ -493,7 +517,10 @@ def week_report(ws, start: dt.date, nights: int = 7, progress=None, now=None,
             "look_azimuth": _num(grid.look_azimuth_deg[s, summary.peak_step[s, d]], 0)
             if summary.peak_step[s, d] >= 0 else None,
             "kind": summary.kind[d],
+            "state": fixed_at.get((r, d), (None, "proposed"))[1],
         })
+    shortfalls = shortfall_warnings(ws, dates, chosen, in_stay, blocked, allowed, value,
+                                    drive_cost, summary, replan, fixed or {})
     return {
         "kind": "week",
         "operator": ws.operator.name,
@@ -517,7 +544,8 @@ def week_report(ws, start: dt.date, nights: int = 7, progress=None, now=None,
                        for i in range(len(sites))],
             "kinds": list(summary.kind),
         },
-        "warnings": list(dict.fromkeys(ws.warnings + grid.warnings)),
+        "warnings": shortfalls + [note_warning(w) for w in dict.fromkeys(
+            ws.warnings + grid.warnings + record_notes)],
         "cautions": CAUTIONS,
         "notice": FORECAST_NOT_PROMISE,
     }
@@ -534,11 +562,114 @@ def _week_forecast_info(ws, grid, summary) -> dict:
     return info
 
 
-def bookings_report(ws, now=None) -> dict:
-    """The week report over the whole span of the booked trips: one plan for every stay."""
-    first = min(t.arrive for t in ws.trips)
-    last = max(t.depart for t in ws.trips)
-    return week_report(ws, first, (last - first).days, now=now)
+def note_warning(message: str) -> dict:
+    """A warning that concerns no one trip, in the same shape as a shortfall warning."""
+    return {"trip": None, "asked": None, "planned": None, "reason": "note", "message": message}
+
+
+def _keep_fixed(ws, dates, value, allowed, outings, fixed, replan):
+    """Value and allowed masks that make the planner keep the outings of record.
+
+    A fixed outing's night allows only its site, at `FIXED_VALUE`; a trip not in
+    ``replan`` allows nothing else. ``outings`` is raised in place where a trip holds
+    more fixed outings than it asks for. Returns (value, allowed, {(r, d): (s, state)},
+    notes about outings of record that cannot be placed at all).
+    """
+    value, allowed = value.copy(), allowed.copy()
+    trip_index = {t.trip: r for r, t in enumerate(ws.trips)}
+    site_index = {s.name: i for i, s in enumerate(ws.sites)}
+    night_index = {d.isoformat(): i for i, d in enumerate(dates)}
+    notes, fixed_at = [], {}
+    if replan is not None:
+        for r, t in enumerate(ws.trips):
+            if t.trip not in replan:
+                allowed[r] = False
+                outings[r] = 0
+    for (trip, night), (site, state) in sorted(fixed.items()):
+        r, d, s = trip_index.get(trip), night_index.get(night), site_index.get(site)
+        if r is None or d is None:
+            continue
+        if s is None:
+            notes.append(f"{trip}'s {state} outing on {night} goes to {site!r}, which is no "
+                         "longer in the sites file; release it and plan again")
+            continue
+        if ws.sites[s].closed:
+            notes.append(f"{trip}'s {state} outing on {night} goes to {site}, which is now "
+                         "closed; release it and plan again")
+        allowed[r, d] = False
+        allowed[r, d, s] = True
+        value[r, d, s] = FIXED_VALUE
+        fixed_at[(r, d)] = (s, state)
+    for r in range(len(ws.trips)):
+        held = sum(1 for (rr, _) in fixed_at if rr == r)
+        outings[r] = max(int(outings[r]), held) if replan is None or ws.trips[r].trip in replan \
+            else held
+    return value, allowed, fixed_at, notes
+
+
+SHORTFALL_REASONS = {
+    "nights": "more outings asked than free evenings in the stay",
+    "blocked nights": "evenings of the stay are blocked",
+    "no darkness": "too few evenings dark enough during the outing hours",
+    "site closed": "no open site on enough evenings",
+    "site capacity": "no open site holds the whole group",
+    "bad forecast": "too few evenings whose chance is worth the drive",
+    "fleet": "the vehicles are taken by other groups on the remaining evenings",
+}
+"""Why a group gets fewer outings than it asked for, tested in this order: the first
+filter of its evenings that leaves fewer than it asked names the reason."""
+
+
+def shortfall_warnings(ws, dates, chosen, in_stay, blocked, allowed, value, drive_cost,
+                       summary, replan, fixed) -> list[dict]:
+    """One warning per trip planned fewer outings than it asked for, with the reason.
+
+    The evenings of the trip's stay in these dates are filtered step by step (free of
+    blocks, dark, an open site, a site that holds the group, a chance above the drive
+    cost); the first step that leaves fewer evenings than asked is the reason, and
+    "fleet" when every step leaves enough (other groups took the vehicles).
+    """
+    planned = np.zeros(len(ws.trips), int)
+    for r, _, _ in chosen:
+        planned[r] += 1
+    open_site = np.array([not s.closed for s in ws.sites], bool)
+    capacity = np.array([s.capacity for s in ws.sites], int)
+    dark = (summary.dark_hours.T > 0) & np.isfinite(summary.p_any.T)  # (D, S)
+    net = value - np.broadcast_to(drive_cost, value.shape)
+    rows = []
+    for r, trip in enumerate(ws.trips):
+        if replan is not None and trip.trip not in replan:
+            continue
+        stay = in_stay[r]
+        whole_stay = dates[0] <= trip.arrive and trip.depart <= dates[-1] + dt.timedelta(days=1)
+        asked = trip.outings if whole_stay else min(trip.outings, int(stay.sum()))
+        if not stay.any() or planned[r] >= asked:
+            continue
+        steps = [
+            ("nights", stay),
+            ("blocked nights", stay & ~blocked[r]),
+            ("no darkness", stay & ~blocked[r] & dark.any(axis=1)),
+            ("site closed", stay & ~blocked[r] & (dark & open_site).any(axis=1)),
+            ("site capacity", stay & ~blocked[r] & (dark & open_site & (
+                capacity >= trip.guests)).any(axis=1)),
+            ("bad forecast", (allowed[r] & (net[r] > 0)).any(axis=1)),
+        ]
+        reason = "fleet"
+        if trip.outings > len(trip.nights()):
+            reason = "nights"
+        else:
+            for name, usable in steps[1:]:
+                if usable.sum() < asked:
+                    reason = name
+                    break
+        rows.append({
+            "trip": trip.trip, "asked": int(asked), "planned": int(planned[r]),
+            "reason": reason,
+            "message": (f"{trip.trip} ({trip.group}) gets {planned[r]} of {asked} outings"
+                        f"{'' if whole_stay else ' in these nights'}: "
+                        f"{SHORTFALL_REASONS[reason]}"),
+        })
+    return rows
 
 
 def _plan_inputs(ws, summary, dates):

@@ -13,6 +13,17 @@ settings.register_profile("auroraplan", deadline=None, derandomize=True, print_b
 settings.load_profile("auroraplan")
 
 DEMO_SITES = Path(__file__).resolve().parents[1] / "demo_sites"
+CHECKED_IN_WORKSPACES = (DEMO_SITES, Path(__file__).resolve().parent / "southern_sites",
+                         Path(__file__).resolve().parent / "bad_inputs" / "base")
+
+
+@pytest.fixture(scope="session", autouse=True)
+def no_database_in_checked_in_workspaces():
+    """Commands that plan keep a database in the workspace: tests must run them on copies."""
+    before = {p for folder in CHECKED_IN_WORKSPACES for p in folder.glob("auroraplan.sqlite*")}
+    yield
+    after = {p for folder in CHECKED_IN_WORKSPACES for p in folder.glob("auroraplan.sqlite*")}
+    assert after <= before, f"a test left a database in a checked-in workspace: {after - before}"
 
 
 @pytest.fixture

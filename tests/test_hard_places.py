@@ -101,10 +101,12 @@ STORM_NIGHT_SOUTH = "2027-06-08"
 
 
 @pytest.fixture(scope="module")
-def southern_week():
+def southern_week(tmp_path_factory):
     exe = Path(sys.executable).with_name("auroraplan")
     cmd = [str(exe)] if exe.exists() else [sys.executable, "-m", "auroraplan.cli"]
-    done = subprocess.run([*cmd, "week", str(SOUTHERN_SITES), "--start", "2027-06-06", "--json"],
+    folder = tmp_path_factory.mktemp("southern") / "ws"
+    shutil.copytree(SOUTHERN_SITES, folder)  # week keeps its plan of record in the folder
+    done = subprocess.run([*cmd, "week", str(folder), "--start", "2027-06-06", "--json"],
                           capture_output=True, text=True)
     assert done.returncode == 0, done.stderr
     return json.loads(done.stdout)

@@ -62,13 +62,14 @@ def test_interrupted_overwrite_keeps_the_earlier_file(tmp_path, monkeypatch):
     assert _leftovers(tmp_path) == []
 
 
-def test_cli_interrupted_while_writing_exits_130_with_one_line(tmp_path, monkeypatch, capsys):
+def test_cli_interrupted_while_writing_exits_130_with_one_line(tmp_path, workspace_copy,
+                                                               monkeypatch, capsys):
     def interrupted_rename(src, dst):
         raise KeyboardInterrupt
 
     monkeypatch.setattr(outfiles.os, "replace", interrupted_rename)
     out = tmp_path / "ranked.csv"
-    code = cli.main(["week", str(DEMO), "--start", "2027-01-11", "--nights", "1",
+    code = cli.main(["week", str(workspace_copy), "--start", "2027-01-11", "--nights", "1",
                      "--csv", str(out)])
     err = capsys.readouterr().err
     assert code == 130

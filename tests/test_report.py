@@ -165,9 +165,9 @@ def test_same_input_gives_the_same_plan(ws, week):
     assert again["plan"] == week["plan"]
 
 
-def test_week_cli_json_csv_and_calendar(tmp_path, demo_dir):
+def test_week_cli_json_csv_and_calendar(tmp_path, workspace_copy):
     csv_path, ics_path = tmp_path / "week.csv", tmp_path / "plan.ics"
-    result = run_cli("week", str(demo_dir), "--start", "2027-01-11", "--json",
+    result = run_cli("week", str(workspace_copy), "--start", "2027-01-11", "--json",
                      "--csv", str(csv_path), "--ics", str(ics_path))
     assert result.returncode == 0, result.stderr
     data = json.loads(result.stdout)
@@ -185,8 +185,8 @@ def test_week_cli_json_csv_and_calendar(tmp_path, demo_dir):
     (["--start", "2027-01-11", "--nights", "0"], "--nights"),
     (["--start", "2027-01-11", "--csv", "/no/such/folder/w.csv"], "w.csv"),
 ])
-def test_week_bad_options_are_one_line(demo_dir, argv, names):
-    result = run_cli("week", str(demo_dir), *argv)
+def test_week_bad_options_are_one_line(workspace_copy, argv, names):
+    result = run_cli("week", str(workspace_copy), *argv)
     assert result.returncode == 2
     lines = result.stderr.strip().splitlines()
     assert len(lines) == 1 and names in lines[0] and "Traceback" not in result.stderr

@@ -135,3 +135,27 @@ def console():
     from rich.console import Console
 
     return Console(highlight=False)
+
+
+def add_record_options(parser, who: bool = False) -> None:
+    """``--database FILE`` (the plan of record; default WORKSPACE/auroraplan.sqlite) and,
+    for commands that change the record, ``--by NAME``."""
+    parser.add_argument("--database", metavar="FILE",
+                        help="the workspace database holding the plan of record "
+                             "(default: auroraplan.sqlite in the workspace folder)")
+    if who:
+        parser.add_argument("--by", metavar="NAME",
+                            help="who makes this change, kept in the record "
+                                 "(default: your login name)")
+
+
+def open_record(args, ws, create: bool):
+    """The workspace database named by ``--database`` (or the workspace's own), or None
+    when it does not exist and ``create`` is false."""
+    from pathlib import Path
+
+    from auroraplan import store
+
+    path = Path(args.database).expanduser() if getattr(args, "database", None) \
+        else store.database_path(ws.path)
+    return store.open_store(path, create=create)

@@ -37,8 +37,8 @@ def run(args):
         raise InputError(f"--out {out}: is a file; give a folder")
     if out.resolve() == ws_path.resolve():
         raise InputError(f"--out {out}: is the workspace itself; choose another folder")
-    steps = build_steps(ws, out)
     out.mkdir(parents=True, exist_ok=True)
+    steps = build_steps(ws, out)
     made = []
     with progress_bar(len(steps), "Demo outputs") as bar:
         for step in steps:
@@ -56,8 +56,12 @@ def run(args):
 
 
 def build_steps(ws, out: Path):
-    """The demo's outputs as a list of functions, each returning index entries."""
-    from auroraplan import report
+    """The demo's outputs as a list of functions, each returning index entries.
+
+    The demo's plan of record is kept in ``OUT/auroraplan.sqlite``, not in the demo
+    workspace, so the bundled folder stays as shipped.
+    """
+    from auroraplan import record, report, store
     from auroraplan.outfiles import write_bytes_atomic, write_text_atomic
 
     state = {}
@@ -66,8 +70,9 @@ def build_steps(ws, out: Path):
         from auroraplan.commands.week import week_csv
         from auroraplan.render.calendar import plan_ics
 
-        state["season_week"] = report.bookings_report(ws)
-        state["week"] = report.week_report(ws, DEMO_WEEK_START, 7)
+        with store.open_store(out / store.DATABASE_NAME) as db:
+            state["week"] = record.propose_week(ws, DEMO_WEEK_START, 7, db, command="demo")
+            state["season_week"] = record.bookings_plan(ws, db, command="demo")
         write_text_atomic(out / "week.json", _json(state["week"]))
         write_text_atomic(out / "week.csv", week_csv(state["week"]))
         write_bytes_atomic(out / "excursions.ics", plan_ics(state["season_week"]))

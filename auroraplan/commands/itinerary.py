@@ -1,11 +1,14 @@
 """Write the printable PDF itinerary of a booked trip, or of every trip into a folder.
 
-Plans the nights of the trip's stay from the workspace (the same plan as `week` over the
-stay) and lays out, for the group: each evening's outing, site, pick-up and return times,
+Reads the trip's outings from the plan of record in the workspace database, the
+same outings `week` and the calendar show; a trip not yet planned is planned
+around the record first and its proposal saved. Lays out, for the group: each evening's outing, site, pick-up and return times,
 chance in words, the backup site, what to wear and bring, and the safety cautions.
 """
 
 import re
+
+from auroraplan.commands._common import add_record_options
 
 PAPERS = {"a4": "A4", "letter": "Letter"}
 
@@ -20,6 +23,7 @@ def add_arguments(parser):
     parser.add_argument("--pdf", metavar="FILE", help="where to write the PDF (with --trip)")
     parser.add_argument("--paper", type=str.lower, choices=sorted(PAPERS), default="a4",
                         help="paper size: a4 (default) or letter")
+    add_record_options(parser)
 
 
 def itinerary_file_name(trip_id: str) -> str:
@@ -53,7 +57,7 @@ def run(args):
         targets = {trips[0].trip: check_output_path(args.pdf, protected)}
 
     with working(f"Planning and laying out {len(trips)} itinerar{'y' if len(trips) == 1 else 'ies'}"):
-        pdfs = _render_all(ws, trips, PAPERS[args.paper])
+        pdfs = _render_all(ws, trips, PAPERS[args.paper], args)
     for trip_id, path in targets.items():  # written only once every PDF is made
         write_bytes_atomic(path, pdfs[trip_id])
         print(f"wrote {path}")
@@ -89,13 +93,15 @@ def _all_targets(folder, trips, protected):
     return targets
 
 
-def _render_all(ws, trips, paper):
-    """One PDF per trip, all from one plan over every booked stay, so that the
-    itineraries agree with each other and with the fleet."""
+def _render_all(ws, trips, paper, args):
+    """One PDF per trip, all from the plan of record over every booked stay, so that the
+    itineraries agree with each other, with `week` and with the fleet."""
+    from auroraplan.commands._common import open_record
+    from auroraplan.record import bookings_plan
     from auroraplan.render.itinerary_pdf import itinerary_pdf
-    from auroraplan.report import bookings_report
 
-    report = bookings_report(ws)
+    with open_record(args, ws, create=True) as db:
+        report = bookings_plan(ws, db)
     pdfs = {}
     for trip in trips:
         pdfs[trip.trip] = itinerary_pdf(report, trip.trip, paper=paper)

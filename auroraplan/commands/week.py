@@ -2,10 +2,14 @@
 
 Reads the workspace folder (operator.toml, sites.geojson, trips.csv,
 activity.csv, clouds.csv) and prints, per trip, the best sites for each
-night of its stay, then the plan that fits the fleet and the sites.
+night of its stay, then the plan that fits the fleet and the sites. The
+stays of the trips in these nights are planned whole, around the plan of
+record in the workspace database: confirmed outings stay where they are,
+and the new proposal is saved and compared with the record (what moved,
+was added or dropped, and why). Confirm outings with `auroraplan confirm`.
 """
 
-from auroraplan.commands._common import int_range, iso_date
+from auroraplan.commands._common import add_record_options, int_range, iso_date
 
 
 def add_arguments(parser):
@@ -18,11 +22,12 @@ def add_arguments(parser):
     parser.add_argument("--csv", metavar="FILE", help="also write ranked nights × sites as CSV")
     parser.add_argument("--ics", metavar="FILE",
                         help="also write the planned outings as an iCalendar file")
+    add_record_options(parser, who=True)
 
 
 def run(args):
-    from auroraplan import report
-    from auroraplan.commands._common import print_json
+    from auroraplan import record
+    from auroraplan.commands._common import open_record, print_json
     from auroraplan.commands._progress import working
     from auroraplan.outfiles import check_output_path
     from auroraplan.workspace import load_workspace
@@ -32,7 +37,8 @@ def run(args):
     outputs = {k: check_output_path(v, protected) for k, v in (("csv", args.csv), ("ics", args.ics)) if v}
     with working(f"Planning {args.nights} nights for {len(ws.trips)} trips at {len(ws.sites)} sites",
                  quiet=args.json):
-        result = report.week_report(ws, args.start, args.nights)
+        with open_record(args, ws, create=True) as db:
+            result = record.propose_week(ws, args.start, args.nights, db, by=args.by)
     payloads = {}
     if "csv" in outputs:
         payloads["csv"] = week_csv(result).encode("utf-8")
@@ -123,11 +129,38 @@ def print_week(result):
     plan = new_table(title="Excursion plan")
     for col in ("night", "trip", "site", "chance", "pick-up", "return", "backup"):
         plan.add_column(col, no_wrap=col in ("night", "chance", "pick-up", "return"))
+    plan.add_column("state", no_wrap=True)
     for p in sorted(result["plan"], key=lambda p: (p["date"], p["trip"])):
         plan.add_row(short_date(p["date"]) + kind_mark(p["kind"]), p["trip"], p["site"], chance_cell(p["chance"]),
-                     clock(p["pickup"]), clock(p["return"]), p["backup"] or "—")
+                     clock(p["pickup"]), clock(p["return"]), p["backup"] or "—",
+                     p.get("state") or "proposed")
     out.print(plan if result["plan"] else "[bold]No outings planned[/] for these dates.")
     out.print("[dim]* outlook: beyond the Kp forecast, from climatology. "
               "Chances are forecasts, not promises.[/]")
+    print_record(out, result)
     for w in result.get("warnings", []):
-        out.print(f"[yellow]note:[/] {w}")
+        label = "[bold yellow]short:[/]" if w.get("trip") else "[yellow]note:[/]"
+        out.print(f"{label} {w['message']}")
+
+
+def print_record(out, result):
+    """The what-ifs in force, the changes against the plan of record, and where it is kept."""
+    from auroraplan.commands._text import short_date
+
+    for assumption in result.get("what_if", []):
+        out.print(f"[bold magenta]what-if:[/] {assumption} (this run only; nothing saved)")
+    changes = result.get("changes", [])
+    if changes:
+        out.print("[bold]Changes against the plan of record[/]")
+    first = [c["trip"] for c in changes if c["reasons"] == ["first plan for this trip"]]
+    if first:
+        out.print(f"  first plan for {', '.join(dict.fromkeys(first))}")
+    for c in (c for c in changes if c["trip"] not in first):
+        old = f"{short_date(c['from_night'])} {c['from_site']}" if c["from_night"] else ""
+        new = f"{short_date(c['to_night'])} {c['to_site']}" if c["to_night"] else ""
+        what = {"moved": f"{old} → {new}", "added": new, "dropped": old}[c["change"]]
+        out.print(f"  {c['trip']} {c['change']}: {what} ({'; '.join(c['reasons'])})")
+    rec = result.get("record") or {}
+    if rec.get("saved"):
+        out.print(f"[dim]Saved as proposal {rec['plan_id']} in {rec['database']}; confirm "
+                  "outings with: auroraplan confirm WORKSPACE [--trip ID] [--night DATE][/]")

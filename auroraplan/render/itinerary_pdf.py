@@ -92,15 +92,20 @@ def _night_rows(report: dict, trip: dict, st: dict) -> list:
     return rows
 
 
+FREE_EVENING = ("Free evening: no guided outing. Ask the guide whether a seat is free on "
+                "another group's outing that night.")
+NO_OUTINGS = ("No guided evening outing is planned for your group at present; the office "
+              "will tell you if one becomes possible.")
+
+
 def _night_cells(night: dict, outing: dict | None) -> list[str]:
     basis = style.KIND_WORDS.get(night.get("kind"), str(night.get("kind")))
     if outing is None:
+        # No chance is shown for an evening the group does not go out: it would read as
+        # an offer. The guests are told what they can do instead.
         what = ("No outing (the group is not available)" if night.get("blocked")
-                else "Free evening (no outing planned)")
-        chance = night.get("chance")
-        best = ("—" if chance is None
-                else f"best nearby {style.chance_in_words(chance)} ({style.percent(chance)})")
-        return [_p(_day(night["date"])), "No", _p(what), "—", _p(best), _p(basis)]
+                else FREE_EVENING)
+        return [_p(_day(night["date"])), "No", _p(what), "—", "—", "—"]
     pickup, back = style.local_time(outing.get("pickup")), style.local_time(outing.get("return"))
     where = f"<b>{_p(outing['site'])}</b>"
     if outing.get("backup"):
@@ -208,8 +213,9 @@ def itinerary_pdf(report: dict, trip_id: str, paper: str = "A4") -> bytes:
         Paragraph(_p(f"{report.get('operator', '')} · from {base} · trip {trip['trip']} · "
                      f"{trip['guests']} guests"), st["sub"]),
         Paragraph(_p(f"Stay: arriving {_day(trip['arrive'])}, leaving {_day(trip['depart'])}. "
-                     f"{n_out} evening outing{'s' if n_out != 1 else ''} planned. "
-                     "Times are local time at the base."), st["sub"]),
+                     + (f"{n_out} evening outing{'s' if n_out != 1 else ''} planned. "
+                        if n_out else NO_OUTINGS + " ")
+                     + "Times are local time at the base."), st["sub"]),
         Spacer(1, 8),
         Paragraph("Your evenings", st["h2"]),
         _night_table(_night_rows(report, trip, st), doc.width),
