@@ -408,4 +408,5 @@ def bookings_plan(ws, db, **kw) -> dict:
     end = max(t.depart for t in ws.trips)
     planned = planned_trips(db)
     replan = {t.trip for t in ws.trips if t.trip not in planned}
-    return propose(ws, first, end, replan, db, command=kw.pop("command", "itinerary"), **kw)
+    kw.setdefault("command", "itinerary")
+    return propose(ws, first, end, replan, db, **kw)

@@ -672,6 +672,15 @@ def shortfall_warnings(ws, dates, chosen, in_stay, blocked, allowed, value, driv
     return rows
 
 
+def bookings_report(ws, now=None, db=None) -> dict:
+    """Every booked stay as the plan of record in ``db`` holds it, trips not in it planned
+    around it (`auroraplan.record.bookings_plan`); nothing is saved. With no database, one
+    plan over every stay."""
+    from auroraplan import record
+
+    return record.bookings_plan(ws, db, save=False, now=now)
+
+
 def _plan_inputs(ws, summary, dates):
     """Value and allowed masks (trips × nights × sites) for the planner."""
     trips, sites = ws.trips, ws.sites

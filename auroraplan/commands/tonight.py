@@ -7,7 +7,7 @@ self-contained page for a guide's phone (works offline once saved); with
 backup, window, where to look, and whether to go, wait or swap to the backup.
 """
 
-from auroraplan.commands._common import int_range, iso_date
+from auroraplan.commands._common import add_record_options, int_range, iso_date
 
 
 def add_arguments(parser):
@@ -24,6 +24,7 @@ def add_arguments(parser):
     parser.add_argument("--png", metavar="FILE",
                         help="also write the night timeline chart of the best site (or, with "
                              "--trip, of the group's site) to FILE")
+    add_record_options(parser)
 
 
 def tonight_date(tz: str):
@@ -55,8 +56,15 @@ def run(args):
 
             runsheet.find_trip({"trips": [{"trip": t.trip} for t in ws.trips]}, args.trip)
             result = report.tonight_report(ws, date)
-            sheet = runsheet.run_sheet(result, report.bookings_report(ws), args.trip,
-                                       ws.operator.settings)
+            from auroraplan.commands._common import open_record
+
+            db = open_record(args, ws, create=False)  # read only: never created here
+            try:
+                plan = report.bookings_report(ws, db=db)
+            finally:
+                if db is not None:
+                    db.close()
+            sheet = runsheet.run_sheet(result, plan, args.trip, ws.operator.settings)
         else:
             result = report.tonight_report(ws, date, top=args.top)
         payloads = {}
