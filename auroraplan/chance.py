@@ -124,6 +124,7 @@ class ChanceGrid:
     moon_alt: np.ndarray  # (N, T)
     moon_illumination: np.ndarray  # (T,)
     warnings: list = field(default_factory=list)
+    nowcast_weight: np.ndarray | None = None  # (T,) share of the solar-wind Kp estimate, 0..1
 
 
 def moon_factor(dark_sky_mag, moonlit_sky_mag, beta=DEFAULT_SETTINGS["moon_beta"]):
@@ -210,7 +211,7 @@ def site_arrays(sites):
 
 def compute_grid(
     ws, sites, times_utc, night_index, step_min, *, use_forecast=True, use_clouds=True,
-    climatology=None, settings=None, table=None,
+    climatology=None, settings=None, table=None, nowcast=None,
 ):
     """Chance per site and time step for the workspace's sites.
 
@@ -232,6 +233,9 @@ def compute_grid(
         Overrides of :data:`DEFAULT_SETTINGS`.
     table : auroraplan.view.KpNeeded, optional
         A Kp-needed table already computed for these sites (long ranges reuse it).
+    nowcast : auroraplan.solarwind.Nowcast, optional
+        Kp estimated from upstream solar wind; laid over the forecast for the hours it
+        covers (``solarwind.blend``).
     """
     from auroraplan import magnetic, sky, view, weather
     from auroraplan.activity import forecast_at
@@ -260,6 +264,12 @@ def compute_grid(
         kp_mean = np.full(times_utc.shape, np.nan)
         kp_sd = np.full(times_utc.shape, np.nan)
         covered = np.zeros(times_utc.shape, bool)
+    nowcast_weight = np.zeros(times_utc.shape)
+    if use_forecast and nowcast is not None:
+        from auroraplan.solarwind import blend
+
+        kp_mean, kp_sd, covered, nowcast_weight = blend(times_utc, kp_mean, kp_sd, covered,
+                                                        nowcast)
     look = look_for_forecast(table, kp_needed, kp_lost, kp_mean, mlt)
     look_az, look_el = look["look_azimuth_deg"], look["look_elevation_deg"]
 
@@ -312,6 +322,7 @@ def compute_grid(
         cloud_pct=cloud_pct, kp_mean=kp_mean, kp_sd=kp_sd, kind=kind,
         mlt=mlt, sun_alt=track.sun_alt, moon_alt=track.moon_alt, dark_sky=dark, outing=outing,
         moon_illumination=track.moon_illumination, warnings=warnings,
+        nowcast_weight=nowcast_weight,
     )
 
 

@@ -16,6 +16,7 @@ COMMANDS = {
     "confirm": ("confirm", "confirm proposed outings in the plan of record"),
     "release": ("release", "release outings of the plan of record so they may move"),
     "tonight": ("tonight", "tonight's shortlist of sites; the guide's phone page"),
+    "nowcast": ("nowcast", "the next hours at every site from upstream solar-wind measurements"),
     "itinerary": ("itinerary", "printable PDF itinerary for a trip"),
     "season": ("season", "long-range chance per night and the best trip start dates"),
     "arrival": ("arrival", "arrival window of a coronal mass ejection and the nights it touches"),

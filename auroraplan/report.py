@@ -243,16 +243,23 @@ def default_climatology(ws=None):
 # tonight
 
 
-def tonight_report(ws, date: dt.date, top: int | None = None, now=None, climatology=None) -> dict:
-    """Tonight's shortlist for the guide: open sites ranked by chance."""
+def tonight_report(ws, date: dt.date, top: int | None = None, now=None, climatology=None,
+                   solar_wind=None) -> dict:
+    """Tonight's shortlist for the guide: open sites ranked by chance.
+
+    ``solar_wind`` (a ``workspace.SolarWindFile``) lays the Kp estimated from upstream
+    measurements over the forecast for the hours it covers; the report's ``nowcast``
+    block says from when and until when.
+    """
     tz = ws.operator.timezone
     sites = [s for s in ws.sites if not s.closed]
     closed_note = all_closed_note(ws)
     if climatology is None:
         climatology = default_climatology(ws)
+    cast = solar_wind_estimate(solar_wind)
     # With every site closed the night is still described, at the base.
     grid, summary = _grid_for_nights(ws, sites or [_base_site(ws)], date, 1, DEFAULT_STEP_MIN,
-                                     climatology)
+                                     climatology, nowcast=cast)
     order = _rank(summary.p_any[:, 0]) if sites else []
     if top:
         order = order[:top]
@@ -279,6 +286,7 @@ def tonight_report(ws, date: dt.date, top: int | None = None, now=None, climatol
         "darkness_note": dark_note["note"],
         "no_darkness": dark_note["nights"],
         "closed_note": closed_note,
+        "nowcast": nowcast_info(cast, solar_wind, grid, tz),
         "sites": rows,
         "warnings": list(dict.fromkeys(ws.warnings + grid.warnings)),
         "cautions": CAUTIONS,
@@ -358,8 +366,87 @@ def hourly_chance(grid, i, tz, settings=None):
             continue
         p = p_display_seen(shown[sl], grid.p_clear[i, sl], grid.step_min, cfg["decorrelation_min"])
         rows.append({"time": local_iso(grid.times_utc[start], tz), "zone": _zone_name(
-            grid.times_utc[start], tz), "chance": _num(p, 3)})
+            grid.times_utc[start], tz), "chance": _num(p, 3),
+            "kp_from": _kp_from(grid, sl)})
     return rows
+
+
+def _kp_from(grid, sl) -> str:
+    """Where an hour's Kp came from: "solar wind" when the upstream estimate carries at
+    least half of it, else the step kind ("forecast", "outlook", "none")."""
+    weight = grid.nowcast_weight
+    if weight is not None and np.mean(weight[sl]) >= 0.5:
+        return "solar wind"
+    kinds = list(grid.kind[sl])
+    return max(set(kinds), key=kinds.count)
+
+
+# ---------------------------------------------------------------------------
+# the solar-wind nowcast
+
+NOWCAST_EXPECT = {
+    "rising": "Activity is rising: expect the band to brighten and move toward the equator "
+              "within the hour; be at the site and watching.",
+    "steady": "Activity holds: expect much the same in the next hour.",
+    "falling": "Activity is easing: expect displays to fade over the next hour unless the "
+               "field turns south again.",
+}
+"""What a guide may expect from the trend of the estimate (common practice, no source)."""
+
+
+def solar_wind_estimate(solar_wind, settings=None):
+    """The Kp estimate from a ``workspace.SolarWindFile``, or None without one."""
+    if solar_wind is None or solar_wind.times_utc.size == 0:
+        return None
+    from auroraplan import solarwind
+
+    return solarwind.estimate(solar_wind.times_utc, solar_wind.speed_km_s,
+                              solar_wind.density_cm3, solar_wind.by_nt, solar_wind.bz_nt,
+                              solar_wind.distance_km, settings)
+
+
+def nowcast_info(cast, solar_wind, grid, tz) -> dict | None:
+    """What the solar wind says, for the people who read the report; None without a file.
+
+    ``used`` is False when the measurements do not reach the hours of the report (the
+    ``note`` then says so).
+    """
+    if solar_wind is None:
+        return None
+    from auroraplan import solarwind
+
+    name = solar_wind.path.name
+    if cast is None:
+        return {"file": name, "used": False, "left_out": solar_wind.left_out,
+                "note": f"{name} holds no usable measurement; Kp comes from the forecast."}
+    used = grid.nowcast_weight is not None and bool((grid.nowcast_weight > 0).any())
+    measured = local_iso(cast.measured_until_utc, tz)
+    valid = local_iso(cast.valid_until_utc, tz)
+    kp = cast.latest_kp
+    level = solarwind.activity_word(kp)
+    if used:
+        note = (f"From solar wind measured at {measured[11:16]}, valid until {valid[11:16]}: "
+                f"Kp about {kp:.1f} ({level}), {cast.trend_word}.")
+    else:
+        note = (f"{name} ends at {measured[11:16]} on {measured[:10]} (valid until "
+                f"{valid[11:16]}), outside these hours; Kp comes from the forecast.")
+    return {
+        "file": name,
+        "used": used,
+        "measured_until": measured,
+        "valid_until": valid,
+        "delay_min": _num(cast.delay_min, 0),
+        "kp": _num(kp, 1),
+        "kp_sd": _num(cast.kp_sd[-1], 1),
+        "activity": level,
+        "trend": cast.trend_word,
+        "kp_change_per_h": _num(cast.kp_change_per_h, 1),
+        "expect": NOWCAST_EXPECT[cast.trend_word] if used else None,
+        "note": note,
+        "left_out": solar_wind.left_out,
+        "estimate": [{"time": local_iso(t, tz), "kp": _num(k, 2), "kp_sd": _num(sd, 2)}
+                     for t, k, sd in zip(cast.times_utc, cast.kp, cast.kp_sd, strict=True)],
+    }
 
 
 def _zone_name(t64, tz: str) -> str:
@@ -904,3 +991,115 @@ def _magnetic_midnight(op, date: dt.date) -> dt.datetime:
     distance = np.minimum(mlt % 24.0, 24.0 - mlt % 24.0)
     t = times[int(np.argmin(distance))].astype(object)
     return t.replace(tzinfo=dt.UTC)
+
+
+NOWCAST_STEP_MIN = 10
+NOWCAST_FILE_RECENT_H = 3.0
+"""The clock counts as "now" for a solar-wind file whose last measurement is at most this
+many hours old; an older file is shown from its own last measurement (common practice,
+no source)."""
+
+
+def nowcast_now(cast, clock_utc: dt.datetime) -> tuple[np.datetime64, bool]:
+    """The moment the next hours are counted from, and whether it is the clock.
+
+    The clock when the file's last measurement is recent (NOWCAST_FILE_RECENT_H), else the
+    time of that measurement, so that an archived file still shows what it said.
+    """
+    clock = np.datetime64(clock_utc.astimezone(dt.UTC).replace(tzinfo=None), "s")
+    measured = cast.measured_until_utc
+    recent = measured <= clock <= measured + np.timedelta64(int(NOWCAST_FILE_RECENT_H * 3600), "s")
+    return (clock, True) if recent else (measured, False)
+
+
+def nowcast_report(ws, solar_wind, hours: int = 2, at: dt.datetime | None = None,
+                   now: dt.datetime | None = None, climatology=None) -> dict:
+    """The next hours at every open site, with Kp from the upstream solar wind.
+
+    Parameters
+    ----------
+    ws : Workspace
+    solar_wind : workspace.SolarWindFile
+    hours : int
+        How many hours from now, 1 to 6.
+    at : datetime, optional
+        The moment to count from (aware); default the clock, or the file's last measurement
+        when the file is older than NOWCAST_FILE_RECENT_H.
+    now : datetime, optional
+        The clock (tests).
+
+    Returns
+    -------
+    dict
+        ``hours``: per hour from the start, Kp (mean, spread) and where it came from;
+        ``sites``: open sites by the chance in the first hour, each with the "chance in
+        this hour" per hour (P(a display is seen within the hour), the same definition as
+        the hourly figures of ``tonight``) and where to look.
+    """
+    from auroraplan import chance
+
+    tz = ws.operator.timezone
+    cast = solar_wind_estimate(solar_wind)
+    clock = now or dt.datetime.now(dt.UTC)
+    if at is not None:
+        start, from_clock = np.datetime64(at.astimezone(dt.UTC).replace(tzinfo=None), "s"), False
+    elif cast is not None:
+        start, from_clock = nowcast_now(cast, clock)
+    else:
+        start, from_clock = np.datetime64(clock.astimezone(dt.UTC).replace(tzinfo=None), "s"), True
+    step = np.timedelta64(NOWCAST_STEP_MIN * 60, "s")
+    start = start - (start.astype("int64") % (NOWCAST_STEP_MIN * 60)) * np.timedelta64(1, "s")
+    per_hour = 60 // NOWCAST_STEP_MIN
+    times = start + np.arange(hours * per_hour) * step
+    sites = [s for s in ws.sites if not s.closed]
+    if climatology is None:
+        climatology = default_climatology(ws)
+    cfg = settings_for(ws)
+    grid = chance.compute_grid(ws, sites or [_base_site(ws)], times,
+                               np.zeros(times.shape, int), NOWCAST_STEP_MIN,
+                               climatology=climatology, nowcast=cast)
+    shown = grid.darkness * grid.moon * grid.activity
+    by_hour = [slice(h * per_hour, (h + 1) * per_hour) for h in range(hours)]
+    p = np.stack([chance.p_display_seen(shown[:, sl], grid.cloud[:, sl], grid.step_min,
+                                        cfg["decorrelation_min"]) for sl in by_hour], axis=1)
+    rows = []
+    for i in (_rank(p[:, 0]) if sites else []):
+        mid = per_hour // 2
+        az = grid.look_azimuth_deg[i, mid]
+        rows.append({
+            "name": sites[i].name,
+            "chance_by_hour": [_num(x, 3) for x in p[i]],
+            "dark": bool(grid.darkness[i, by_hour[0]].any()),
+            "look_azimuth": _num(az, 0),
+            "look_compass": compass_point(az) if np.isfinite(az) else None,
+            "look_elevation": _num(grid.look_elevation_deg[i, mid], 0),
+            "cloud_pct": _num(np.nanmean(grid.cloud_pct[i, by_hour[0]])
+                              if np.isfinite(grid.cloud_pct[i, by_hour[0]]).any() else np.nan, 0),
+            "drive_min": sites[i].drive_min,
+        })
+    hour_rows = [{"from": local_iso(times[sl][0], tz),
+                  "to": local_iso(times[sl][-1] + step, tz),
+                  "kp": _num(np.mean(grid.kp_mean[sl]), 1),
+                  "kp_sd": _num(np.mean(grid.kp_sd[sl]), 1),
+                  "kp_from": _kp_from(grid, sl)} for sl in by_hour]
+    info = nowcast_info(cast, solar_wind, grid, tz)
+    notes = []
+    if at is None and not from_clock and cast is not None:
+        notes.append(f"{solar_wind.path.name} ends at {info['measured_until'][11:16]} on "
+                     f"{info['measured_until'][:10]}, more than {NOWCAST_FILE_RECENT_H:g} h "
+                     "before the clock; the hours shown start from its last measurement.")
+    return {
+        "kind": "nowcast",
+        "operator": ws.operator.name,
+        "base": base_info(ws),
+        "start": local_iso(times[0], tz),
+        "made_at": made_at(tz, now),
+        "nowcast": info,
+        "hours": hour_rows,
+        "closed_note": all_closed_note(ws),
+        "sites": rows,
+        "notes": notes,
+        "warnings": list(dict.fromkeys(ws.warnings + grid.warnings)),
+        "cautions": CAUTIONS,
+        "notice": FORECAST_NOT_PROMISE,
+    }

@@ -1405,3 +1405,12 @@ def load_solarwind(path) -> SolarWindFile:
         distance_km=None if distance is None else distance[good],
         left_out=left_out, rows=len(lines),
     )
+
+
+def solar_wind_for(ws: Workspace, given=None) -> SolarWindFile | None:
+    """The solar-wind file a command uses: ``given`` (an option), else the workspace's own
+    solarwind.csv when there is one, else None."""
+    if given:
+        return load_solarwind(given)
+    own = Path(ws.path) / SOLARWIND_FILE
+    return load_solarwind(own) if own.is_file() else None

@@ -88,8 +88,9 @@ def build_steps(ws, out: Path):
     def tonight():
         from auroraplan import runsheet
         from auroraplan.commands.tonight import page_for
+        from auroraplan.workspace import solar_wind_for
 
-        state["tonight"] = report.tonight_report(ws, DEMO_TONIGHT)
+        state["tonight"] = report.tonight_report(ws, DEMO_TONIGHT, solar_wind=solar_wind_for(ws))
         write_text_atomic(out / "tonight.html", page_for(ws, state["tonight"]))
         entries = [{"title": f"Guide's phone page for the night of {DEMO_TONIGHT}",
                     "href": "tonight.html", "description": "works offline once saved on the phone"}]

@@ -25,6 +25,9 @@ def add_arguments(parser):
                         help="also write the night timeline chart of the best site (or, with "
                              "--trip, of the group's site) to FILE")
     add_record_options(parser)
+    parser.add_argument("--solarwind", metavar="FILE",
+                        help="upstream solar-wind measurements (CSV) for the next hours "
+                             "(default: the workspace's solarwind.csv when present)")
 
 
 def tonight_date(tz: str):
@@ -42,10 +45,11 @@ def run(args):
     from auroraplan.commands._common import print_json
     from auroraplan.commands._progress import working
     from auroraplan.outfiles import check_output_path, write_bytes_atomic
-    from auroraplan.workspace import load_workspace
+    from auroraplan.workspace import load_workspace, solar_wind_for
 
     ws = load_workspace(args.workspace)
-    protected = list(ws.files.values())
+    solar_wind = solar_wind_for(ws, args.solarwind)
+    protected = list(ws.files.values()) + ([solar_wind.path] if solar_wind else [])
     outputs = {k: check_output_path(v, protected)
                for k, v in (("html", args.html), ("png", args.png)) if v}
     date = args.date or tonight_date(ws.operator.timezone)
@@ -55,7 +59,7 @@ def run(args):
             from auroraplan import runsheet
 
             runsheet.find_trip({"trips": [{"trip": t.trip} for t in ws.trips]}, args.trip)
-            result = report.tonight_report(ws, date)
+            result = report.tonight_report(ws, date, solar_wind=solar_wind)
             from auroraplan.commands._common import open_record
 
             db = open_record(args, ws, create=False)  # read only: never created here
@@ -66,7 +70,7 @@ def run(args):
                     db.close()
             sheet = runsheet.run_sheet(result, plan, args.trip, ws.operator.settings)
         else:
-            result = report.tonight_report(ws, date, top=args.top)
+            result = report.tonight_report(ws, date, top=args.top, solar_wind=solar_wind)
         payloads = {}
         if "html" in outputs:
             payloads["html"] = page_for(ws, result, sheet).encode("utf-8")
@@ -193,6 +197,7 @@ def print_tonight(result):
               f"times in {result['base']['timezone']}")
     if not print_notes(out, result):
         return
+    print_nowcast(out, result.get("nowcast"))
     rows = [_cells(s) for s in result["sites"]]
     columns = fitting_columns(out, rows)
     if columns is None:
@@ -206,3 +211,18 @@ def print_tonight(result):
     out.print(f"[dim]{result['notice']}[/]")
     for w in result.get("warnings", []):
         out.print(f"[yellow]note:[/] {w}")
+
+
+def print_nowcast(out, nowcast):
+    """The solar-wind line under a heading: what it says, until when, what to expect."""
+    if not nowcast:
+        return
+    from rich.markup import escape
+
+    out.print(f"[bold]{escape(nowcast['note'])}[/]", soft_wrap=True)
+    if nowcast.get("expect"):
+        out.print(escape(nowcast["expect"]), soft_wrap=True)
+    for line in nowcast.get("left_out", [])[:3]:
+        out.print(f"[dim]{escape(line)}[/]", soft_wrap=True)
+    if len(nowcast.get("left_out", [])) > 3:
+        out.print(f"[dim]... and {len(nowcast['left_out']) - 3} more rows not used[/]")
