@@ -1060,7 +1060,7 @@ def nowcast_report(ws, solar_wind, hours: int = 2, at: dt.datetime | None = None
                                climatology=climatology, nowcast=cast)
     shown = grid.darkness * grid.moon * grid.activity
     by_hour = [slice(h * per_hour, (h + 1) * per_hour) for h in range(hours)]
-    p = np.stack([chance.p_display_seen(shown[:, sl], grid.cloud[:, sl], grid.step_min,
+    p = np.stack([chance.p_display_seen(shown[:, sl], grid.p_clear[:, sl], grid.step_min,
                                         cfg["decorrelation_min"]) for sl in by_hour], axis=1)
     rows = []
     for i in (_rank(p[:, 0]) if sites else []):
