@@ -137,3 +137,20 @@ def test_weight_hands_back_to_the_forecast():
     later = cast.valid_until_utc + np.timedelta64(120, "m")
     w = sw.nowcast_weight(np.array([cast.valid_until_utc, later]), cast)
     assert w[0] == 1.0 and w[1] == pytest.approx(np.exp(-2.0))
+
+
+def test_demo_run_sheet_and_phone_page_show_the_nowcast():
+    # The demo's solar-wind file turns south an hour before the storm night's best window;
+    # the guide's pages say from when and until when the solar wind speaks.
+    from auroraplan import report
+    from auroraplan.render.phone import phone_page_html
+    from auroraplan.workspace import load_workspace, solar_wind_for
+
+    demo = Path(__file__).resolve().parents[1] / "demo_sites"
+    ws = load_workspace(demo)
+    tonight = report.tonight_report(ws, __import__("datetime").date(2027, 1, 12),
+                                    solar_wind=solar_wind_for(ws))
+    assert tonight["nowcast"]["used"] and tonight["nowcast"]["trend"] == "rising"
+    page = phone_page_html(tonight)
+    assert 'id="nowcast"' in page
+    assert "From solar wind measured at 20:10, valid until 20:52" in page

@@ -328,6 +328,15 @@ def _forecast_line(report: dict, w: Words) -> str:
               file=fc.get("file") or "—", source=source) + f"{blocks}{note}")
 
 
+def _nowcast(report: dict) -> str:
+    """What the upstream solar wind says for the next hour, when it speaks for tonight."""
+    cast = report.get("nowcast") or {}
+    if not cast.get("used"):
+        return ""
+    text = " ".join(t for t in (cast.get("note"), cast.get("expect")) if t)
+    return f'<p class="nowcast" id="nowcast">{_e(text)}</p>'
+
+
 def _night_facts(report: dict, w: Words) -> str:
     dark = style.time_span(report.get("dark_start"), report.get("dark_end"))
     level = w(report.get("darkness_level", "nautical"))
@@ -354,6 +363,7 @@ def _header(report: dict, w: Words) -> str:
         f"<h1>{_e(w('Tonight from {base}: {date}', base=base.get('name', ''), date=w.long_date(report['date'])))}</h1>"
         f'<p class="facts">{_e(_night_facts(report, w))}</p>'
         f'<p class="facts">{_e(_forecast_line(report, w))}</p>'
+        f"{_nowcast(report)}"
         f'<div class="bar">{_toggle(w)}'
         f'<a class="tap" href="#cautions">{_e(w("Safety notes"))}</a></div>'
         "</header>"
@@ -513,8 +523,7 @@ def run_sheet_html(sheet: dict, report: dict, language: str = "en") -> str:
     main = sheet.get("site") or {}
     maps = (f'<a class="tap go" href="{_e(geo_uri(main["lat"], main["lon"]))}">'
             f"{_e(w('Site in maps'))}</a>" if main.get("lat") is not None else "")
-    nowcast = (f'<p class="nowcast" id="nowcast">{_e(report["nowcast_line"])}</p>'
-               if report.get("nowcast_line") else "")
+    nowcast = _nowcast(report)
     n_sites = len(report.get("sites") or [])
     header = (
         "<header>"
