@@ -69,6 +69,17 @@ class Words:
         d = _date(date)
         return f"{format_date(d, 'EEE', locale=self.locale)} {format_date(d, 'medium', locale=self.locale)}"
 
+    def stamp(self, iso_text: str | None) -> str:
+        """A local time stamp: '24 Mar 2027, 16:10 (UTC+01:00)' (CLDR medium date)."""
+        if not iso_text:
+            return self("unknown time")
+        from babel.dates import format_date
+
+        t = dt.datetime.fromisoformat(iso_text)
+        zone = t.strftime("%z")
+        zone = f" (UTC{zone[:3]}:{zone[3:]})" if zone else ""
+        return f"{format_date(t, 'medium', locale=self.locale)}, {t:%H:%M}{zone}"
+
     def clock(self, iso_text: str | None) -> str:
         """HH:MM (24-hour, as in both languages) of a local ISO time; a dash when absent."""
         if not iso_text:
@@ -87,10 +98,11 @@ class Words:
                               locale=self.locale)
 
     def number(self, value, digits: int = 1) -> str:
-        """A decimal number with the language's decimal sign (3.5 / 3,5)."""
+        """A number with ``digits`` decimals and the language's decimal sign (3.5 / 3,5)."""
         from babel.numbers import format_decimal
 
-        return format_decimal(round(float(value), digits), locale=self.locale)
+        pattern = "0." + "0" * digits if digits > 0 else "0"
+        return format_decimal(float(value), format=pattern, locale=self.locale)
 
 
 def _date(value) -> dt.date:

@@ -15,7 +15,7 @@ from auroraplan.cli import main
 from auroraplan.commands.itinerary import itinerary_file_name
 from auroraplan.errors import InputError
 from auroraplan.render.itinerary_pdf import KIT_LIST, itinerary_pdf, printable
-from auroraplan.workspace import Trip, Workspace
+from auroraplan.workspace import Operator, Trip, Workspace
 
 FIXTURES = Path(__file__).parent / "fixtures"
 
@@ -126,7 +126,9 @@ def fake_workspace(week, tmp_path, monkeypatch):
     trips_csv.write_text("trip,group,guests,arrive,depart,outings,blocked\n", encoding="utf-8")
     trips = [Trip(t["trip"], t["group"], t["guests"], dt.date.fromisoformat(t["arrive"]),
                   dt.date.fromisoformat(t["depart"]), t["outings"]) for t in week["trips"]]
-    ws = Workspace(path=tmp_path, operator=None, sites=[], trips=trips, activity=None,
+    operator = Operator(name="Lanternfjell Excursions", base_name="Nordvik harbour",
+                        base_lat=69.65, base_lon=18.96, timezone="Europe/Oslo")
+    ws = Workspace(path=tmp_path, operator=operator, sites=[], trips=trips, activity=None,
                    clouds=None, files={"trips": trips_csv})
     calls = []
 

@@ -69,13 +69,14 @@ def build_steps(ws, out: Path):
     def week():
         from auroraplan.commands.week import week_csv
         from auroraplan.render.calendar import plan_ics
+        from auroraplan.runsheet import language
 
         with store.open_store(out / store.DATABASE_NAME) as db:
             state["week"] = record.propose_week(ws, DEMO_WEEK_START, 7, db, command="demo")
             state["season_week"] = record.bookings_plan(ws, db, command="demo")
         write_text_atomic(out / "week.json", _json(state["week"]))
         write_text_atomic(out / "week.csv", week_csv(state["week"]))
-        write_bytes_atomic(out / "excursions.ics", plan_ics(state["season_week"]))
+        write_bytes_atomic(out / "excursions.ics", plan_ics(state["season_week"], language(ws.operator.settings)))
         return [
             {"title": "Week plan from 11 January (JSON)", "href": "week.json",
              "description": "ranked nights and sites per trip and the excursion plan"},
@@ -112,7 +113,8 @@ def build_steps(ws, out: Path):
         entries = []
         for trip in ws.trips:
             name = f"itinerary-{trip.trip}.pdf"
-            write_bytes_atomic(out / name, itinerary_pdf(state["season_week"], trip.trip))
+            write_bytes_atomic(out / name, itinerary_pdf(state["season_week"], trip.trip,
+                                                                operator_settings=ws.operator.settings))
             entries.append({"title": f"Itinerary {trip.trip}: {trip.group}", "href": name,
                             "description": f"{trip.guests} guests, {trip.arrive} to {trip.depart}"})
         return entries

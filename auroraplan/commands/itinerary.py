@@ -104,5 +104,6 @@ def _render_all(ws, trips, paper, args):
         report = bookings_plan(ws, db)
     pdfs = {}
     for trip in trips:
-        pdfs[trip.trip] = itinerary_pdf(report, trip.trip, paper=paper)
+        pdfs[trip.trip] = itinerary_pdf(report, trip.trip, paper=paper,
+                                       operator_settings=ws.operator.settings)
     return pdfs

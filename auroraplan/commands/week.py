@@ -44,8 +44,9 @@ def run(args):
         payloads["csv"] = week_csv(result).encode("utf-8")
     if "ics" in outputs:
         from auroraplan.render.calendar import plan_ics
+        from auroraplan.runsheet import language
 
-        payloads["ics"] = plan_ics(result)
+        payloads["ics"] = plan_ics(result, language(ws.operator.settings))
     _write_all(outputs, payloads)
     if args.json:
         print_json({k: v for k, v in result.items() if k != "heatmap"})

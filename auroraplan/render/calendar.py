@@ -6,6 +6,7 @@ import datetime as dt
 import re
 from zoneinfo import ZoneInfo
 
+from auroraplan.i18n import Words
 from auroraplan.render import style
 
 PRODID = "-//auroraplan//excursion plan//EN"
@@ -21,27 +22,32 @@ def _local(iso_text: str, zone: ZoneInfo) -> dt.datetime:
     return dt.datetime.fromisoformat(iso_text).astimezone(zone)
 
 
-def _description(outing: dict, report: dict) -> str:
+def _description(outing: dict, report: dict, w: Words) -> str:
     chance = outing.get("chance")
     lines = [
-        f"Group: {outing.get('group', '')} (trip {outing['trip']})",
-        f"Chance: {style.chance_in_words(chance or 0)} ({style.percent(chance)}), "
-        f"from the {style.KIND_WORDS.get(outing.get('kind'), outing.get('kind'))}",
-        f"Best window: {style.time_span(outing.get('window_start'), outing.get('window_end'))}",
+        w("Group: {group} (trip {trip})", group=outing.get("group", ""), trip=outing["trip"]),
+        w("Chance: {words} ({percent}), from the {basis}",
+          words=w(style.chance_in_words(chance or 0)), percent=w.percent(chance),
+          basis=w(style.KIND_WORDS.get(outing.get("kind"), outing.get("kind")))),
+        w("Best window: {window}",
+          window=style.time_span(outing.get("window_start"), outing.get("window_end"))),
     ]
     if outing.get("look_azimuth") is not None:
         az = outing["look_azimuth"]
-        lines.append(f"Look towards: {round(az) % 360}° true ({style.compass_point(az)})")
+        lines.append(w("Look towards: {deg}° true ({compass})", deg=round(az) % 360,
+                       compass=w(style.compass_point(az))))
     if outing.get("backup"):
-        lines.append(f"Backup site: {outing['backup']} "
-                     f"({style.percent(outing.get('backup_chance'))})")
+        lines.append(w("Backup site: {site} ({percent})", site=outing["backup"],
+                       percent=w.percent(outing.get("backup_chance"))))
     fc = report.get("forecast") or {}
-    lines.append(f"Forecast: {fc.get('file', '—')}; {fc.get('note', '')}".rstrip("; "))
-    lines.append(report.get("notice") or "Chances are forecasts, not promises.")
+    note = w(fc["note"]) if fc.get("note") else ""
+    lines.append(w("Forecast: {file}; {note}", file=fc.get("file") or "—", note=note)
+                 .rstrip("; "))
+    lines.append(w(report.get("notice") or "Chances are forecasts, not promises."))
     return "\n".join(lines)
 
 
-def plan_ics(report: dict) -> bytes:
+def plan_ics(report: dict, language: str = "en") -> bytes:
     """Every planned outing of a ``week`` report as one iCalendar file.
 
     Parameters
@@ -49,6 +55,8 @@ def plan_ics(report: dict) -> bytes:
     report : dict
         The JSON-ready dict the ``week`` command prints with ``--json``; ``plan[]`` holds
         the outings with local ISO 8601 ``pickup`` and ``return`` times.
+    language : str
+        A language of :data:`auroraplan.i18n.LANGUAGES` for the event texts.
 
     Returns
     -------
@@ -60,13 +68,14 @@ def plan_ics(report: dict) -> bytes:
     """
     from icalendar import Calendar, Event
 
+    w = Words(language)
     zone = ZoneInfo((report.get("base") or {}).get("timezone", "UTC"))
     made = dt.datetime.fromisoformat(report["made_at"]).astimezone(dt.UTC)
     cal = Calendar()
     cal.add("prodid", PRODID)
     cal.add("version", "2.0")
     cal.add("calscale", "GREGORIAN")
-    cal.add("x-wr-calname", f"{report.get('operator', 'auroraplan')} outings")
+    cal.add("x-wr-calname", w("{operator} outings", operator=report.get("operator", "auroraplan")))
     outings = [o for o in report.get("plan", []) if o.get("pickup") and o.get("return")]
     if outings:
         days = [_local(o[k], zone).date() for o in outings for k in ("pickup", "return")]
@@ -80,13 +89,13 @@ def plan_ics(report: dict) -> bytes:
         ev.add("dtstamp", made)
         ev.add("dtstart", start)
         ev.add("dtend", end)
-        ev.add("summary", f"Aurora outing: {outing.get('group', outing['trip'])} to "
-                          f"{outing['site']}")
+        ev.add("summary", w("Aurora outing: {group} to {site}",
+                            group=outing.get("group", outing["trip"]), site=outing["site"]))
         ev.add("location", outing["site"])
         if outing.get("lat") is not None and outing.get("lon") is not None:
             ev.add("geo", (float(outing["lat"]), float(outing["lon"])))
-        ev.add("description", _description(outing, report))
-        ev.add("categories", ["aurora outing"])
+        ev.add("description", _description(outing, report, w))
+        ev.add("categories", [w("aurora outing")])
         cal.add_component(ev)
     return cal.to_ical()
 

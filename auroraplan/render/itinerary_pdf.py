@@ -2,11 +2,11 @@
 
 from __future__ import annotations
 
-import datetime as dt
 import io
 import unicodedata
 from xml.sax.saxutils import escape
 
+from auroraplan.i18n import Words
 from auroraplan.render import style
 
 # Paper sizes in PostScript points: ISO 216 A4 is 210 × 297 mm; US Letter is 8.5 × 11 in.
@@ -51,9 +51,8 @@ def _p(text) -> str:
     return escape(printable(text))
 
 
-def _day(date_text: str) -> str:
-    d = dt.date.fromisoformat(date_text)
-    return f"{d.strftime('%a')} {d.day} {d.strftime('%b %Y')}"
+def _day(date_text: str, w: Words | None = None) -> str:
+    return (w or Words()).short_date(date_text)
 
 
 def _styles():
@@ -79,16 +78,18 @@ def _styles():
     }
 
 
-def _night_rows(report: dict, trip: dict, st: dict) -> list:
+def _night_rows(report: dict, trip: dict, st: dict, w: Words) -> list:
     from reportlab.platypus import Paragraph
 
     plan = {p["date"]: p for p in report.get("plan", []) if str(p["trip"]) == str(trip["trip"])}
-    header = ["Night", "Outing", "Where", "Pick-up – return", "Chance", "Based on"]
+    header = [w("Night"), w("Outing"), w("Where"), w("Pick-up – return"), w("Chance"),
+              w("Based on")]
     rows = [[Paragraph(_p(h), st["cellb"]) for h in header]]
     for night in trip.get("nights", []):
         if not night.get("in_stay", True):
             continue
-        rows.append([Paragraph(c, st["cell"]) for c in _night_cells(night, plan.get(night["date"]))])
+        rows.append([Paragraph(c, st["cell"])
+                     for c in _night_cells(night, plan.get(night["date"]), w)])
     return rows
 
 
@@ -98,25 +99,24 @@ NO_OUTINGS = ("No guided evening outing is planned for your group at present; th
               "will tell you if one becomes possible.")
 
 
-def _night_cells(night: dict, outing: dict | None) -> list[str]:
-    basis = style.KIND_WORDS.get(night.get("kind"), str(night.get("kind")))
+def _night_cells(night: dict, outing: dict | None, w: Words) -> list[str]:
+    basis = w(style.KIND_WORDS.get(night.get("kind"), str(night.get("kind"))))
     if outing is None:
         # No chance is shown for an evening the group does not go out: it would read as
         # an offer. The guests are told what they can do instead.
-        what = ("No outing (the group is not available)" if night.get("blocked")
-                else FREE_EVENING)
-        return [_p(_day(night["date"])), "No", _p(what), "—", "—", "—"]
-    pickup, back = style.local_time(outing.get("pickup")), style.local_time(outing.get("return"))
+        what = (w("No outing (the group is not available)") if night.get("blocked")
+                else w(FREE_EVENING))
+        return [_p(_day(night["date"], w)), _p(w("No")), _p(what), "—", "—", "—"]
     where = f"<b>{_p(outing['site'])}</b>"
     if outing.get("backup"):
-        where += f"<br/>backup: {_p(outing['backup'])}"
+        where += "<br/>" + _p(w("backup: {site}", site=outing["backup"]))
         if outing.get("backup_chance") is not None:
-            where += f" ({_p(style.percent(outing['backup_chance']))})"
+            where += f" ({_p(w.percent(outing['backup_chance']))})"
     chance = outing.get("chance")
     return [
-        _p(_day(night["date"])), "<b>Yes</b>", where,
-        _p(f"{pickup} – {back}"),
-        _p(f"{style.chance_in_words(chance or 0)} ({style.percent(chance)})"),
+        _p(_day(night["date"], w)), f"<b>{_p(w('Yes'))}</b>", where,
+        _p(f"{w.clock(outing.get('pickup'))} – {w.clock(outing.get('return'))}"),
+        _p(f"{w(style.chance_in_words(chance or 0))} ({w.percent(chance)})"),
         _p(basis),
     ]
 
@@ -137,34 +137,63 @@ def _night_table(rows: list, width: float):
     return table
 
 
-def _made_line(report: dict) -> str:
-    from auroraplan.render.phone import _stamp
-
+def _made_line(report: dict, w: Words) -> str:
     fc = report.get("forecast") or {}
-    made_t = _stamp(report.get("made_at"))
-    note = f" ({fc['note']})" if fc.get("note") else ""
-    return (f"Made {made_t} from {fc.get('file', 'no forecast file')}{note}. "
-            "Nights marked 'Kp forecast' use the space-weather forecast; nights marked "
-            "'outlook from Kp history' are beyond it and use what past years were like "
-            "in the same season, so treat them as a rough guide.")
+    made_t = w.stamp(report.get("made_at"))
+    note = f" ({w(fc['note'])})" if fc.get("note") else ""
+    return (w("Made {when} from {file}{note}.", when=made_t,
+              file=fc.get("file") or w("no forecast file"), note=note) + " "
+            + w("Nights marked 'Kp forecast' use the space-weather forecast; nights marked "
+                "'outlook from Kp history' are beyond it and use what past years were like "
+                "in the same season, so treat them as a rough guide."))
 
 
-def _footer(report: dict, trip: dict):
+# What a forecast chance means, for guests (our own wording; [print] chance_meaning
+# replaces it with the operator's).
+CHANCE_MEANING = (
+    "A chance of 30 % means that on about three of every ten nights with a forecast like "
+    "this one, guests at that site saw the aurora at some time in the window; on the other "
+    "seven they did not. It is a forecast, never a promise."
+)
+
+
+def _contact_lines(settings: dict, w: Words) -> list[tuple[str, str]]:
+    """(label, text) for each [contact] entry that is given; missing entries are left out."""
+    contact = (settings or {}).get("contact") or {}
+    rows = []
+    place = [contact.get("meeting_point"), contact.get("meeting_address")]
+    if contact.get("meeting_lat") is not None and contact.get("meeting_lon") is not None:
+        lat, lon = float(contact["meeting_lat"]), float(contact["meeting_lon"])
+        place.append(f"{w.number(abs(lat), 4)}° {w('N') if lat >= 0 else w('S')}, "
+                     f"{w.number(abs(lon), 4)}° {w('E') if lon >= 0 else w('W')}")
+    place = [p for p in place if p]
+    if place:
+        rows.append((w("Meeting point"), " · ".join(place)))
+    if contact.get("phone"):
+        rows.append((w("Operator phone"), contact["phone"]))
+    if contact.get("emergency"):
+        rows.append((w("Emergency"), contact["emergency"]))
+    return rows
+
+
+def _footer(report: dict, trip: dict, w: Words):
     def draw(canvas, doc):
         from reportlab.lib import colors
 
         canvas.saveState()
         canvas.setFont("Helvetica", 7.5)
         canvas.setFillColor(colors.HexColor(style.SLATE))
-        text = printable(f"{report.get('operator', '')} · trip {trip['trip']} · "
-                         f"page {doc.page} · chances are forecasts, not promises")
+        text = printable(w("{operator} · trip {trip} · page {page} · chances are forecasts, "
+                           "not promises", operator=report.get("operator", ""),
+                           trip=trip["trip"], page=doc.page))
         canvas.drawString(doc.leftMargin, doc.bottomMargin - 18, text)
         canvas.restoreState()
 
     return draw
 
 
-def itinerary_pdf(report: dict, trip_id: str, paper: str = "A4") -> bytes:
+def itinerary_pdf(report: dict, trip_id: str, paper: str = "A4",
+                  operator_settings: dict | None = None) -> bytes:
     """Render one trip of a ``week`` report as a printable PDF itinerary.
 
     Parameters
@@ -175,6 +204,10 @@ def itinerary_pdf(report: dict, trip_id: str, paper: str = "A4") -> bytes:
         The ``trip`` identifier from trips.csv.
     paper : {"A4", "Letter"}
         Paper size: ISO 216 A4 (210 × 297 mm) or US Letter (8.5 × 11 in).
+    operator_settings : dict, optional
+        operator.toml as read: ``[contact]`` (meeting point, phone, emergency) and
+        ``[print]`` (language, cloudy-night policy, chance meaning). Entries not given are
+        left out.
 
     Returns
     -------
@@ -193,6 +226,9 @@ def itinerary_pdf(report: dict, trip_id: str, paper: str = "A4") -> bytes:
     from auroraplan.cautions import CAUTIONS, FORECAST_NOT_PROMISE
     from auroraplan.errors import InputError
 
+    settings = operator_settings or {}
+    printing = settings.get("print") or {}
+    w = Words(printing.get("language", "en"))
     size = PAPER_PT.get(str(paper).lower())
     if size is None:
         raise InputError(f"paper {paper!r} is not known; choose A4 or Letter")
@@ -203,35 +239,54 @@ def itinerary_pdf(report: dict, trip_id: str, paper: str = "A4") -> bytes:
     buf = io.BytesIO()
     doc = SimpleDocTemplate(
         buf, pagesize=size, leftMargin=18 * mm, rightMargin=18 * mm, topMargin=16 * mm,
-        bottomMargin=18 * mm, title=printable(f"Aurora evenings: {trip['group']}"),
+        bottomMargin=18 * mm, title=printable(w("Aurora evenings: {group}", group=trip["group"])),
         author=printable(report.get("operator", "")), creator="auroraplan",
+        lang=w.language,
     )
     base = (report.get("base") or {}).get("name", "")
     n_out = sum(1 for p in report.get("plan", []) if str(p["trip"]) == str(trip["trip"]))
+    contacts = _contact_lines(settings, w)
     story = [
-        Paragraph(_p(f"Aurora evenings for {trip['group']}"), st["title"]),
-        Paragraph(_p(f"{report.get('operator', '')} · from {base} · trip {trip['trip']} · "
-                     f"{trip['guests']} guests"), st["sub"]),
-        Paragraph(_p(f"Stay: arriving {_day(trip['arrive'])}, leaving {_day(trip['depart'])}. "
-                     + (f"{n_out} evening outing{'s' if n_out != 1 else ''} planned. "
-                        if n_out else NO_OUTINGS + " ")
-                     + "Times are local time at the base."), st["sub"]),
-        Spacer(1, 8),
-        Paragraph("Your evenings", st["h2"]),
-        _night_table(_night_rows(report, trip, st), doc.width),
-        Spacer(1, 4),
-        Paragraph(_p("If the main site is clouded over or unsafe on the night, the guide "
-                     "takes the group to the backup site, or changes the plan."), st["small"]),
-        Paragraph("What to wear and bring", st["h2"]),
-        *[Paragraph(_p(item), st["bullet"], bulletText="•") for item in KIT_LIST],
-        Paragraph("Please read: safety", st["h2"]),
-        *[Paragraph(_p(c), st["bullet"], bulletText="•")
-          for c in (report.get("cautions") or CAUTIONS)],
-        Paragraph("About the chances", st["h2"]),
-        Paragraph(_p(report.get("notice") or FORECAST_NOT_PROMISE), st["body"]),
-        Spacer(1, 3),
-        Paragraph(_p(_made_line(report)), st["small"]),
+        Paragraph(_p(w("Aurora evenings for {group}", group=trip["group"])), st["title"]),
+        Paragraph(_p(w("{operator} · from {base} · trip {trip} · {guests} guests",
+                       operator=report.get("operator", ""), base=base, trip=trip["trip"],
+                       guests=trip["guests"])), st["sub"]),
+        Paragraph(_p(w("Stay: arriving {arrive}, leaving {depart}.",
+                       arrive=_day(trip["arrive"], w), depart=_day(trip["depart"], w)) + " "
+                     + (w("1 evening outing planned.") if n_out == 1
+                        else w("{n} evening outings planned.", n=n_out) if n_out
+                        else w(NO_OUTINGS)) + " "
+                     + w("Times are local time at the base.")), st["sub"]),
     ]
-    footer = _footer(report, trip)
+    if contacts:
+        story.append(Spacer(1, 4))
+        story.extend(Paragraph(f"<b>{_p(label)}:</b> {_p(text)}", st["body"])
+                     for label, text in contacts)
+    story += [
+        Spacer(1, 8),
+        Paragraph(_p(w("Your evenings")), st["h2"]),
+        _night_table(_night_rows(report, trip, st, w), doc.width),
+        Spacer(1, 4),
+        Paragraph(_p(w("If the main site is clouded over or unsafe on the night, the guide "
+                       "takes the group to the backup site, or changes the plan.")), st["small"]),
+    ]
+    if printing.get("cloudy_night_policy"):
+        story += [Paragraph(_p(w("If the night is cloudy or cancelled")), st["h2"]),
+                  *[Paragraph(_p(part), st["body"])
+                    for part in str(printing["cloudy_night_policy"]).split("\n\n")]]
+    story += [
+        Paragraph(_p(w("What to wear and bring")), st["h2"]),
+        *[Paragraph(_p(w(item)), st["bullet"], bulletText="•") for item in KIT_LIST],
+        Paragraph(_p(w("Please read: safety")), st["h2"]),
+        *[Paragraph(_p(w(c)), st["bullet"], bulletText="•")
+          for c in (report.get("cautions") or CAUTIONS)],
+        Paragraph(_p(w("About the chances")), st["h2"]),
+        Paragraph(_p(printing.get("chance_meaning") or w(CHANCE_MEANING)), st["body"]),
+        Spacer(1, 3),
+        Paragraph(_p(w(report.get("notice") or FORECAST_NOT_PROMISE)), st["body"]),
+        Spacer(1, 3),
+        Paragraph(_p(_made_line(report, w)), st["small"]),
+    ]
+    footer = _footer(report, trip, w)
     doc.build(story, onFirstPage=footer, onLaterPages=footer)
     return buf.getvalue()

@@ -119,12 +119,7 @@ def geo_uri(lat: float, lon: float) -> str:
 
 def _stamp(iso_text) -> str:
     """A local time stamp as '14 Jan 2027, 15:42 (UTC+01:00)'."""
-    if not iso_text:
-        return "unknown time"
-    t = dt.datetime.fromisoformat(iso_text)
-    zone = t.strftime("%z")
-    zone = f" (UTC{zone[:3]}:{zone[3:]})" if zone else ""
-    return f"{t.day} {t.strftime('%b %Y, %H:%M')}{zone}"
+    return Words().stamp(iso_text)
 
 
 def _utc_stamp(iso_text) -> str:
@@ -324,7 +319,7 @@ def _forecast_line(report: dict, w: Words) -> str:
                          first=_utc_stamp(fc["first_block_utc"]),
                          last=_utc_stamp(fc["last_block_utc"]))
     note = f" {w(fc['note'].rstrip('.') + '.')}" if fc.get("note") else ""
-    return (w("Made {when} from {file}: {source}.", when=_stamp(report.get("made_at")),
+    return (w("Made {when} from {file}: {source}.", when=w.stamp(report.get("made_at")),
               file=fc.get("file") or "—", source=source) + f"{blocks}{note}")
 
 
