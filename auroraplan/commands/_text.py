@@ -16,6 +16,8 @@ def span(start_iso: str | None, end_iso: str | None) -> str:
 def print_notes(out, result) -> bool:
     """Print a report's notes under its heading; False when every site is closed (nothing
     follows then, only that one line)."""
+    for assumed in result.get("what_if") or []:
+        out.print(f"[bold magenta]what-if:[/] {assumed} (this run only; nothing saved)")
     if result.get("closed_note"):
         out.print(f"[bold]{result['closed_note']}[/]", soft_wrap=True)
         return False

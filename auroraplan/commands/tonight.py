@@ -7,6 +7,7 @@ self-contained page for a guide's phone (works offline once saved); with
 backup, window, where to look, and whether to go, wait or swap to the backup.
 """
 
+from auroraplan import whatif
 from auroraplan.commands._common import add_record_options, int_range, iso_date
 
 
@@ -28,6 +29,7 @@ def add_arguments(parser):
     parser.add_argument("--solarwind", metavar="FILE",
                         help="upstream solar-wind measurements (CSV) for the next hours "
                              "(default: the workspace's solarwind.csv when present)")
+    whatif.add_arguments(parser, fleet=False)
 
 
 def tonight_date(tz: str):
@@ -53,6 +55,7 @@ def run(args):
     outputs = {k: check_output_path(v, protected)
                for k, v in (("html", args.html), ("png", args.png)) if v}
     date = args.date or tonight_date(ws.operator.timezone)
+    ws, what_if = whatif.apply(ws, whatif.from_args(args), date, date)
     sheet = None
     with working(f"Ranking {len(ws.sites)} sites for the night of {date}", quiet=args.json):
         if args.trip is not None:
@@ -71,6 +74,8 @@ def run(args):
             sheet = runsheet.run_sheet(result, plan, args.trip, ws.operator.settings)
         else:
             result = report.tonight_report(ws, date, top=args.top, solar_wind=solar_wind)
+        if what_if:
+            result["what_if"] = what_if
         payloads = {}
         if "html" in outputs:
             payloads["html"] = page_for(ws, result, sheet).encode("utf-8")

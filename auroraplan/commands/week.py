@@ -9,6 +9,7 @@ and the new proposal is saved and compared with the record (what moved,
 was added or dropped, and why). Confirm outings with `auroraplan confirm`.
 """
 
+from auroraplan import whatif
 from auroraplan.commands._common import add_record_options, int_range, iso_date
 
 
@@ -23,9 +24,12 @@ def add_arguments(parser):
     parser.add_argument("--ics", metavar="FILE",
                         help="also write the planned outings as an iCalendar file")
     add_record_options(parser, who=True)
+    whatif.add_arguments(parser)
 
 
 def run(args):
+    import contextlib
+
     from auroraplan import record
     from auroraplan.commands._common import open_record, print_json
     from auroraplan.commands._progress import working
@@ -35,10 +39,15 @@ def run(args):
     ws = load_workspace(args.workspace)
     protected = list(ws.files.values())
     outputs = {k: check_output_path(v, protected) for k, v in (("csv", args.csv), ("ics", args.ics)) if v}
+    assumptions = whatif.from_args(args)
+    ws, what_if = whatif.apply(ws, assumptions, *_evenings(ws, args.start, args.nights))
     with working(f"Planning {args.nights} nights for {len(ws.trips)} trips at {len(ws.sites)} sites",
                  quiet=args.json):
-        with open_record(args, ws, create=True) as db:
-            result = record.propose_week(ws, args.start, args.nights, db, by=args.by)
+        # A what-if run reads the record but never creates or changes it.
+        db = open_record(args, ws, create=not what_if)
+        with db if db is not None else contextlib.nullcontext():
+            result = record.propose_week(ws, args.start, args.nights, db, by=args.by,
+                                         what_if=what_if)
     payloads = {}
     if "csv" in outputs:
         payloads["csv"] = week_csv(result).encode("utf-8")
@@ -55,6 +64,16 @@ def run(args):
         for path in outputs.values():
             print(f"wrote {path}")
     return 0
+
+
+def _evenings(ws, start, nights):
+    """First and last evening a week run may plan: the nights asked for and every stay."""
+    import datetime as dt
+
+    last = start + dt.timedelta(days=nights - 1)
+    first = min([start] + [t.arrive for t in ws.trips])
+    last = max([last] + [t.depart for t in ws.trips])
+    return first, last
 
 
 def _write_all(outputs, payloads):
@@ -148,8 +167,6 @@ def print_record(out, result):
     """The what-ifs in force, the changes against the plan of record, and where it is kept."""
     from auroraplan.commands._text import short_date
 
-    for assumption in result.get("what_if", []):
-        out.print(f"[bold magenta]what-if:[/] {assumption} (this run only; nothing saved)")
     changes = result.get("changes", [])
     if changes:
         out.print("[bold]Changes against the plan of record[/]")

@@ -341,6 +341,9 @@ def _night_facts(report: dict, w: Words) -> str:
               else w("No {level} darkness tonight.", level=level))
     if report.get("darkness_note"):
         dark_t = w(report["darkness_note"])
+    if report.get("what_if"):  # a page made under assumptions must say so first
+        dark_t = w("What-if, not tonight's real inputs: {assumed}.",
+                   assumed="; ".join(report["what_if"])) + " " + dark_t
     return dark_t + moon_t
 
 
