@@ -496,12 +496,6 @@ def site_timeline(ws, date: dt.date, site_name: str, climatology=None) -> dict:
 # week
 
 
-FIXED_VALUE = 1000.0
-"""Value given to an outing the plan must keep (confirmed, or another trip's outing of
-record): larger than the chance of every other outing together, so the solver keeps
-every fixed outing that fits before it weighs any chance."""
-
-
 def week_report(ws, start: dt.date, nights: int = 7, progress=None, now=None,
                 climatology=None, ranked_top: int = 5, fixed=None, replan=None) -> dict:
     """Ranked nights and sites per trip, and the excursion plan for the fleet.
@@ -516,6 +510,7 @@ def week_report(ws, start: dt.date, nights: int = 7, progress=None, now=None,
         exactly their ``fixed`` outings.
     """
     from auroraplan import planner
+    from auroraplan.errors import InputError
 
     tz = ws.operator.timezone
     sites = ws.sites
@@ -529,15 +524,20 @@ def week_report(ws, start: dt.date, nights: int = 7, progress=None, now=None,
     guests = np.array([t.guests for t in trips], int)
     outings = np.array([t.outings for t in trips], int)
     capacity = np.array([s.capacity for s in sites], int)
-    vehicles = np.full(nights, int(ws.operator.vehicles))
-    cost_per_min = float(ws.operator.settings.get("planner", {}).get(
-        "drive_cost_per_min", planner.DRIVE_WEIGHT_PER_MIN))
-    drive_cost = np.array([s.drive_min for s in sites], float) * cost_per_min
-    plan_value, plan_allowed, fixed_at, record_notes = _keep_fixed(
+    settings = planner_settings(ws)
+    drive_cost = np.array([s.drive_min for s in sites], float) * settings.drive_cost_per_min
+    _, plan_allowed, fixed_at, record_notes = _keep_fixed(
         ws, dates, value, allowed, outings, fixed or {}, replan)
-    chosen = planner.plan_excursions(
-        plan_value, plan_allowed, guests, outings, vehicles, capacity, drive_cost=drive_cost
-    ) if len(trips) else []
+    result = planner.PlanResult([])
+    if len(trips):
+        try:
+            result = planner.solve_plan(
+                value, plan_allowed, guests, outings, _fleet(ws).by_night(dates), capacity,
+                drive_cost=drive_cost, settings=settings,
+                fixed=[(r, d, s) for (r, d), (s, _) in sorted(fixed_at.items())])
+        except planner.FixedOutingsDoNotFit as exc:
+            raise InputError(f"{ws.path / 'operator.toml'} [fleet]: {exc}") from None
+    chosen = result.outings
     backups = planner.choose_backups(
         value, allowed, chosen, guests, capacity, drive_cost=drive_cost
     ) if chosen else []
@@ -623,6 +623,7 @@ def week_report(ws, start: dt.date, nights: int = 7, progress=None, now=None,
         "closed_note": all_closed_note(ws),
         "trips": trip_rows,
         "plan": plan,
+        "solver": solver_info(result),
         "heatmap": {
             "title": f"Chance per night and site, {dates[0].isoformat()} to {dates[-1].isoformat()}",
             "dates": [d.isoformat() for d in dates],
@@ -657,7 +658,7 @@ def note_warning(message: str) -> dict:
 def _keep_fixed(ws, dates, value, allowed, outings, fixed, replan):
     """Value and allowed masks that make the planner keep the outings of record.
 
-    A fixed outing's night allows only its site, at `FIXED_VALUE`; a trip not in
+    A fixed outing's night allows only its site (the planner is told to keep it); a trip not in
     ``replan`` allows nothing else. ``outings`` is raised in place where a trip holds
     more fixed outings than it asks for. Returns (value, allowed, {(r, d): (s, state)},
     notes about outings of record that cannot be placed at all).
@@ -685,7 +686,6 @@ def _keep_fixed(ws, dates, value, allowed, outings, fixed, replan):
                          "closed; release it and plan again")
         allowed[r, d] = False
         allowed[r, d, s] = True
-        value[r, d, s] = FIXED_VALUE
         fixed_at[(r, d)] = (s, state)
     for r in range(len(ws.trips)):
         held = sum(1 for (rr, _) in fixed_at if rr == r)
@@ -766,6 +766,35 @@ def bookings_report(ws, now=None, db=None) -> dict:
     from auroraplan import record
 
     return record.bookings_plan(ws, db, save=False, now=now)
+
+
+def planner_settings(ws):
+    """planner.PlannerSettings from operator.toml [planner] (checked when it was read)."""
+    from auroraplan.planner import PlannerSettings
+
+    table = ws.operator.settings.get("planner", {})
+    names = ("drive_cost_per_min", "time_limit_s", "relative_gap", "fairness")
+    return PlannerSettings(**{key: table[key] for key in names if key in table})
+
+
+def _fleet(ws):
+    from auroraplan.planner import Fleet
+
+    return ws.operator.fleet or Fleet.of_count(ws.operator.vehicles)
+
+
+def solver_info(result) -> dict:
+    """How good the plan is: the objective, the solver's bound, the gap, a time limit hit."""
+    return {
+        "objective": _num(result.objective, 4),
+        "expected_sightings": _num(result.expected_sightings, 4),
+        "bound": _num(result.bound, 4),
+        "gap": _num(result.gap, 5),
+        "time_limit_hit": bool(result.time_limit_hit),
+        "groups_served": result.served,
+        "least_share": _num(result.min_share, 3),
+        "seconds": _num(result.seconds, 2),
+    }
 
 
 def _plan_inputs(ws, summary, dates):

@@ -17,6 +17,7 @@ import numpy as np
 
 from auroraplan.activity import BLOCK_HOURS, SPREAD_LIMITS, parse_kp
 from auroraplan.errors import InputError, ProblemList
+from auroraplan.planner import FAIRNESS, Fleet, Guide, Vehicle
 
 
 @dataclass(frozen=True)
@@ -29,6 +30,7 @@ class Operator:
     base_lon: float
     timezone: str
     vehicles: int = 1
+    fleet: object = None  # planner.Fleet: vehicles (seats, dates away) and guides
     darkness: str = "nautical"
     min_elevation_deg: float = 5.0
     emission_height_km: float = 110.0
@@ -465,7 +467,14 @@ OPERATOR_SCHEMA = {
         "timezone": (_zone, True),
     },
     "operator": {"name": (_text, False)},
-    "fleet": {"vehicles": (_whole(1, 100, "vehicles"), False)},
+    # vehicles: a count, or a list of {name, seats, unavailable}; seats: the default seats
+    # per vehicle (without it a vehicle takes one group); guides: a count or a list of
+    # {name, unavailable}. See _fleet_record.
+    "fleet": {
+        "vehicles": (lambda value: _fleet_members(value, "vehicle"), False),
+        "seats": (_whole(1, 100, "seats"), False),
+        "guides": (lambda value: _fleet_members(value, "guide"), False),
+    },
     "viewing": {
         "darkness": (_choice(DARKNESS_LEVELS), False),
         "min_elevation_deg": (_number(0, 30, "degrees"), False),
@@ -492,6 +501,77 @@ OPERATOR_SCHEMA = {
         "forecast_max_age_hours": (_positive(240, "hours"), False),
     },
 }
+
+
+def _unavailable(value, where):
+    """A list of dates (TOML dates or "YYYY-MM-DD") on which a vehicle or guide is away."""
+    if not isinstance(value, list):
+        raise ValueError(f"{where} unavailable: give a list of dates such as [2027-01-12]")
+    dates = []
+    for item in value:
+        if isinstance(item, dt.datetime) or not isinstance(item, dt.date | str):
+            raise ValueError(f"{where} unavailable: {_quote(item)} is not a date; "
+                             "give YYYY-MM-DD, for example 2027-01-12")
+        try:
+            dates.append(item if isinstance(item, dt.date) else _date(item))
+        except ValueError as exc:
+            raise ValueError(f"{where} unavailable: {exc}") from None
+    return tuple(sorted(set(dates)))
+
+
+FLEET_MEMBER_KEYS = {"vehicle": ("name", "seats", "unavailable"), "guide": ("name", "unavailable")}
+
+
+def _fleet_members(value, kind):
+    """A count (1-100), or a list of tables for each vehicle or guide; a tuple of dicts."""
+    if not isinstance(value, list):
+        return _whole(1 if kind == "vehicle" else 0, 100, f"{kind}s")(value)
+    if not 1 <= len(value) <= 100:
+        raise ValueError(f"give 1 to 100 {kind}s, not {len(value)}")
+    members, names = [], set()
+    for number, item in enumerate(value, start=1):
+        where = f"{kind} {number}"
+        if not isinstance(item, dict):
+            raise ValueError(f"{where}: give a table such as {{ name = \"Van A\""
+                             f"{', seats = 8' if kind == 'vehicle' else ''} }}")
+        unknown = [key for key in item if key not in FLEET_MEMBER_KEYS[kind]]
+        if unknown:
+            raise ValueError(f"{where}: unknown key {unknown[0]}; allowed: "
+                             f"{', '.join(FLEET_MEMBER_KEYS[kind])}")
+        name = _text(item["name"]) if "name" in item else f"{kind} {number}"
+        if name in names:
+            raise ValueError(f"{where}: the name {_quote(name)} is used twice; name each once")
+        names.add(name)
+        member = {"name": name, "unavailable": _unavailable(item.get("unavailable", []), where)}
+        if kind == "vehicle" and "seats" in item:
+            try:
+                member["seats"] = _whole(1, 100, "seats")(item["seats"])
+            except ValueError as exc:
+                raise ValueError(f"{where} seats: {exc}") from None
+        members.append(member)
+    return tuple(members)
+
+
+def _fleet_record(values, label, problems):
+    """The planner's Fleet from the checked [fleet] keys (plain `vehicles = N` by default)."""
+    vehicles = values.get(("fleet", "vehicles"), 1)
+    seats = values.get(("fleet", "seats"))
+    if isinstance(vehicles, int):
+        fleet_vehicles = Fleet.of_count(vehicles, seats).vehicles
+    else:
+        missing = [v["name"] for v in vehicles if "seats" not in v]
+        if seats is None and missing and len(missing) < len(vehicles):
+            problems.add(f"{label} [fleet] vehicles: {missing[0]} has no seats; give seats for "
+                         "every vehicle, or a default seats = N in [fleet]")
+            return None
+        fleet_vehicles = tuple(Vehicle(v["name"], v.get("seats", seats), v["unavailable"])
+                               for v in vehicles)
+    guides = values.get(("fleet", "guides"))
+    if isinstance(guides, int):
+        guides = tuple(Guide(f"guide {i + 1}") for i in range(guides))
+    elif guides is not None:
+        guides = tuple(Guide(g["name"], g["unavailable"]) for g in guides)
+    return Fleet(fleet_vehicles, guides)
 
 
 def _clock(value) -> str:
@@ -531,6 +611,10 @@ PLANNER_CHECKS = {
     # planner.DRIVE_WEIGHT_PER_MIN is 0.001 chance per minute of driving; 0.1 would make a
     # one-hour drive cost more than any chance (common practice, no source).
     "drive_cost_per_min": _number(0, 0.1, "chance per minute"),
+    # The search for the plan (planner.PlannerSettings): seconds, a fraction, a rule name.
+    "time_limit_s": _positive(3600, "seconds"),
+    "relative_gap": _number(0, 0.5, "(a fraction; 0.01 is 1 %)"),
+    "fairness": _choice(tuple(FAIRNESS)),
 }
 FREE_TABLES = ("chance", "planner")
 STAGE_TABLES = FREE_TABLES + ("weather",)
@@ -674,13 +758,17 @@ def _load_operator(path: Path, label: str, problems: ProblemList) -> Operator | 
         return None
     viewing = {key: values[("viewing", key)] for key in OPERATOR_SCHEMA["viewing"]
                if ("viewing", key) in values}
+    fleet = _fleet_record(values, label, problems)
+    if fleet is None:
+        return None
     return Operator(
         name=values.get(("operator", "name"), values[("base", "name")]),
         base_name=values[("base", "name")],
         base_lat=values[("base", "lat")],
         base_lon=values[("base", "lon")],
         timezone=values[("base", "timezone")],
-        vehicles=values.get(("fleet", "vehicles"), 1),
+        vehicles=len(fleet.vehicles),
+        fleet=fleet,
         settings=doc,
         **viewing,
     )

@@ -155,6 +155,8 @@ def print_week(result):
                      clock(p["pickup"]), clock(p["return"]), p["backup"] or "—",
                      p.get("state") or "proposed")
     out.print(plan if result["plan"] else "[bold]No outings planned[/] for these dates.")
+    if result.get("solver"):
+        out.print(solver_line(result["solver"]))
     out.print("[dim]* outlook: beyond the Kp forecast, from climatology. "
               "Chances are forecasts, not promises.[/]")
     print_record(out, result)
@@ -182,3 +184,15 @@ def print_record(out, result):
     if rec.get("saved"):
         out.print(f"[dim]Saved as proposal {rec['plan_id']} in {rec['database']}; confirm "
                   "outings with: auroraplan confirm WORKSPACE [--trip ID] [--night DATE][/]")
+
+
+def solver_line(solver) -> str:
+    """One line on how good the plan is: its total, the bound, the gap, a time limit hit."""
+    gap = solver["gap"] or 0.0
+    text = (f"[dim]plan total {solver['expected_sightings']:.2f} expected sightings; "
+            f"net of driving {solver['objective']:.2f}, at most {solver['bound']:.2f} possible "
+            f"(gap {gap * 100:.1f} %)[/]")
+    if solver["time_limit_hit"]:
+        text += ("\n[yellow]note:[/] the planner's time limit was reached; this is the best "
+                 "plan found so far ([planner] time_limit_s)")
+    return text
