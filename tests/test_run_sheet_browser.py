@@ -19,7 +19,7 @@ from auroraplan.workspace import load_workspace
 PHONE = {"width": 390, "height": 844}
 DEMO = Path(__file__).resolve().parents[1] / "demo_sites"
 ARTIFACTS = Path(__file__).parent / "_artifacts"
-NIGHT = dt.date(2027, 1, 12)
+NIGHT = dt.date(2027, 1, 13)  # a night T01 is planned to go out
 
 # Every rendered element with its own text: its effective font size in CSS px (SVG text
 # scaled by its drawing's viewBox), text colour (fill for SVG), the first opaque

@@ -87,7 +87,7 @@ def test_data_age_says_what_is_old_or_missing():
 @pytest.fixture(scope="module")
 def demo():
     ws = load_workspace(DEMO)
-    night = dt.date(2027, 1, 12)
+    night = dt.date(2027, 1, 13)  # a night T01 is planned to go out
     tonight = report.tonight_report(ws, night)
     return ws, tonight, report.bookings_report(ws)
 
@@ -95,7 +95,7 @@ def demo():
 def test_run_sheet_is_the_planned_outing_of_the_group(demo):
     ws, tonight, plan = demo
     sheet = runsheet.run_sheet(tonight, plan, "T01", ws.operator.settings)
-    outing = next(p for p in plan["plan"] if p["trip"] == "T01" and p["date"] == "2027-01-12")
+    outing = next(p for p in plan["plan"] if p["trip"] == "T01" and p["date"] == tonight["date"])
     assert sheet["site_name"] == outing["site"] and sheet["pickup"] == outing["pickup"]
     assert sheet["backup_name"] == outing["backup"]
     assert sheet["guests"] == 12 and sheet["group"] == "Riverbend camera club"

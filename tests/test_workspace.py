@@ -428,3 +428,37 @@ CSV_CELL_CASES = [
 def test_one_bad_csv_cell_is_one_line(workspace_copy, file, line, column, value, fragments):
     edit_csv(workspace_copy / file, line, column, value)
     one_problem(workspace_copy, *fragments)
+
+
+def test_fleet_listed_with_seats_dates_away_and_guides(workspace_copy):
+    edit_toml(workspace_copy, "vehicles = 2", 'vehicles = [{ name = "Van A", seats = 8 }, '
+              '{ name = "Van B", seats = 8, unavailable = [2027-01-13] }, '
+              '{ name = "Minibus", seats = 16 }]\n'
+              'guides = [{ name = "Kari" }, { name = "Leif", unavailable = ["2027-01-12"] }]')
+    fleet = load_workspace(workspace_copy).operator.fleet
+    nights = fleet.by_night([dt.date(2027, 1, 12), dt.date(2027, 1, 13)])
+    assert nights.seats.tolist() == [8.0, 16.0]
+    assert nights.vehicles.tolist() == [[2, 1], [1, 1]]
+    assert nights.guides.tolist() == [1.0, 2.0]
+
+
+def test_plain_vehicle_count_with_default_seats(workspace_copy):
+    edit_toml(workspace_copy, "vehicles = 2", "vehicles = 3\nseats = 7\nguides = 2")
+    ws = load_workspace(workspace_copy)
+    assert ws.operator.vehicles == 3
+    assert [v.seats for v in ws.operator.fleet.vehicles] == [7, 7, 7]
+    assert len(ws.operator.fleet.guides) == 2
+
+
+@pytest.mark.parametrize("line, fragments", [
+    ('vehicles = [{ name = "Van A", seats = 0 }]', ("[fleet] vehicles", "vehicle 1 seats")),
+    ('vehicles = [{ name = "Van A", seats = 8 }, { name = "Van B" }]',
+     ("[fleet] vehicles", "Van B has no seats")),
+    ('vehicles = [{ name = "Van A", unavailable = ["13 Jan"] }]',
+     ("[fleet] vehicles", "unavailable", "YYYY-MM-DD")),
+    ('vehicles = [{ name = "Van A", wheels = 4 }]', ("[fleet] vehicles", "unknown key wheels")),
+    ("vehicles = 2\nguides = -1", ("[fleet] guides", "outside 0 to 100")),
+])
+def test_bad_fleet_is_one_line(workspace_copy, line, fragments):
+    edit_toml(workspace_copy, "vehicles = 2", line)
+    one_problem(workspace_copy, "operator.toml", *fragments)
