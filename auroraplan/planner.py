@@ -141,6 +141,15 @@ class Fleet:
         """``count`` interchangeable vehicles, named "vehicle 1", "vehicle 2", …"""
         return cls(tuple(Vehicle(f"vehicle {i + 1}", seats) for i in range(int(count))))
 
+    def with_count(self, count: int) -> Fleet:
+        """The first ``count`` vehicles, or more like the last one ("extra vehicle 1", …)."""
+        vehicles = self.vehicles[:count]
+        if count > len(vehicles):
+            model = self.vehicles[-1] if self.vehicles else Vehicle("vehicle")
+            vehicles += tuple(Vehicle(f"extra vehicle {i + 1}", model.seats)
+                              for i in range(count - len(vehicles)))
+        return Fleet(vehicles, self.guides)
+
     @property
     def seated(self) -> bool:
         """True when every vehicle's seats are known (groups may share)."""

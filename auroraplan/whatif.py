@@ -118,7 +118,10 @@ def apply(ws, assumptions: Assumptions, first: dt.date, last: dt.date):
                              f"trips: {_known(trips)}")
     changes = {}
     if a.vehicles is not None:
-        changes["operator"] = dataclasses.replace(ws.operator, vehicles=a.vehicles)
+        fleet = ws.operator.fleet
+        changes["operator"] = dataclasses.replace(
+            ws.operator, vehicles=a.vehicles,
+            fleet=None if fleet is None else fleet.with_count(a.vehicles))
         labels.append(f"{a.vehicles} vehicle{'s' if a.vehicles != 1 else ''} instead of "
                       f"{ws.operator.vehicles}")
     if a.closed:

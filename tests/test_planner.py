@@ -512,6 +512,8 @@ def test_fleet_by_night_counts_unavailable_vehicles_and_guides():
     assert nights.vehicles.tolist() == [[2, 1], [1, 1]]
     assert nights.guides.tolist() == [1.0, 2.0]
     assert nights.out_limit().tolist() == [1.0, 2.0]
+    assert [v.name for v in fleet.with_count(2).vehicles] == ["Van A", "Van B"]
+    assert [v.seats for v in fleet.with_count(4).vehicles] == [8, 8, 16, 16]
     plain = Fleet.of_count(3).by_night([mon])
     assert plain.seats is None and plain.vehicles.tolist() == [[3]]
     assert np.isinf(plain.guides).all()
