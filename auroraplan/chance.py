@@ -125,6 +125,11 @@ class ChanceGrid:
     moon_illumination: np.ndarray  # (T,)
     warnings: list = field(default_factory=list)
     nowcast_weight: np.ndarray | None = None  # (T,) share of the solar-wind Kp estimate, 0..1
+    # The activity factor's parts and the moon's brightening, kept so that the forecast
+    # archive can refit the settings (auroraplan.calibrate) without the sky again.
+    sky_brightening_mag: np.ndarray | None = None  # (N, T) dark − moonlit sky, mag ≥ 0
+    p_reach: np.ndarray | None = None  # (N, T) P(Kp needed ≤ Kp < Kp lost)
+    p_strong: np.ndarray | None = None  # (N, T) the same with the strong margin
 
 
 def moon_factor(dark_sky_mag, moonlit_sky_mag, beta=DEFAULT_SETTINGS["moon_beta"]):
@@ -323,6 +328,8 @@ def compute_grid(
         mlt=mlt, sun_alt=track.sun_alt, moon_alt=track.moon_alt, dark_sky=dark, outing=outing,
         moon_illumination=track.moon_illumination, warnings=warnings,
         nowcast_weight=nowcast_weight,
+        sky_brightening_mag=np.maximum(arr["sky_mag"][:, None] - moonlit, 0.0),
+        p_reach=p_reach, p_strong=p_strong,
     )
 
 

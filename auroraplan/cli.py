@@ -20,6 +20,7 @@ COMMANDS = {
     "itinerary": ("itinerary", "printable PDF itinerary for a trip"),
     "season": ("season", "long-range chance per night and the best trip start dates"),
     "arrival": ("arrival", "arrival window of a coronal mass ejection and the nights it touches"),
+    "logbook": ("logbook", "add or import what the guides saw (aurora, cloud) per site and night"),
 }
 
 

@@ -357,8 +357,10 @@ def _fixed(record: dict, replan: set) -> dict:
 
 def propose(ws, first: dt.date, end: dt.date, replan: set, db, *, save: bool = True,
             what_if=(), by: str | None = None, command: str = "week", now=None,
-            climatology=None) -> dict:
+            climatology=None, keep_chances=None) -> dict:
     """Plan ``replan`` over the nights ``first`` .. ``end`` around the plan of record.
+
+    ``keep_chances``: the forecast archive's callback (report.tonight_report).
 
     Confirmed outings and the outings of other trips are kept; the result is the week
     report over those nights with ``changes`` (against the record), ``what_if`` and
@@ -371,7 +373,8 @@ def propose(ws, first: dt.date, end: dt.date, replan: set, db, *, save: bool = T
     record = live_outings(db)
     nights = max((end - first).days, 1)
     result = report.week_report(ws, first, nights, now=now, climatology=climatology,
-                                fixed=_fixed(record, replan), replan=replan)
+                                fixed=_fixed(record, replan), replan=replan,
+                                keep_chances=keep_chances)
     new = {(p["trip"], p["date"]): p["site"] for p in result["plan"]}
     inputs = inputs_digest(ws, what_if)
     result["changes"] = change_list(record, new, replan, db, inputs, ws) if db else []

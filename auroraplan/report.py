@@ -244,12 +244,14 @@ def default_climatology(ws=None):
 
 
 def tonight_report(ws, date: dt.date, top: int | None = None, now=None, climatology=None,
-                   solar_wind=None) -> dict:
+                   solar_wind=None, keep_chances=None) -> dict:
     """Tonight's shortlist for the guide: open sites ranked by chance.
 
     ``solar_wind`` (a ``workspace.SolarWindFile``) lays the Kp estimated from upstream
     measurements over the forecast for the hours it covers; the report's ``nowcast``
-    block says from when and until when.
+    block says from when and until when. ``keep_chances(grid, summary, site_names,
+    dates)``, when given, receives the chances computed (the forecast archive,
+    auroraplan.archive).
     """
     tz = ws.operator.timezone
     sites = [s for s in ws.sites if not s.closed]
@@ -260,6 +262,8 @@ def tonight_report(ws, date: dt.date, top: int | None = None, now=None, climatol
     # With every site closed the night is still described, at the base.
     grid, summary = _grid_for_nights(ws, sites or [_base_site(ws)], date, 1, DEFAULT_STEP_MIN,
                                      climatology, nowcast=cast)
+    if keep_chances and sites:
+        keep_chances(grid, summary, [s.name for s in sites], [date])
     order = _rank(summary.p_any[:, 0]) if sites else []
     if top:
         order = order[:top]
@@ -497,7 +501,7 @@ def site_timeline(ws, date: dt.date, site_name: str, climatology=None) -> dict:
 
 
 def week_report(ws, start: dt.date, nights: int = 7, progress=None, now=None,
-                climatology=None, ranked_top: int = 5, fixed=None, replan=None) -> dict:
+                climatology=None, ranked_top: int = 5, fixed=None, replan=None, keep_chances=None) -> dict:
     """Ranked nights and sites per trip, and the excursion plan for the fleet.
 
     Parameters
@@ -508,6 +512,8 @@ def week_report(ws, start: dt.date, nights: int = 7, progress=None, now=None,
     replan : set of str, optional
         The trips the plan may give new outings; None for every trip. The others keep
         exactly their ``fixed`` outings.
+    keep_chances : callable, optional
+        As for :func:`tonight_report`.
     """
     from auroraplan import planner
     from auroraplan.errors import InputError
@@ -518,6 +524,8 @@ def week_report(ws, start: dt.date, nights: int = 7, progress=None, now=None,
         climatology = default_climatology(ws)
     grid, summary = _grid_for_nights(ws, sites, start, nights, DEFAULT_STEP_MIN, climatology)
     dates = [start + dt.timedelta(days=d) for d in range(nights)]
+    if keep_chances and sites:
+        keep_chances(grid, summary, [s.name for s in sites], dates)
     trips = ws.trips
 
     value, allowed, in_stay, blocked = _plan_inputs(ws, summary, dates)

@@ -105,6 +105,53 @@ MIGRATIONS: list[Migration] = [
             plan_id INTEGER NOT NULL REFERENCES plans(id)
         )""",
     )),
+    Migration(2, "chances as issued (per site and night, per site and hour) and the logbook", (
+        """CREATE TABLE issue_runs (
+            id INTEGER PRIMARY KEY,
+            made_at TEXT NOT NULL,          -- UTC ISO 8601
+            command TEXT NOT NULL,
+            inputs TEXT NOT NULL,           -- JSON: file role -> SHA-256 of its bytes
+            inputs_digest TEXT NOT NULL,    -- SHA-256 over the activity and weather files
+            settings TEXT NOT NULL,         -- JSON: the chance settings used
+            settings_digest TEXT NOT NULL,
+            step_min REAL NOT NULL
+        )""",
+        """CREATE TABLE issued_nights (
+            run_id INTEGER NOT NULL REFERENCES issue_runs(id),
+            site TEXT NOT NULL,
+            night TEXT NOT NULL,            -- local date of the evening
+            kind TEXT NOT NULL CHECK (kind IN ('forecast', 'outlook', 'nowcast')),
+            outing_start TEXT NOT NULL,     -- UTC ISO 8601: first step of the outing hours
+            lead_hours REAL NOT NULL,       -- outing_start - made_at
+            chance REAL NOT NULL,           -- chance of a sighting during the outing window
+            factors BLOB                    -- per dark step: float32 rows (see archive.py)
+        )""",
+        "CREATE INDEX issued_nights_site_night ON issued_nights(site, night)",
+        """CREATE TABLE issued_hours (
+            run_id INTEGER NOT NULL REFERENCES issue_runs(id),
+            site TEXT NOT NULL,
+            night TEXT NOT NULL,
+            hour_start TEXT NOT NULL,       -- UTC ISO 8601
+            kind TEXT NOT NULL CHECK (kind IN ('forecast', 'outlook', 'nowcast')),
+            lead_hours REAL NOT NULL,       -- hour_start - made_at
+            chance REAL NOT NULL            -- chance in this hour
+        )""",
+        "CREATE INDEX issued_hours_site_night ON issued_hours(site, night)",
+        """CREATE TABLE logbook (
+            id INTEGER PRIMARY KEY,
+            entry_key TEXT NOT NULL UNIQUE, -- digest of the normalised fields
+            site TEXT NOT NULL,
+            night TEXT NOT NULL,            -- local date of the evening
+            out_from TEXT,                  -- local HH:MM, or NULL
+            out_until TEXT,
+            aurora TEXT NOT NULL CHECK (aurora IN ('none', 'faint', 'clear', 'strong')),
+            cloud_pct REAL,
+            note TEXT NOT NULL DEFAULT '',
+            source TEXT NOT NULL DEFAULT '',
+            added_at TEXT NOT NULL          -- UTC ISO 8601
+        )""",
+        "CREATE INDEX logbook_site_night ON logbook(site, night)",
+    )),
 ]
 """The schema, step by step. Append a `Migration` with the next version to change it;
 never edit or reorder a step that has been released."""

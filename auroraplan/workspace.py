@@ -111,6 +111,7 @@ CSV_COLUMNS = {
     "trips": (("trip", "group", "guests", "arrive", "depart", "outings"), ("blocked",)),
     "activity": (("start_utc", "kp"), ("kp_sd",)),
     "clouds": (("site", "time_utc", "cloud_pct"), ("unit",)),
+    "logbook": (("site", "night", "aurora"), ("hours_out", "cloud_seen", "note", "source")),
 }
 
 SITE_LIMITS = {

@@ -21,6 +21,9 @@ def add_arguments(parser):
                         help="the group's run sheet: its planned outing tonight first "
                              "(the trip's id in trips.csv)")
     parser.add_argument("--json", action="store_true", help="print the result as JSON")
+    parser.add_argument("--no-record", action="store_true",
+                        help="do not keep these chances in the workspace database (they are "
+                             "kept by default once it exists, for `verify` and `calibrate`)")
     parser.add_argument("--html", metavar="FILE", help="also write the phone page to FILE")
     parser.add_argument("--png", metavar="FILE",
                         help="also write the night timeline chart of the best site (or, with "
@@ -44,7 +47,8 @@ def tonight_date(tz: str):
 
 def run(args):
     from auroraplan import report
-    from auroraplan.commands._common import print_json
+    from auroraplan.archive import recorder
+    from auroraplan.commands._common import open_record, print_json
     from auroraplan.commands._progress import working
     from auroraplan.outfiles import check_output_path, write_bytes_atomic
     from auroraplan.workspace import load_workspace, solar_wind_for
@@ -57,12 +61,16 @@ def run(args):
     date = args.date or tonight_date(ws.operator.timezone)
     ws, what_if = whatif.apply(ws, whatif.from_args(args), date, date)
     sheet = None
+    # A what-if run's chances rest on assumptions, not on the forecast: they are not kept.
+    keep = None if args.no_record or what_if else recorder(
+        ws, "tonight", open_db=lambda: open_record(args, ws, create=False))
     with working(f"Ranking {len(ws.sites)} sites for the night of {date}", quiet=args.json):
         if args.trip is not None:
             from auroraplan import runsheet
 
             runsheet.find_trip({"trips": [{"trip": t.trip} for t in ws.trips]}, args.trip)
-            result = report.tonight_report(ws, date, solar_wind=solar_wind)
+            result = report.tonight_report(ws, date, solar_wind=solar_wind,
+                                          keep_chances=keep)
             from auroraplan.commands._common import open_record
 
             db = open_record(args, ws, create=False)  # read only: never created here
@@ -73,7 +81,8 @@ def run(args):
                     db.close()
             sheet = runsheet.run_sheet(result, plan, args.trip, ws.operator.settings)
         else:
-            result = report.tonight_report(ws, date, top=args.top, solar_wind=solar_wind)
+            result = report.tonight_report(ws, date, top=args.top, solar_wind=solar_wind,
+                                          keep_chances=keep)
         if what_if:
             result["what_if"] = what_if
         payloads = {}

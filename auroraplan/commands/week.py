@@ -20,6 +20,9 @@ def add_arguments(parser):
     parser.add_argument("--nights", type=int_range(1, 31), default=7,
                         help="number of nights (1 to 31, default 7)")
     parser.add_argument("--json", action="store_true", help="print the result as JSON")
+    parser.add_argument("--no-record", action="store_true",
+                        help="do not keep these chances in the workspace database "
+                             "(they are kept by default, for `verify` and `calibrate`)")
     parser.add_argument("--csv", metavar="FILE", help="also write ranked nights × sites as CSV")
     parser.add_argument("--ics", metavar="FILE",
                         help="also write the planned outings as an iCalendar file")
@@ -31,6 +34,7 @@ def run(args):
     import contextlib
 
     from auroraplan import record
+    from auroraplan.archive import recorder
     from auroraplan.commands._common import open_record, print_json
     from auroraplan.commands._progress import working
     from auroraplan.outfiles import check_output_path
@@ -47,7 +51,9 @@ def run(args):
         db = open_record(args, ws, create=not what_if)
         with db if db is not None else contextlib.nullcontext():
             result = record.propose_week(ws, args.start, args.nights, db, by=args.by,
-                                         what_if=what_if)
+                                         what_if=what_if, keep_chances=None if (
+                                             args.no_record or what_if or db is None)
+                                         else recorder(ws, "week", db=db))
     payloads = {}
     if "csv" in outputs:
         payloads["csv"] = week_csv(result).encode("utf-8")

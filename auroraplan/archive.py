@@ -1,0 +1,296 @@
+"""The forecast archive: every chance the tool issued, kept with what it was made from.
+
+Each run of a command that computes chances (``tonight``, ``week``) adds one
+row to ``issue_runs`` (when, which command, digests of the input files, the
+chance settings) and, per site, the chance of a sighting during the outing
+window for each night (``issued_nights``) and the chance in each dark hour
+(``issued_hours``), with the kind (forecast, outlook, nowcast) and the lead
+time. The night rows also keep, per dark step of the outing hours, the parts
+of the chance that the settings act on (`FACTOR_ROWS`), so that
+``calibrate`` can refit the settings to what the guides saw without computing
+the sky again.
+
+Pairing a logged outcome with a chance (`issued_for`): the chance is the last
+one issued before the group went out (the start of the logged hours out, or
+without them the start of the outing hours); when every chance for that
+night was made later (a re-run for a past night), the earliest one is used
+and the pair is marked ``after_start``.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import datetime as dt
+import hashlib
+import json
+from pathlib import Path
+from zoneinfo import ZoneInfo
+
+import numpy as np
+
+KINDS = ("forecast", "outlook", "nowcast")
+"""Kinds of issued chance: from a Kp forecast, from Kp climatology beyond it, or from
+solar-wind measurements of the last hour."""
+
+FACTOR_ROWS = ("sky_brightening_mag", "p_reach", "p_strong", "p_clear")
+"""Rows of the float32 array kept per site and night, one column per dark outing step:
+how much the moon brightens the sky toward the aurora (mag), P(Kp needed ≤ Kp < Kp lost),
+the same with the strong margin, and P(clear)."""
+
+WEATHER_ROLES = ("activity", "clouds", "weather")
+"""Input files whose digest identifies the forecast (the inputs digest)."""
+
+
+def file_digest(path) -> str:
+    """SHA-256 of a file's bytes (FIPS 180-4), hex."""
+    h = hashlib.sha256()
+    with open(path, "rb") as fh:
+        for block in iter(lambda: fh.read(1 << 20), b""):
+            h.update(block)
+    return h.hexdigest()
+
+
+def input_digests(files: dict) -> tuple[dict, str]:
+    """Digest of each input file (role -> SHA-256) and one digest over the forecast files.
+
+    ``files`` maps a role to a path, or to a list of paths (weather-model files).
+    """
+    digests = {}
+    for role, value in files.items():
+        paths = value if isinstance(value, list | tuple) else [value]
+        for p in paths:
+            key = role if len(paths) == 1 else f"{role}:{Path(p).name}"
+            digests[key] = file_digest(p)
+    forecast = sorted((k, v) for k, v in digests.items() if k.split(":")[0] in WEATHER_ROLES)
+    combined = hashlib.sha256(json.dumps(forecast).encode("utf-8")).hexdigest()
+    return digests, combined
+
+
+def settings_dict(settings) -> dict:
+    """Chance settings as a plain dict (from a dict or a settings record)."""
+    if dataclasses.is_dataclass(settings):
+        settings = dataclasses.asdict(settings)
+    return {k: (v if isinstance(v, str | int | float | bool) or v is None else str(v))
+            for k, v in dict(settings).items()}
+
+
+def _utc_text(t64) -> str:
+    return str(np.datetime64(t64, "s")) + "Z"
+
+
+def hourly_chances(grid, decorrelation_min: float):
+    """Chance in each clock hour per site, for every hour of the grid.
+
+    Hours are counted in elapsed time from the grid's first step (local noon), as on the
+    phone page (report.hourly_chance); the chance in an hour is P(at least one display
+    seen) over its steps (chance.p_display_seen).
+
+    Returns
+    -------
+    (hour_first_step (H,), chance (N, H), dark (N, H) bool)
+    """
+    from auroraplan.chance import p_display_seen
+
+    per_hour = int(round(60 / grid.step_min))
+    n, t = grid.chance.shape
+    h = t // per_hour
+    cut = h * per_hour
+    shown = (grid.darkness * grid.moon * grid.activity)[:, :cut].reshape(n, h, per_hour)
+    clear = grid.cloud[:, :cut].reshape(n, h, per_hour)
+    chance = p_display_seen(shown, clear, grid.step_min, decorrelation_min)
+    dark = (grid.darkness[:, :cut] > 0).reshape(n, h, per_hour).any(axis=2)
+    return np.arange(h) * per_hour, chance, dark
+
+
+def record_issue(store, *, command: str, site_names, grid, summary, dates, settings,
+                 files: dict, made_at: dt.datetime | None = None) -> int:
+    """Add one run's chances to the archive in one transaction; returns the run id.
+
+    Parameters
+    ----------
+    store : auroraplan.store.Store
+    command : str
+        The command that computed them ("tonight", "week" ...).
+    site_names : list of str
+        Names of the grid's rows.
+    grid, summary : chance.ChanceGrid, chance.NightSummary
+    dates : list of datetime.date
+        The local evening date of each night of the grid.
+    settings : dict or settings record
+        The chance settings used.
+    files : dict
+        Role -> path of the input files (their digests are kept).
+    made_at : datetime, optional
+        When the chances were made (default now).
+
+    Nights (and hours) without a forecast or outlook, or without darkness, are not kept.
+    """
+    made = (made_at or dt.datetime.now(dt.UTC)).astimezone(dt.UTC)
+    made64 = np.datetime64(made.replace(tzinfo=None), "s")
+    cfg = settings_dict(settings)
+    digests, forecast_digest = input_digests(files)
+    settings_json = json.dumps(cfg, sort_keys=True)
+    first_step, hour_chance, hour_dark = hourly_chances(grid, float(cfg["decorrelation_min"]))
+    hour_start = grid.times_utc[first_step]
+    hour_lead = (hour_start - made64).astype("timedelta64[s]").astype(float) / 3600.0
+    hour_night = grid.night_index[first_step]
+    hour_kind = grid.kind[first_step]
+    factors = np.stack([np.nan_to_num(getattr(grid, name) if name != "p_clear" else grid.cloud,
+                                      nan=0.0) for name in FACTOR_ROWS]) \
+        if grid.p_reach is not None else None
+
+    night_rows, hour_rows = [], []
+    for d, date in enumerate(dates):
+        kind = summary.kind[d]
+        cols = np.flatnonzero(grid.night_index == d)
+        if kind not in KINDS or cols.size == 0:
+            continue
+        outing = cols[grid.outing[cols]] if grid.outing[cols].any() else cols
+        start = grid.times_utc[outing[0]]
+        lead = float((start - made64).astype("timedelta64[s]").astype(float) / 3600.0)
+        for i, site in enumerate(site_names):
+            p = summary.p_any[i, d]
+            if not np.isfinite(p):
+                continue
+            blob = None
+            if factors is not None:
+                dark = cols[grid.darkness[i, cols] > 0]
+                blob = np.ascontiguousarray(factors[:, i, dark], dtype="<f4").tobytes()
+            night_rows.append((site, date.isoformat(), kind, _utc_text(start), lead, float(p), blob))
+        for j in np.flatnonzero(hour_night == d):
+            if hour_kind[j] not in KINDS:
+                continue
+            for i in np.flatnonzero(hour_dark[:, j] & np.isfinite(hour_chance[:, j])):
+                hour_rows.append((site_names[i], date.isoformat(), _utc_text(hour_start[j]),
+                                  hour_kind[j], float(hour_lead[j]), float(hour_chance[i, j])))
+    with store.transaction() as con:
+        cur = con.execute(
+            "INSERT INTO issue_runs (made_at, command, inputs, inputs_digest, settings, "
+            "settings_digest, step_min) VALUES (?,?,?,?,?,?,?)",
+            (made.isoformat(timespec="seconds"), command, json.dumps(digests, sort_keys=True),
+             forecast_digest, settings_json,
+             hashlib.sha256(settings_json.encode("utf-8")).hexdigest(), float(grid.step_min)))
+        run_id = cur.lastrowid
+        con.executemany(
+            "INSERT INTO issued_nights (run_id, site, night, kind, outing_start, lead_hours, "
+            "chance, factors) VALUES (?,?,?,?,?,?,?,?)",
+            [(run_id, *row) for row in night_rows])
+        con.executemany(
+            "INSERT INTO issued_hours (run_id, site, night, hour_start, kind, lead_hours, "
+            "chance) VALUES (?,?,?,?,?,?,?)",
+            [(run_id, *row) for row in hour_rows])
+    return run_id
+
+
+def factors_of(blob: bytes | None) -> dict | None:
+    """The per-step factor rows kept with an issued night (FACTOR_ROWS -> (K,) arrays)."""
+    if blob is None:
+        return None
+    arr = np.frombuffer(blob, dtype="<f4").astype(float).reshape(len(FACTOR_ROWS), -1)
+    return dict(zip(FACTOR_ROWS, arr, strict=True))
+
+
+@dataclasses.dataclass(frozen=True)
+class Issued:
+    """The chance paired with one logged outcome."""
+
+    site: str
+    night: str
+    kind: str
+    chance: float
+    made_at: str  # UTC ISO 8601
+    lead_hours: float
+    after_start: bool  # made after the group went out (a re-run for a past night)
+    command: str
+    settings: dict
+    step_min: float
+    factors: dict | None
+
+
+def went_out_utc(night: str, out_from: str | None, outing_start: str, tz: str) -> dt.datetime:
+    """When the group went out: the logged start on the night's local clock (after
+    midnight when earlier than noon), else the start of the outing hours."""
+    if out_from:
+        date = dt.date.fromisoformat(night)
+        hh, mm = (int(x) for x in out_from.split(":"))
+        if hh < 12:
+            date += dt.timedelta(days=1)
+        local = dt.datetime.combine(date, dt.time(hh % 24, mm), tzinfo=ZoneInfo(tz))
+        return local.astimezone(dt.UTC)
+    return dt.datetime.fromisoformat(outing_start.replace("Z", "+00:00"))
+
+
+def issued_for(store, site: str, night: str, out_from: str | None, tz: str,
+               kinds=KINDS) -> Issued | None:
+    """The chance issued for a site and night that a logged outcome is judged against.
+
+    The last one made before the group went out (`went_out_utc`); when none was made
+    before, the first one made after, marked ``after_start``. None when the archive
+    holds no chance for that site and night.
+    """
+    rows = store.query(
+        "SELECT n.kind, n.chance, n.lead_hours, n.outing_start, n.factors, r.made_at, "
+        "r.command, r.settings, r.step_min FROM issued_nights n JOIN issue_runs r "
+        "ON r.id = n.run_id WHERE n.site = ? AND n.night = ? ORDER BY r.made_at, r.id",
+        (site, night))
+    rows = [r for r in rows if r["kind"] in kinds]
+    if not rows:
+        return None
+    start = went_out_utc(night, out_from, rows[0]["outing_start"], tz)
+    before = [r for r in rows if dt.datetime.fromisoformat(r["made_at"]) <= start]
+    row = before[-1] if before else rows[0]
+    return Issued(
+        site=site, night=night, kind=row["kind"], chance=float(row["chance"]),
+        made_at=row["made_at"], lead_hours=float(row["lead_hours"]), after_start=not before,
+        command=row["command"], settings=json.loads(row["settings"]),
+        step_min=float(row["step_min"]), factors=factors_of(row["factors"]),
+    )
+
+
+def recorder(ws, command: str, db=None, open_db=None, warn=None):
+    """A ``keep_chances`` callback for the report builders that adds the run's chances to the
+    workspace database.
+
+    Parameters
+    ----------
+    ws : Workspace
+    command : str
+    db : auroraplan.store.Store, optional
+        An open database to write to (``week`` has the plan of record open).
+    open_db : callable, optional
+        Opens the database for this run, or returns None when there is none yet (``tonight``
+        never creates it: the chances are then not kept, and a note says so).
+    warn : callable, optional
+        Receives a one-line note (default: standard error).
+
+    A database that cannot be written gives one note and the run goes on: keeping the
+    chances never stops the guide's shortlist or the plan.
+    """
+    import sqlite3
+    import sys
+
+    from auroraplan.chance import settings_for
+    from auroraplan.errors import InputError
+
+    def note(text):
+        (warn or (lambda t: sys.stderr.write(f"auroraplan {command}: note: {t}\n")))(text)
+
+    def keep(grid, summary, site_names, dates):
+        try:
+            target = db if db is not None else open_db()
+            if target is None:
+                note("these chances were not kept: the workspace has no database yet "
+                     "(`week` or `logbook` creates it)")
+                return
+            try:
+                record_issue(target, command=command, site_names=site_names, grid=grid,
+                             summary=summary, dates=dates, settings=settings_for(ws),
+                             files=dict(ws.files))
+            finally:
+                if db is None:
+                    target.close()
+        except (sqlite3.Error, OSError, InputError) as exc:
+            note(f"these chances were not kept in the workspace database ({exc}); "
+                 "the results stand")
+
+    return keep

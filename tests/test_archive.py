@@ -1,0 +1,140 @@
+"""The forecast archive: what `tonight` and `week` keep, and which chance an outcome meets."""
+
+import datetime as dt
+import json
+import shutil
+import sqlite3
+import subprocess
+import sys
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+from auroraplan import archive, store
+
+DEMO = Path(__file__).resolve().parent.parent / "demo_sites"
+
+
+@pytest.fixture(scope="module")
+def recorded(tmp_path_factory):
+    ws = tmp_path_factory.mktemp("archive") / "ws"
+    shutil.copytree(DEMO, ws, ignore=shutil.ignore_patterns("auroraplan.sqlite*"))
+    out = subprocess.run([sys.executable, "-m", "auroraplan.cli", "tonight", str(ws), "--date",
+                          "2027-01-12", "--json", "--top", "100"], capture_output=True, text=True)
+    assert out.returncode == 0, out.stderr
+    return ws, json.loads(out.stdout)
+
+
+def _rows(ws, sql):
+    con = sqlite3.connect(ws / store.DATABASE_NAME)
+    con.row_factory = sqlite3.Row
+    rows = con.execute(sql).fetchall()
+    con.close()
+    return rows
+
+
+def test_tonight_keeps_the_night_chance_it_printed(recorded):
+    ws, result = recorded
+    rows = {r["site"]: r for r in _rows(ws, "SELECT * FROM issued_nights")}
+    assert {s["name"] for s in result["sites"]} == set(rows)
+    for s in result["sites"]:
+        assert rows[s["name"]]["chance"] == pytest.approx(s["chance"], abs=5e-4)
+        assert rows[s["name"]]["night"] == "2027-01-12"
+        assert rows[s["name"]]["kind"] == "forecast"
+
+
+def test_tonight_keeps_the_chance_in_each_hour_it_printed(recorded):
+    ws, result = recorded
+    rows = _rows(ws, "SELECT * FROM issued_hours")
+    for s in result["sites"]:
+        kept = {r["hour_start"]: r["chance"] for r in rows if r["site"] == s["name"]}
+        shown = [h for h in s["hourly"]]
+        assert len(kept) == len(shown)
+        for h in shown:
+            utc = dt.datetime.fromisoformat(h["time"]).astimezone(dt.UTC)
+            assert kept[utc.strftime("%Y-%m-%dT%H:%M:%SZ")] == pytest.approx(h["chance"], abs=5e-4)
+
+
+def test_the_run_keeps_its_inputs_settings_and_lead_time(recorded):
+    ws, _ = recorded
+    run = _rows(ws, "SELECT * FROM issue_runs")[0]
+    inputs = json.loads(run["inputs"])
+    # SHA-256 of the activity file's bytes, as hashlib computes it (FIPS 180-4)
+    import hashlib
+
+    assert inputs["activity"] == hashlib.sha256((ws / "activity.csv").read_bytes()).hexdigest()
+    assert json.loads(run["settings"])["display_quiet"] == pytest.approx(0.3)
+    night = _rows(ws, "SELECT * FROM issued_nights")[0]
+    made = dt.datetime.fromisoformat(run["made_at"])
+    start = dt.datetime.fromisoformat(night["outing_start"].replace("Z", "+00:00"))
+    assert night["lead_hours"] == pytest.approx((start - made).total_seconds() / 3600, abs=1e-6)
+    # outing hours start at 18:00 local (Europe/Oslo, UTC+1 in January)
+    assert night["outing_start"] == "2027-01-12T17:00:00Z"
+
+
+def test_factors_rebuild_the_night_chance(recorded):
+    # The kept parts give back the issued chance through the same formula (chance.py).
+    from auroraplan.calibrate import night_chances, prepare
+
+    ws, _ = recorded
+    rows = _rows(ws, "SELECT n.chance, n.factors, r.step_min FROM issued_nights n "
+                     "JOIN issue_runs r ON r.id = n.run_id")
+    data = prepare([archive.factors_of(r["factors"]) for r in rows], rows[0]["step_min"])
+    again = night_chances(data, {"display_quiet": 0.3, "display_active": 0.8, "moon_beta": 0.5,
+                                 "decorrelation_min": 120.0})
+    assert again == pytest.approx([r["chance"] for r in rows], abs=1e-5)
+
+
+def test_no_record_leaves_no_database(tmp_path):
+    ws = tmp_path / "ws"
+    shutil.copytree(DEMO, ws, ignore=shutil.ignore_patterns("auroraplan.sqlite*"))
+    out = subprocess.run([sys.executable, "-m", "auroraplan.cli", "tonight", str(ws), "--date",
+                          "2027-01-12", "--no-record"], capture_output=True, text=True)
+    assert out.returncode == 0, out.stderr
+    assert not (ws / store.DATABASE_NAME).exists()
+
+
+def test_pairing_takes_the_last_chance_before_going_out(tmp_path):
+    with store.open_store(tmp_path / store.DATABASE_NAME) as db:
+        with db.transaction() as con:
+            for run, made in enumerate(("2027-01-10T12:00:00+00:00", "2027-01-12T15:00:00+00:00",
+                                        "2027-01-12T21:00:00+00:00"), start=1):
+                con.execute("INSERT INTO issue_runs VALUES (?,?,?,?,?,?,?,?)",
+                            (run, made, "week", "{}", "x", "{}", "x", 10.0))
+                con.execute("INSERT INTO issued_nights VALUES (?,?,?,?,?,?,?,?)",
+                            (run, "Island Lake", "2027-01-12", "forecast",
+                             "2027-01-12T17:00:00Z", 0.0, 0.1 * run, None))
+        # out from 18:00 local (17:00 UTC): the 15:00 UTC run is the last before
+        assert archive.issued_for(db, "Island Lake", "2027-01-12", None, "Europe/Oslo").chance \
+            == pytest.approx(0.2)
+        # out from 23:30 local (22:30 UTC): the 21:00 UTC run counts
+        got = archive.issued_for(db, "Island Lake", "2027-01-12", "23:30", "Europe/Oslo")
+        assert got.chance == pytest.approx(0.3) and not got.after_start
+        # out from 00:30 local is the next calendar day
+        assert archive.went_out_utc("2027-01-12", "00:30", "", "Europe/Oslo") == dt.datetime(
+            2027, 1, 12, 23, 30, tzinfo=dt.UTC)
+        assert archive.issued_for(db, "Sound Bay", "2027-01-12", None, "Europe/Oslo") is None
+
+
+def test_hourly_chances_are_vectorised_over_sites(recorded):
+    from auroraplan import chance
+
+    rng = np.random.default_rng(1)
+
+    class Grid:
+        step_min = 10.0
+        darkness = (rng.random((3, 36)) > 0.3).astype(float)
+        moon = rng.random((3, 36))
+        activity = rng.random((3, 36))
+        cloud = rng.random((3, 36))
+        chance = darkness
+
+    first, p, dark = archive.hourly_chances(Grid, 120.0)
+    assert list(first) == [0, 6, 12, 18, 24, 30]
+    shown = Grid.darkness * Grid.moon * Grid.activity
+    for i in range(3):
+        for h in range(6):
+            sl = slice(6 * h, 6 * h + 6)
+            assert p[i, h] == pytest.approx(chance.p_display_seen(shown[i, sl], Grid.cloud[i, sl],
+                                                                  10.0, 120.0), abs=1e-12)
