@@ -96,7 +96,7 @@ def hourly_chances(grid, decorrelation_min: float):
     h = t // per_hour
     cut = h * per_hour
     shown = (grid.darkness * grid.moon * grid.activity)[:, :cut].reshape(n, h, per_hour)
-    clear = grid.cloud[:, :cut].reshape(n, h, per_hour)
+    clear = grid.p_clear[:, :cut].reshape(n, h, per_hour)
     chance = p_display_seen(shown, clear, grid.step_min, decorrelation_min)
     dark = (grid.darkness[:, :cut] > 0).reshape(n, h, per_hour).any(axis=2)
     return np.arange(h) * per_hour, chance, dark
@@ -135,8 +135,7 @@ def record_issue(store, *, command: str, site_names, grid, summary, dates, setti
     hour_lead = (hour_start - made64).astype("timedelta64[s]").astype(float) / 3600.0
     hour_night = grid.night_index[first_step]
     hour_kind = grid.kind[first_step]
-    factors = np.stack([np.nan_to_num(getattr(grid, name) if name != "p_clear" else grid.cloud,
-                                      nan=0.0) for name in FACTOR_ROWS]) \
+    factors = np.stack([np.nan_to_num(getattr(grid, name), nan=0.0) for name in FACTOR_ROWS]) \
         if grid.p_reach is not None else None
 
     night_rows, hour_rows = [], []

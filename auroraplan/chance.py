@@ -87,6 +87,11 @@ def activity_factor(p_at_least, kp_needed, kp_lost, cfg=None):
     cfg : dict, optional
         Chance settings (``strong_margin_kp``, ``display_quiet``, ``display_active``).
     """
+    return display_probability(*activity_parts(p_at_least, kp_needed, kp_lost, cfg), cfg)
+
+
+def activity_parts(p_at_least, kp_needed, kp_lost, cfg=None):
+    """(p_reach, p_strong) (N, T) of :func:`activity_factor`; the forecast archive keeps them."""
     cfg = cfg or DEFAULT_SETTINGS
     p_lost = np.zeros(kp_needed.shape)
     if np.isfinite(kp_lost).any():
@@ -94,7 +99,7 @@ def activity_factor(p_at_least, kp_needed, kp_lost, cfg=None):
                           p_at_least(np.where(np.isfinite(kp_lost), kp_lost, 0.0)), 0.0)
     p_reach = np.maximum(p_at_least(kp_needed) - p_lost, 0.0)
     p_strong = np.maximum(p_at_least(kp_needed + cfg["strong_margin_kp"]) - p_lost, 0.0)
-    return display_probability(p_reach, p_strong, cfg)
+    return p_reach, p_strong
 
 
 @dataclass
@@ -307,7 +312,8 @@ def compute_grid(
                 climatology, kp[:, rest], times_utc[rest], cfg["boundary_sd_kp"], known)
         return p
 
-    activity = activity_factor(p_at_least, kp_needed, kp_lost, cfg)
+    p_reach, p_strong = activity_parts(p_at_least, kp_needed, kp_lost, cfg)
+    activity = display_probability(p_reach, p_strong, cfg)
 
     if use_clouds:
         p_clear, cloud_pct, cloud_warnings = weather.clear_probability(sites, ws.clouds, times_utc, tz=op.timezone)

@@ -127,7 +127,7 @@ def test_hourly_chances_are_vectorised_over_sites(recorded):
         darkness = (rng.random((3, 36)) > 0.3).astype(float)
         moon = rng.random((3, 36))
         activity = rng.random((3, 36))
-        cloud = rng.random((3, 36))
+        p_clear = rng.random((3, 36))
         chance = darkness
 
     first, p, dark = archive.hourly_chances(Grid, 120.0)
@@ -136,5 +136,5 @@ def test_hourly_chances_are_vectorised_over_sites(recorded):
     for i in range(3):
         for h in range(6):
             sl = slice(6 * h, 6 * h + 6)
-            assert p[i, h] == pytest.approx(chance.p_display_seen(shown[i, sl], Grid.cloud[i, sl],
+            assert p[i, h] == pytest.approx(chance.p_display_seen(shown[i, sl], Grid.p_clear[i, sl],
                                                                   10.0, 120.0), abs=1e-12)
