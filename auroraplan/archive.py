@@ -134,7 +134,14 @@ def record_issue(store, *, command: str, site_names, grid, summary, dates, setti
     hour_start = grid.times_utc[first_step]
     hour_lead = (hour_start - made64).astype("timedelta64[s]").astype(float) / 3600.0
     hour_night = grid.night_index[first_step]
-    hour_kind = grid.kind[first_step]
+    # Steps where the solar-wind nowcast shaped the Kp are kept as kind "nowcast".
+    weight = getattr(grid, "nowcast_weight", None)
+    step_kind = np.asarray(grid.kind, dtype=object).copy()
+    if weight is not None:
+        step_kind[np.asarray(weight) > 0] = "nowcast"
+    per_hour = int(round(60 / grid.step_min))
+    hour_kind = np.array([("nowcast" if (step_kind[j:j + per_hour] == "nowcast").any()
+                           else step_kind[j]) for j in first_step], dtype=object)
     factors = np.stack([np.nan_to_num(getattr(grid, name), nan=0.0) for name in FACTOR_ROWS]) \
         if grid.p_reach is not None else None
 
@@ -142,6 +149,9 @@ def record_issue(store, *, command: str, site_names, grid, summary, dates, setti
     for d, date in enumerate(dates):
         kind = summary.kind[d]
         cols = np.flatnonzero(grid.night_index == d)
+        if kind == "forecast" and (step_kind[cols][(grid.darkness[:, cols] > 0).any(axis=0)]
+                                   == "nowcast").any():
+            kind = "nowcast"
         if kind not in KINDS or cols.size == 0:
             continue
         outing = cols[grid.outing[cols]] if grid.outing[cols].any() else cols

@@ -20,6 +20,7 @@ DEMO = Path(__file__).resolve().parent.parent / "demo_sites"
 def recorded(tmp_path_factory):
     ws = tmp_path_factory.mktemp("archive") / "ws"
     shutil.copytree(DEMO, ws, ignore=shutil.ignore_patterns("auroraplan.sqlite*"))
+    store.open_store(store.database_path(ws)).close()  # as `week` or `logbook` would
     out = subprocess.run([sys.executable, "-m", "auroraplan.cli", "tonight", str(ws), "--date",
                           "2027-01-12", "--json", "--top", "100"], capture_output=True, text=True)
     assert out.returncode == 0, out.stderr
@@ -41,7 +42,7 @@ def test_tonight_keeps_the_night_chance_it_printed(recorded):
     for s in result["sites"]:
         assert rows[s["name"]]["chance"] == pytest.approx(s["chance"], abs=5e-4)
         assert rows[s["name"]]["night"] == "2027-01-12"
-        assert rows[s["name"]]["kind"] == "forecast"
+        assert rows[s["name"]]["kind"] in ("forecast", "nowcast")
 
 
 def test_tonight_keeps_the_chance_in_each_hour_it_printed(recorded):
@@ -86,13 +87,23 @@ def test_factors_rebuild_the_night_chance(recorded):
     assert again == pytest.approx([r["chance"] for r in rows], abs=1e-5)
 
 
-def test_no_record_leaves_no_database(tmp_path):
+def test_tonight_without_a_database_says_the_chances_were_not_kept(tmp_path):
     ws = tmp_path / "ws"
     shutil.copytree(DEMO, ws, ignore=shutil.ignore_patterns("auroraplan.sqlite*"))
     out = subprocess.run([sys.executable, "-m", "auroraplan.cli", "tonight", str(ws), "--date",
+                          "2027-01-12"], capture_output=True, text=True)
+    assert out.returncode == 0, out.stderr
+    assert "not kept" in out.stderr
+    assert not (ws / store.DATABASE_NAME).exists()
+
+
+def test_no_record_keeps_nothing(recorded):
+    ws, _ = recorded
+    count = len(_rows(ws, "SELECT * FROM issue_runs"))
+    out = subprocess.run([sys.executable, "-m", "auroraplan.cli", "tonight", str(ws), "--date",
                           "2027-01-12", "--no-record"], capture_output=True, text=True)
     assert out.returncode == 0, out.stderr
-    assert not (ws / store.DATABASE_NAME).exists()
+    assert len(_rows(ws, "SELECT * FROM issue_runs")) == count
 
 
 def test_pairing_takes_the_last_chance_before_going_out(tmp_path):
