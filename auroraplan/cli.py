@@ -18,6 +18,7 @@ COMMANDS = {
     "tonight": ("tonight", "tonight's shortlist of sites; the guide's phone page"),
     "nowcast": ("nowcast", "the next hours at every site from upstream solar-wind measurements"),
     "itinerary": ("itinerary", "printable PDF itinerary for a trip"),
+    "publish": ("publish", "every output for your workspace and dates, with an index page"),
     "season": ("season", "long-range chance per night and the best trip start dates"),
     "arrival": ("arrival", "arrival window of a coronal mass ejection and the nights it touches"),
     "logbook": ("logbook", "add or import what the guides saw (aurora, cloud) per site and night"),

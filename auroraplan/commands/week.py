@@ -13,12 +13,17 @@ from auroraplan import whatif
 from auroraplan.commands._common import add_record_options, int_range, iso_date
 
 
-def add_arguments(parser):
+def add_week_arguments(parser):
+    """The workspace and the nights to plan: shared by `week` and `publish`."""
     parser.add_argument("workspace", help="folder with operator.toml, sites.geojson, trips.csv ...")
     parser.add_argument("--start", type=iso_date, required=True,
                         help="first night, local date YYYY-MM-DD")
     parser.add_argument("--nights", type=int_range(1, 31), default=7,
                         help="number of nights (1 to 31, default 7)")
+
+
+def add_arguments(parser):
+    add_week_arguments(parser)
     parser.add_argument("--json", action="store_true", help="print the result as JSON")
     parser.add_argument("--no-record", action="store_true",
                         help="do not keep these chances in the workspace database "
@@ -26,6 +31,8 @@ def add_arguments(parser):
     parser.add_argument("--csv", metavar="FILE", help="also write ranked nights × sites as CSV")
     parser.add_argument("--ics", metavar="FILE",
                         help="also write the planned outings as an iCalendar file")
+    parser.add_argument("--png", metavar="FILE",
+                        help="also write the chart of the chance per night and site (PNG)")
     add_record_options(parser, who=True)
     whatif.add_arguments(parser)
 
@@ -42,7 +49,8 @@ def run(args):
 
     ws = load_workspace(args.workspace)
     protected = list(ws.files.values())
-    outputs = {k: check_output_path(v, protected) for k, v in (("csv", args.csv), ("ics", args.ics)) if v}
+    outputs = {k: check_output_path(v, protected)
+               for k, v in (("csv", args.csv), ("ics", args.ics), ("png", args.png)) if v}
     assumptions = whatif.from_args(args)
     ws, what_if = whatif.apply(ws, assumptions, *_evenings(ws, args.start, args.nights))
     with working(f"Planning {args.nights} nights for {len(ws.trips)} trips at {len(ws.sites)} sites",
@@ -62,6 +70,10 @@ def run(args):
         from auroraplan.runsheet import language
 
         payloads["ics"] = plan_ics(result, language(ws.operator.settings))
+    if "png" in outputs:
+        from auroraplan.render.charts import week_heatmap_png
+
+        payloads["png"] = week_heatmap_png(result["heatmap"])
     _write_all(outputs, payloads)
     if args.json:
         print_json({k: v for k, v in result.items() if k != "heatmap"})

@@ -1,0 +1,197 @@
+"""Write every output for your own workspace and dates into one folder, with an index page.
+
+The week plan (JSON, CSV), the calendar of outings, one run sheet per planned outing
+(the guide's phone page for that group and night), tonight's page for each night, one
+PDF itinerary per trip, the week heat map and the first night's timeline chart, and an
+index page that links them. Plans as `week` does, around the plan of record in the
+workspace database. Every file is made before any is written, so a failure leaves the
+folder as it was.
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+from pathlib import Path
+
+from auroraplan.commands._common import add_record_options
+
+# People first on the index page: pages, itineraries, charts; the data files last.
+KIND_ORDER = {".html": 0, ".pdf": 1, ".png": 2, ".ics": 3, ".csv": 4, ".json": 5}
+
+
+def add_arguments(parser):
+    from auroraplan.commands.week import add_week_arguments
+
+    add_week_arguments(parser)
+    parser.add_argument("--out", required=True, metavar="DIR",
+                        help="folder for the outputs (made if missing; not the workspace)")
+    add_record_options(parser, who=True)
+
+
+def run(args):
+    from auroraplan.commands._common import open_record
+    from auroraplan.commands._progress import progress_bar
+    from auroraplan.workspace import load_workspace
+
+    ws = load_workspace(args.workspace)
+    out = check_out_folder(Path(args.out), ws)
+    with open_record(args, ws, create=True) as db:
+        builder = OutputSet(ws, db, by=args.by)
+        steps = builder.steps(args.start, args.nights)
+        with progress_bar(len(steps), "Making the outputs") as bar:
+            for step in steps:
+                step()
+                bar.advance()
+    first, last = args.start, args.start + dt.timedelta(days=args.nights - 1)
+    builder.write(out, f"{ws.operator.name}: outputs for the nights {first} to {last}")
+    builder.print_summary(out, f"Outputs for {ws.operator.name}")
+    return 0
+
+
+def check_out_folder(out: Path, ws) -> Path:
+    """The output folder: not a file, not the workspace, not inside it."""
+    from auroraplan.errors import InputError
+
+    out = out.expanduser()
+    if out.exists() and not out.is_dir():
+        raise InputError(f"--out {out}: is a file; give a folder")
+    resolved, home = out.resolve(), Path(ws.path).resolve()
+    if resolved == home or home in resolved.parents:
+        raise InputError(f"--out {out}: is the workspace or inside it; choose a folder outside "
+                         "it so that your input files are never mixed with outputs")
+    return out
+
+
+def run_sheet_file_name(trip_id: str, date: str) -> str:
+    """run-sheet-<date>-<trip>.html with only [A-Za-z0-9._-] from the trip id."""
+    from auroraplan.commands.itinerary import itinerary_file_name
+
+    safe = itinerary_file_name(trip_id)[len("itinerary-"):-len(".pdf")]
+    return f"run-sheet-{date}-{safe}.html"
+
+
+class OutputSet:
+    """The outputs of one run, made in memory (file name -> bytes) and written at the end.
+
+    Each step adds files and index entries; :meth:`write` writes them all, then the
+    index page.
+    """
+
+    def __init__(self, ws, db, by: str | None = None):
+        self.ws, self.db, self.by = ws, db, by
+        self.files: dict[str, bytes] = {}
+        self.entries: list[dict] = []
+        self.state: dict = {}
+        self.tonight_reports: dict[str, dict] = {}
+
+    def add(self, name: str, data: bytes | str, title: str, description: str = "") -> None:
+        from auroraplan.errors import InputError
+
+        if name in self.files:
+            raise InputError(f"two outputs would both be written to {name}; give trips ids "
+                             "that differ in letters or digits")
+        self.files[name] = data.encode("utf-8") if isinstance(data, str) else data
+        self.entries.append({"title": title, "href": name, "description": description})
+
+    def tonight(self, date: dt.date) -> dict:
+        """Tonight's report of a night (every open site), made once per night."""
+        from auroraplan import report
+        from auroraplan.workspace import solar_wind_for
+
+        key = date.isoformat()
+        if key not in self.tonight_reports:
+            self.tonight_reports[key] = report.tonight_report(
+                self.ws, date, solar_wind=solar_wind_for(self.ws))
+        return self.tonight_reports[key]
+
+    def steps(self, start: dt.date, nights: int, plan=None) -> list:
+        """The steps for a week of nights from ``start``; ``plan`` (a week report) is made
+        from the plan of record when not given."""
+        ws = self.ws
+
+        def week():
+            from auroraplan import record
+            from auroraplan.commands.week import week_csv
+            from auroraplan.render.calendar import plan_ics
+            from auroraplan.runsheet import language
+
+            week = plan or record.propose_week(ws, start, nights, self.db, by=self.by)
+            self.state["week"] = week
+            self.add("week.json", _json(week), f"Week plan from {start} (JSON)",
+                     "ranked nights and sites per trip and the excursion plan")
+            self.add("week.csv", week_csv(week), "Week plan (CSV)",
+                     "one row per trip, night and ranked site")
+            self.add("excursions.ics", plan_ics(week, language(ws.operator.settings)),
+                     "Calendar of the planned outings", "iCalendar file for the office calendar")
+
+        def pages():
+            from auroraplan import runsheet
+            from auroraplan.commands.tonight import page_for
+
+            week = self.state["week"]
+            dates = [start + dt.timedelta(days=d) for d in range(nights)]
+            for date in dates:
+                night = self.tonight(date)
+                self.add(f"tonight-{date}.html", page_for(ws, night),
+                         f"Guide's phone page for the night of {date}",
+                         "every site ranked; works offline once saved on the phone")
+                for outing in (p for p in week["plan"] if p["date"] == date.isoformat()):
+                    sheet = runsheet.run_sheet(night, week, outing["trip"], ws.operator.settings)
+                    self.add(run_sheet_file_name(outing["trip"], outing["date"]),
+                             page_for(ws, night, sheet),
+                             f"Run sheet {outing['date']} {outing['trip']}: {outing['group']}",
+                             "pick-up, site, where to look, go / wait / swap")
+
+        def itineraries():
+            from auroraplan.commands.itinerary import itinerary_file_name
+            from auroraplan.render.itinerary_pdf import itinerary_pdf
+
+            week = self.state["week"]
+            for trip in (t for t in week["trips"] if t["nights"]):
+                self.add(itinerary_file_name(trip["trip"]),
+                         itinerary_pdf(week, trip["trip"], operator_settings=ws.operator.settings),
+                         f"Itinerary {trip['trip']}: {trip['group']}",
+                         f"{trip['guests']} guests, {trip['arrive']} to {trip['depart']}")
+
+        def charts():
+            from auroraplan import report
+            from auroraplan.render import charts
+
+            self.add("week-heatmap.png", charts.week_heatmap_png(self.state["week"]["heatmap"]),
+                     "Chance per night and site", "the week at a glance, sites by nights")
+            night = self.tonight(start)
+            if night["sites"]:
+                top = night["sites"][0]["name"]
+                self.add(f"night-timeline-{start}.png",
+                         charts.night_timeline_png(report.site_timeline(ws, start, top)),
+                         f"Night timeline at {top}, {start}",
+                         "sun and moon, darkness, Kp needed against forecast Kp, cloud, chance")
+
+        return [week, pages, itineraries, charts]
+
+    def write(self, out: Path, title: str) -> None:
+        """Write every file, then the index page (each file whole or not at all)."""
+        from auroraplan.outfiles import write_bytes_atomic
+        from auroraplan.render.index_page import index_html
+        from auroraplan.report import made_at
+
+        self.entries.sort(key=lambda e: KIND_ORDER.get(Path(e["href"]).suffix, 9))
+        index = index_html(title, made_at(self.ws.operator.timezone), self.entries)
+        out.mkdir(parents=True, exist_ok=True)
+        for name, data in self.files.items():
+            write_bytes_atomic(out / name, data)
+        write_bytes_atomic(out / "index.html", index.encode("utf-8"))
+
+    def print_summary(self, out: Path, heading: str) -> None:
+        print(f"{heading} written to {out.resolve()}/")
+        for entry in self.entries:
+            print(f"  {entry['href']:<36} {entry['title']}")
+        print(f"Open {out.resolve() / 'index.html'} in a browser.")
+
+
+def _json(obj) -> str:
+    import json
+
+    from auroraplan.commands._common import _json_default
+
+    return json.dumps(obj, indent=2, ensure_ascii=False, default=_json_default) + "\n"
