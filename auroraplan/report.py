@@ -292,6 +292,8 @@ def tonight_report(ws, date: dt.date, top: int | None = None, now=None, climatol
         "closed_note": closed_note,
         "nowcast": nowcast_info(cast, solar_wind, grid, tz),
         "sites": rows,
+        "chance_terms": CHANCE_TERMS,
+        "chance_explained": CHANCE_EXPLAINED,
         "warnings": list(dict.fromkeys(ws.warnings + grid.warnings)),
         "cautions": CAUTIONS,
         "notice": FORECAST_NOT_PROMISE,
@@ -316,12 +318,55 @@ def _rank(p_any_column):
     return list(np.lexsort((np.arange(len(key)), -key)))
 
 
+CHANCE_TERMS = {
+    "chance": "chance of a sighting during the outing window",
+    "chance_in_hour": "chance of a sighting in this hour",
+    "chance_by_time": "chance of a sighting by this time",
+}
+"""The three chance figures, each with one name and one definition wherever shown:
+``chance`` is P(at least one display seen) over the night's dark outing hours at a
+site; ``chance_in_hour`` the same over one clock hour; ``chance_by_time`` the same
+from the start of the night up to a time (it ends at ``chance``)."""
+
+CHANCE_EXPLAINED = (
+    "The night's figure is the chance of a sighting during the outing window; each hour's "
+    "bar is the chance of a sighting in that hour alone, so the night's figure is higher "
+    "than any one hour's."
+)
+
+OVERHEAD_WORDS = "overhead; the whole sky, watch toward the equator too"
+
+
+def look_fields(grid, i, step) -> dict:
+    """Where to look at site ``i`` and time step ``step``, for the Kp forecast then.
+
+    ``look_words`` says it in one phrase: the compass point and height, or
+    ``OVERHEAD_WORDS`` when the band is over the site.
+    """
+    az = grid.look_azimuth_deg[i, step]
+    el = grid.look_elevation_deg[i, step]
+    overhead = bool(grid.overhead[i, step])
+    words = None
+    if overhead:
+        words = OVERHEAD_WORDS
+    elif np.isfinite(az):
+        words = f"{compass_point(az)} {round(float(az)) % 360}°"
+        if np.isfinite(el):
+            words += f", {round(float(el))}° up"
+    return {
+        "look_azimuth": _num(az, 0),
+        "look_compass": compass_point(az) if np.isfinite(az) else None,
+        "look_elevation": _num(el, 0),
+        "overhead": overhead,
+        "look_words": words,
+    }
+
+
 def _tonight_site(ws, grid, summary, site, i, rank, tz):
     p = summary.p_any[i, 0]
     step = summary.peak_step[i, 0]
     if step < 0:  # no darkness: describe the middle of the night
         step = len(grid.times_utc) // 2
-    az = grid.look_azimuth_deg[i, step]
     dark = grid.darkness[i] > 0
     moon_up = (grid.moon_alt[i] > 0) & dark
     hourly = hourly_chance(grid, i, tz, settings_for(ws))
@@ -338,10 +383,8 @@ def _tonight_site(ws, grid, summary, site, i, rank, tz):
         "expected_minutes": _num(summary.expected_min[i, 0], 1),
         "limiting": summary.limiting[i, 0],
         "kp_needed": _num(grid.kp_needed[i, step], 2),
-        "kp_forecast": _num(grid.kp_mean[step], 2),
-        "look_azimuth": _num(az, 0),
-        "look_compass": compass_point(az) if np.isfinite(az) else None,
-        "look_elevation": _num(grid.look_elevation_deg[i, step], 0),
+        "kp": _num(grid.kp_mean[step], 2),
+        **look_fields(grid, i, step),
         "cloud_pct": _num(cloud_window, 0),
         "moon_illumination": _num(np.mean(grid.moon_illumination), 2),
         "moon_up_hours": _num(moon_up.sum() * grid.step_min / 60.0, 1),
@@ -351,28 +394,84 @@ def _tonight_site(ws, grid, summary, site, i, rank, tz):
     }
 
 
+def _hour_blocks(grid):
+    """(first step, slice) of each elapsed hour of the grid, counted from its first step."""
+    per_hour = int(round(60 / grid.step_min))
+    return [(start, slice(start, start + per_hour))
+            for start in range(0, len(grid.times_utc), per_hour)]
+
+
 def hourly_chance(grid, i, tz, settings=None):
-    """P(a display is seen) in each dark clock hour of the night at site ``i``.
+    """The chance of a sighting in each dark clock hour of the night at site ``i``.
+
+    Each row: ``chance_in_hour`` (P(at least one display seen in that hour),
+    :func:`auroraplan.chance.p_display_seen` over the hour's steps),
+    ``chance_if_clear`` (the same with a clear sky) and ``p_clear`` (mean P(clear)
+    over the hour's dark steps), so that ``chance_in_hour`` is about
+    ``chance_if_clear × p_clear`` and the night's ``chance`` follows from the
+    hours by the same rule; and at the middle of the hour the forecast ``kp``
+    (null where the forecast has no block), ``cloud_pct`` (hour mean, null
+    without a cloud forecast) and where to look (:func:`look_fields`).
 
     Hours are counted in elapsed time from local noon, so a night when the clocks go
     forward has one hour fewer and a night when they go back has the repeated hour twice,
     told apart by the UTC offset in ``time`` and the abbreviation in ``zone``.
     """
+    return [row for _, row in _hourly_rows(grid, i, tz, settings)]
+
+
+def _hourly_rows(grid, i, tz, settings):
+    """(slice of steps, row) per dark hour; see :func:`hourly_chance`."""
     from auroraplan.chance import DEFAULT_SETTINGS, p_display_seen
 
     cfg = dict(DEFAULT_SETTINGS, **(settings or {}))
-    per_hour = int(round(60 / grid.step_min))
+    tau = cfg["decorrelation_min"]
     shown = grid.darkness[i] * grid.moon[i] * grid.activity[i]
     rows = []
-    for start in range(0, len(grid.times_utc), per_hour):
-        sl = slice(start, start + per_hour)
-        if not (grid.darkness[i, sl] > 0).any():
+    for start, sl in _hour_blocks(grid):
+        dark = grid.darkness[i, sl] > 0
+        if not dark.any():
             continue
-        p = p_display_seen(shown[sl], grid.p_clear[i, sl], grid.step_min, cfg["decorrelation_min"])
-        rows.append({"time": local_iso(grid.times_utc[start], tz), "zone": _zone_name(
-            grid.times_utc[start], tz), "chance": _num(p, 3),
-            "kp_from": _kp_from(grid, sl)})
+        mid = min(start + dark.size // 2, len(grid.times_utc) - 1)
+        cloud = grid.cloud_pct[i, sl]
+        rows.append((sl, {
+            "time": local_iso(grid.times_utc[start], tz),
+            "zone": _zone_name(grid.times_utc[start], tz),
+            "chance_in_hour": _num(p_display_seen(shown[sl], grid.p_clear[i, sl],
+                                                  grid.step_min, tau), 3),
+            "chance_if_clear": _num(p_display_seen(shown[sl], np.ones(dark.size),
+                                                   grid.step_min, tau), 3),
+            "p_clear": _num(np.mean(grid.p_clear[i, sl][dark]), 3),
+            "kp": _num(grid.kp_mean[mid], 2),
+            "cloud_pct": _num(np.nanmean(cloud), 0) if np.isfinite(cloud).any() else None,
+            "kp_from": _kp_from(grid, sl),
+            **look_fields(grid, i, mid),
+        }))
     return rows
+
+
+def chance_by_time(grid, i, settings=None) -> np.ndarray:
+    """P(at least one display seen) from the start of the night up to each step (T,).
+
+    Same rule as the night's ``chance`` (:func:`auroraplan.chance.p_display_seen`),
+    over a growing prefix of the night; its last value is the night's chance.
+    """
+    from auroraplan.chance import DEFAULT_SETTINGS, p_display_seen
+
+    cfg = dict(DEFAULT_SETTINGS, **(settings or {}))
+    shown = np.nan_to_num(grid.darkness[i] * grid.moon[i] * grid.activity[i], nan=0.0)
+    return np.array([p_display_seen(shown[:k + 1], grid.p_clear[i, :k + 1], grid.step_min,
+                                    cfg["decorrelation_min"])
+                     for k in range(len(grid.times_utc))])
+
+
+def _per_step_hourly(grid, i, tz, settings) -> list:
+    """Each step's ``chance_in_hour``: that of the hour holding it (0 in hours without
+    darkness), so a chart draws the same numbers as the page's hour bars."""
+    out = [0.0] * len(grid.times_utc)
+    for sl, row in _hourly_rows(grid, i, tz, settings):
+        out[sl] = [row["chance_in_hour"]] * len(out[sl])
+    return out
 
 
 def _kp_from(grid, sl) -> str:
@@ -492,7 +591,9 @@ def site_timeline(ws, date: dt.date, site_name: str, climatology=None) -> dict:
         "kp_forecast": [_num(v, 2) for v in grid.kp_mean],
         "kp_sd": [_num(v, 2) for v in grid.kp_sd],
         "cloud_pct": [_num(v, 1) for v in grid.cloud_pct[0]],
-        "chance": [_num(v, 4) if np.isfinite(v) else 0.0 for v in grid.chance[0]],
+        "chance_in_hour": _per_step_hourly(grid, 0, tz, cfg),
+        "chance_by_time": [_num(v, 4) for v in chance_by_time(grid, 0, cfg)],
+        "chance_terms": {k: CHANCE_TERMS[k] for k in ("chance_in_hour", "chance_by_time")},
     }
 
 
@@ -609,8 +710,9 @@ def week_report(ws, start: dt.date, nights: int = 7, progress=None, now=None,
             "lat": site.lat, "lon": site.lon,
             "backup_lat": sites[b].lat if b is not None else None,
             "backup_lon": sites[b].lon if b is not None else None,
-            "look_azimuth": _num(grid.look_azimuth_deg[s, summary.peak_step[s, d]], 0)
-            if summary.peak_step[s, d] >= 0 else None,
+            **(look_fields(grid, s, summary.peak_step[s, d]) if summary.peak_step[s, d] >= 0
+               else {"look_azimuth": None, "look_compass": None, "look_elevation": None,
+                     "overhead": False, "look_words": None}),
             "kind": summary.kind[d],
             "state": fixed_at.get((r, d), (None, "proposed"))[1],
         })

@@ -546,7 +546,7 @@ def test_kp_0_and_9_stay_in_range(extreme_kp):
     for kp in (0, 9):
         for site in extreme_kp[kp]["tonight"]["sites"]:
             assert 0.0 <= site["chance"] <= 1.0
-            assert all(0.0 <= h["chance"] <= 1.0 for h in site["hourly"])
+            assert all(0.0 <= h["chance_in_hour"] <= 1.0 for h in site["hourly"])
         for row in extreme_kp[kp]["week"]["heatmap"]["chance"]:
             assert all(v is None or (math.isfinite(v) and 0.0 <= v <= 1.0) for v in row)
 

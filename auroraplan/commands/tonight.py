@@ -160,8 +160,13 @@ STACK_BELOW = 60
 def _cells(s) -> dict:
     from auroraplan.commands._text import chance_cell, span
 
-    look = (f"{s['look_compass']} {s['look_azimuth']:.0f}°" if s["look_azimuth"] is not None
-            else "—")
+    look = "—"
+    if s.get("overhead"):
+        look = "overhead, whole sky"
+    elif s["look_azimuth"] is not None:
+        look = f"{s['look_compass']} {s['look_azimuth']:.0f}°"
+        if s.get("look_elevation") is not None:
+            look += f", {s['look_elevation']:.0f}° up"
     return {
         "#": str(s["rank"]), "site": s["name"], "chance": chance_cell(s["chance"]),
         "window": span(s["window_start"], s["window_end"]) if s["window_start"] else "—",

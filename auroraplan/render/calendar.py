@@ -32,7 +32,9 @@ def _description(outing: dict, report: dict, w: Words) -> str:
         w("Best window: {window}",
           window=style.time_span(outing.get("window_start"), outing.get("window_end"))),
     ]
-    if outing.get("look_azimuth") is not None:
+    if outing.get("look_words"):
+        lines.append(f"Look: {outing['look_words']} (true bearing)")
+    elif outing.get("look_azimuth") is not None:
         az = outing["look_azimuth"]
         lines.append(w("Look towards: {deg}° true ({compass})", deg=round(az) % 360,
                        compass=w(style.compass_point(az))))

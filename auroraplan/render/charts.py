@@ -101,14 +101,18 @@ def night_timeline_png(timeline: dict) -> bytes:
     ----------
     timeline : dict
         ``times`` (local ISO 8601), ``sun_alt``, ``moon_alt`` (degrees), ``dark`` (bool),
-        ``kp_needed``, ``kp_forecast``, ``kp_sd``, ``cloud_pct`` (null where none) and
-        ``chance`` (0..1), all at the same 10-minute steps; ``timezone`` (IANA).
+        ``kp_needed``, ``kp_forecast``, ``kp_sd``, ``cloud_pct`` (null where none),
+        ``chance_in_hour`` (0..1: the chance of a sighting in the hour holding each
+        step, the same figure as the phone page's hour bars) and ``chance_by_time``
+        (0..1: the chance of a sighting by that time, ending at the night's chance),
+        all at the same 10-minute steps; ``timezone`` (IANA).
 
     Returns
     -------
     bytes
         PNG, 1600 × 900 px: sun and moon altitude with the dark hours shaded; Kp needed
-        against forecast Kp with a ±1 sd band; cloud cover; the chance.
+        against forecast Kp with a ±1 sd band; cloud cover; the chance in each hour as
+        steps and the chance by each time as a line.
     """
     import matplotlib
     from matplotlib.dates import DateFormatter, HourLocator
@@ -149,11 +153,14 @@ def night_timeline_png(timeline: dict) -> bytes:
         cloud.set_ylim(0, 100)
         cloud.set_ylabel("cloud (%)")
 
-        ch = 100 * _floats(timeline["chance"])
-        chance.fill_between(times, 0, ch, color=style.AMBER_LIGHT, lw=0)
-        chance.plot(times, ch, color=style.AMBER_INK, lw=2)
-        chance.set_ylim(0, max(50.0, np.nanmax(np.r_[ch, 0.0]) * 1.15))
+        ch = 100 * _floats(timeline["chance_in_hour"])
+        by = 100 * _floats(timeline["chance_by_time"])
+        chance.fill_between(times, 0, ch, color=style.AMBER_LIGHT, lw=0, step="post",
+                            label="chance in this hour")
+        chance.plot(times, by, color=style.AMBER_INK, lw=2, label="chance by this time")
+        chance.set_ylim(0, 105)
         chance.set_ylabel("chance (%)")
+        chance.legend(loc="upper left", ncols=2)
         chance.xaxis.set_major_locator(HourLocator(byhour=range(0, 24, 2), tz=zone))
         chance.xaxis.set_major_formatter(DateFormatter("%H:%M", tz=zone))
         chance.set_xlabel(f"local time ({timeline.get('timezone', 'UTC')})")

@@ -108,6 +108,8 @@ def _night_cells(night: dict, outing: dict | None, w: Words) -> list[str]:
                 else w(FREE_EVENING))
         return [_p(_day(night["date"], w)), _p(w("No")), _p(what), "—", "—", "—"]
     where = f"<b>{_p(outing['site'])}</b>"
+    if outing.get("look_words"):
+        where += f"<br/>look: {_p(outing['look_words'])}"
     if outing.get("backup"):
         where += "<br/>" + _p(w("backup: {site}", site=outing["backup"]))
         if outing.get("backup_chance") is not None:

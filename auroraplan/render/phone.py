@@ -186,7 +186,7 @@ def hour_strip_svg(hourly: list[dict], width: int = 320, height: int = 84,
         f'stroke="currentColor" stroke-width=".75" stroke-dasharray="3 3"/>',
     ]
     for i, h in enumerate(hourly):
-        c = min(max(float(h.get("chance") or 0.0), 0.0), 1.0)
+        c = min(max(float(h.get("chance_in_hour") or 0.0), 0.0), 1.0)
         bar = span * c
         x = i * step
         parts.append(
@@ -210,22 +210,22 @@ def hour_strip_svg(hourly: list[dict], width: int = 320, height: int = 84,
 
 
 def _strip_words(hourly: list[dict], w: Words) -> str:
-    best = max(hourly, key=lambda h: h.get("chance") or 0.0)
-    return w("Chance in each hour; highest {percent} at {time}",
-             percent=w.percent(best.get("chance")), time=w.clock(best["time"]))
+    best = max(hourly, key=lambda h: h.get("chance_in_hour") or 0.0)
+    return w("Chance of a sighting in each hour; highest {percent} at {time}",
+             percent=w.percent(best.get("chance_in_hour")), time=w.clock(best["time"]))
 
 
 def _look_text(site: dict, w: Words) -> str | None:
     az = site.get("look_azimuth")
     if az is None:
         return None
+    if site.get("overhead"):
+        return w("overhead; the whole sky, watch toward the equator too")
     compass = site.get("look_compass") or style.compass_point(az)
     elev = site.get("look_elevation")
     text = w("{deg}° true ({compass})", deg=round(az) % 360, compass=w(compass))
     if elev is not None:
         text += ", " + w("{deg}° above the horizon", deg=round(elev))
-    if site.get("overhead"):
-        text += ", " + w("overhead too")
     return text
 
 
@@ -238,7 +238,7 @@ def _look(site: dict, w: Words) -> str:
 
 
 def _kp(site: dict, w: Words) -> str:
-    need, fc = site.get("kp_needed"), site.get("kp_forecast")
+    need, fc = site.get("kp_needed"), site.get("kp")
     if need is None:
         need_t = w("needs Kp above 9")
     elif need <= 0.0:
@@ -295,7 +295,7 @@ def site_item(site: dict, words: Words | None = None) -> str:
         f'<li id="site-{_e(rank)}"><h3><span class="rank">{_e(rank)}</span>'
         f"<span>{_e(site['name'])}</span></h3>"
         f'<p class="chance"><strong>{_e(words_t)}</strong> · {_e(w.percent(site.get("chance")))}'
-        f" · {_e(window_t)}</p>"
+        f" {_e(w('during the outing window'))} · {_e(window_t)}</p>"
         f"<dl>{dl}</dl>"
         f"{hour_strip_svg(site.get('hourly') or [], words=w)}"
         f"{notes_html}"
@@ -409,7 +409,12 @@ def _shortlist(report: dict, w: Words) -> str:
     sites = sorted(report.get("sites") or [], key=lambda s: s.get("rank") or 0)
     items = "".join(site_item(s, w) for s in sites)
     empty = w(report.get("closed_note") or "No site has a usable chance tonight.")
-    return f'<ol class="sites">{items}</ol>' if items else f"<p>{_e(empty)}</p>"
+    if not items:
+        return f"<p>{_e(empty)}</p>"
+    explained = report.get("chance_explained")
+    note = f'<p class="facts">{_e(w(explained))}</p>' if explained else ""
+    return f'{note}<ol class="sites">{items}</ol>'
+
 
 
 def phone_page_html(report: dict, language: str = "en") -> str:
