@@ -109,10 +109,10 @@ def test_tonight_hours_after_the_turning_rise_against_a_field_staying_north(turn
     for site in ("Birch Shore", "Fell Top", "River Bend"):
         after_s, after_n = hour(south, site, "23:00"), hour(north, site, "23:00")
         assert after_s["kp_from"] == after_n["kp_from"] == "solar wind"
-        assert after_s["chance"] > after_n["chance"] + 0.2
+        assert after_s["chance_in_hour"] > after_n["chance_in_hour"] + 0.2
         # Before the turning arrives both files say the same.
-        assert hour(south, site, "21:00")["chance"] == pytest.approx(
-            hour(north, site, "21:00")["chance"], abs=1e-3)
+        assert hour(south, site, "21:00")["chance_in_hour"] == pytest.approx(
+            hour(north, site, "21:00")["chance_in_hour"], abs=1e-3)
 
 
 def test_a_quiet_file_reads_quiet(turning):
