@@ -54,7 +54,7 @@ def test_tonight_keeps_the_chance_in_each_hour_it_printed(recorded):
         assert len(kept) == len(shown)
         for h in shown:
             utc = dt.datetime.fromisoformat(h["time"]).astimezone(dt.UTC)
-            assert kept[utc.strftime("%Y-%m-%dT%H:%M:%SZ")] == pytest.approx(h["chance"], abs=5e-4)
+            assert kept[utc.strftime("%Y-%m-%dT%H:%M:%SZ")] == pytest.approx(h["chance_in_hour"], abs=5e-4)
 
 
 def test_the_run_keeps_its_inputs_settings_and_lead_time(recorded):
