@@ -1171,8 +1171,8 @@ def nowcast_report(ws, solar_wind, hours: int = 2, at: dt.datetime | None = None
     -------
     dict
         ``hours``: per hour from the start, Kp (mean, spread) and where it came from;
-        ``sites``: open sites by the chance in the first hour, each with the "chance in
-        this hour" per hour (P(a display is seen within the hour), the same definition as
+        ``sites``: open sites by the chance in the first hour, each with
+        ``chance_in_hour`` per hour (P(a display is seen within the hour), the same definition as
         the hourly figures of ``tonight``) and where to look.
     """
     from auroraplan import chance
@@ -1203,15 +1203,11 @@ def nowcast_report(ws, solar_wind, hours: int = 2, at: dt.datetime | None = None
                                         cfg["decorrelation_min"]) for sl in by_hour], axis=1)
     rows = []
     for i in (_rank(p[:, 0]) if sites else []):
-        mid = per_hour // 2
-        az = grid.look_azimuth_deg[i, mid]
         rows.append({
             "name": sites[i].name,
-            "chance_by_hour": [_num(x, 3) for x in p[i]],
+            "chance_in_hour": [_num(x, 3) for x in p[i]],
             "dark": bool(grid.darkness[i, by_hour[0]].any()),
-            "look_azimuth": _num(az, 0),
-            "look_compass": compass_point(az) if np.isfinite(az) else None,
-            "look_elevation": _num(grid.look_elevation_deg[i, mid], 0),
+            **look_fields(grid, i, per_hour // 2),
             "cloud_pct": _num(np.nanmean(grid.cloud_pct[i, by_hour[0]])
                               if np.isfinite(grid.cloud_pct[i, by_hour[0]]).any() else np.nan, 0),
             "drive_min": sites[i].drive_min,
@@ -1237,6 +1233,7 @@ def nowcast_report(ws, solar_wind, hours: int = 2, at: dt.datetime | None = None
         "hours": hour_rows,
         "closed_note": all_closed_note(ws),
         "sites": rows,
+        "chance_terms": {"chance_in_hour": CHANCE_TERMS["chance_in_hour"]},
         "notes": notes,
         "warnings": list(dict.fromkeys(ws.warnings + grid.warnings)),
         "cautions": CAUTIONS,

@@ -81,10 +81,9 @@ def print_next_hours(result):
         table.add_column(f"{clock(h['from'])}–{clock(h['to'])}", justify="right")
     table.add_column("look")
     for s in result["sites"]:
-        look = (f"{s['look_compass']} {s['look_azimuth']:.0f}° {s['look_elevation']:.0f}° up"
-                if s["look_azimuth"] is not None else "—")
-        cells = [chance_cell(c) if s["dark"] or c else "light" for c in s["chance_by_hour"]]
+        look = "overhead, whole sky" if s["overhead"] else (s["look_words"] or "—")
+        cells = [chance_cell(c) if s["dark"] or c else "light" for c in s["chance_in_hour"]]
         table.add_row(escape(s["name"]), *cells, look)
     out.print(table)
-    out.print("[dim]chance in this hour: the chance of seeing a display within that hour[/]")
+    out.print(f"[dim]each hour: the {result['chance_terms']['chance_in_hour']}[/]")
     out.print(f"[dim]{escape(result['notice'])}[/]")
