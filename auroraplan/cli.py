@@ -22,6 +22,7 @@ COMMANDS = {
     "season": ("season", "long-range chance per night and the best trip start dates"),
     "arrival": ("arrival", "arrival window of a coronal mass ejection and the nights it touches"),
     "logbook": ("logbook", "add or import what the guides saw (aurora, cloud) per site and night"),
+    "verify": ("verify", "how good the issued chances have been against the logbook"),
 }
 
 

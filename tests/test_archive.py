@@ -149,3 +149,27 @@ def test_hourly_chances_are_vectorised_over_sites(recorded):
             sl = slice(6 * h, 6 * h + 6)
             assert p[i, h] == pytest.approx(chance.p_display_seen(shown[i, sl], Grid.p_clear[i, sl],
                                                                   10.0, 120.0), abs=1e-12)
+
+
+def test_verify_json_brier_is_the_mean_over_the_pairs_it_lists(recorded, tmp_path):
+    ws, result = recorded
+    rows = ["site,night,aurora"] + [f"{s['name']},2027-01-12,{'clear' if i % 2 else 'none'}"
+                                    for i, s in enumerate(result["sites"])]
+    path = tmp_path / "logbook.csv"
+    path.write_text("\n".join(rows) + "\n", encoding="utf-8")
+    run = [sys.executable, "-m", "auroraplan.cli"]
+    assert subprocess.run([*run, "logbook", "import", str(ws), str(path)]).returncode == 0
+    png = tmp_path / "reliability.png"
+    out = subprocess.run([*run, "verify", str(ws), "--json", "--png", str(png)],
+                         capture_output=True, text=True)
+    assert out.returncode == 0, out.stderr
+    assert png.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+    got = json.loads(out.stdout)
+    pairs = got["pairs"]
+    assert len(pairs) == len(result["sites"])
+    mean = np.mean([(p["chance"] - p["outcome"]) ** 2 for p in pairs])
+    assert abs(got["overall"]["brier"] - mean) < 1e-9
+    assert got["overall"]["more_needed"] > 0
+    # the skill score's reference is the climatology outlook of the same sites and night
+    ref = [(p["outlook"] - p["outcome"]) ** 2 for p in pairs]
+    assert got["overall"]["brier_reference"] == pytest.approx(np.mean(ref), abs=1e-9)

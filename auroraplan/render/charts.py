@@ -22,6 +22,7 @@ SIZE_PX = {
     "heatmap": (1600, 900),
     "oval": (1200, 1200),
     "season": (1600, 900),
+    "reliability": (1100, 1100),
 }
 EARTH_RADIUS_KM = 6371.0  # mean radius, IUGG (Moritz 2000, Geodetic Reference System 1980)
 
@@ -461,4 +462,46 @@ def season_calendar_png(season: dict) -> bytes:
         hours.xaxis.set_major_locator(MonthLocator())
         hours.xaxis.set_major_formatter(DateFormatter("%b"))
         fig.suptitle(season.get("title", ""), x=0.01, ha="left", fontsize=16, fontweight="bold")
+        return _png(fig)
+
+
+def reliability_png(scores: dict, title: str) -> bytes:
+    """Reliability diagram: issued chance (bin mean) against observed frequency with the
+    Wilson 95 % interval per bin, the diagonal of perfect reliability, the base rate, and
+    the number of pairs per bin beneath (Wilks 2011, Statistical Methods in the
+    Atmospheric Sciences, 3rd ed., 8.4.4). ``scores`` is one entry of verify.scores."""
+    import matplotlib
+
+    rows = [b for b in scores["reliability"] if b["count"]]
+    with matplotlib.rc_context(RC):
+        fig = _figure("reliability")
+        grid = fig.add_gridspec(2, 1, height_ratios=(4, 1))
+        ax = fig.add_subplot(grid[0])
+        counts = fig.add_subplot(grid[1], sharex=ax)
+        ax.plot([0, 1], [0, 1], color=style.SLATE, linewidth=1, linestyle=(0, (4, 3)),
+                label="chance = how often it happened")
+        base = scores["decomposition"]["base_rate"]
+        if base is not None:
+            ax.axhline(base, color=style.RULE, linewidth=1.2,
+                       label=f"base rate {100 * base:.0f} %")
+        if rows:
+            x = np.array([b["mean_chance"] for b in rows])
+            y = np.array([b["observed"] for b in rows])
+            low = np.maximum(y - np.array([b["observed_low"] for b in rows]), 0.0)
+            high = np.maximum(np.array([b["observed_high"] for b in rows]) - y, 0.0)
+            ax.errorbar(x, y, yerr=[low, high], fmt="o", color=style.AMBER_INK,
+                        ecolor=style.AMBER, elinewidth=2, capsize=4, markersize=8,
+                        label="observed, with 95 % interval (Wilson)")
+        ax.set_xlim(0, 1)
+        ax.set_ylim(0, 1)
+        ax.set_ylabel("how often aurora was seen")
+        ax.set_title(title, loc="left")
+        ax.legend(loc="upper left")
+        edges = [b["low"] for b in scores["reliability"]]
+        width = edges[1] - edges[0] if len(edges) > 1 else 0.1
+        counts.bar([b["low"] + width / 2 for b in scores["reliability"]],
+                   [b["count"] for b in scores["reliability"]], width=width * 0.9,
+                   color=style.TEAL)
+        counts.set_ylabel("pairs")
+        counts.set_xlabel("issued chance of a sighting during the outing window")
         return _png(fig)

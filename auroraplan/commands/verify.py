@@ -1,0 +1,175 @@
+"""How good have the chances been? Pair each logbook outcome with the chance issued for it.
+
+Each site and night in the logbook (several entries of one site and night
+count once: aurora seen if any entry saw it) is paired with the chance of a
+sighting during the outing window that was issued last before the group went
+out (see auroraplan.archive). Scores per kind (forecast, outlook, nowcast)
+and overall: Brier score, reliability table with Wilson intervals, the Brier
+decomposition and the ROC area (auroraplan.verify).
+"""
+
+from auroraplan.commands._common import iso_date
+
+
+def add_arguments(parser):
+    from auroraplan.logbook import AURORA_LEVELS
+
+    parser.add_argument("workspace", help="the workspace folder")
+    parser.add_argument("--from", dest="first", type=iso_date, help="first night, YYYY-MM-DD")
+    parser.add_argument("--to", dest="last", type=iso_date, help="last night, YYYY-MM-DD")
+    parser.add_argument("--seen-from", choices=AURORA_LEVELS[1:], default="faint",
+                        help="the weakest aurora that counts as a sighting (default faint)")
+    parser.add_argument("--json", action="store_true", help="print everything as JSON")
+    parser.add_argument("--png", metavar="FILE", help="also write the reliability diagram to FILE")
+
+
+def run(args):
+    from auroraplan import archive, verify
+    from auroraplan.commands._common import print_json
+    from auroraplan.errors import InputError
+    from auroraplan.logbook import AURORA_LEVELS, stored_entries
+    from auroraplan.store import database_path, open_store, protected_files
+    from auroraplan.workspace import load_workspace
+
+    ws = load_workspace(args.workspace)
+    png_path = None
+    if args.png:
+        from auroraplan.outfiles import check_output_path
+
+        png_path = check_output_path(args.png, list(ws.files.values())
+                                     + protected_files(database_path(ws.path)))
+    db = open_store(database_path(ws.path), create=False)
+    if db is None:
+        raise InputError(f"{database_path(ws.path)}: no workspace database yet; run `week` and "
+                         "`logbook import` first")
+    tz = ws.operator.timezone
+    with db:
+        entries = stored_entries(db, args.first and args.first.isoformat(),
+                                 args.last and args.last.isoformat())
+        outcomes = {}
+        for e in entries:
+            key = (e.site, e.night)
+            level, start = outcomes.get(key, ("none", None))
+            best = max(level, e.aurora, key=AURORA_LEVELS.index)
+            starts = [s for s in (start, e.out_from) if s]
+            outcomes[key] = (best, min(starts) if starts else None)
+        pairs, unpaired = [], 0
+        for (site, night), (level, out_from) in sorted(outcomes.items(), key=lambda kv: kv[0][::-1]):
+            got = archive.issued_for(db, site, night, out_from, tz)
+            if got is None:
+                unpaired += 1
+                continue
+            seen = AURORA_LEVELS.index(level) >= AURORA_LEVELS.index(args.seen_from)
+            pairs.append({"site": site, "night": night, "aurora": level, "outcome": int(seen),
+                          "chance": got.chance, "kind": got.kind, "made_at": got.made_at,
+                          "lead_hours": got.lead_hours, "after_start": got.after_start})
+    reference = outlook_chances(ws, pairs)
+    for p in pairs:
+        p["outlook"] = reference.get((p["site"], p["night"]))
+
+    def scored(chosen):
+        with_ref = all(p["outlook"] is not None for p in chosen)
+        return verify.scores([p["chance"] for p in chosen], [p["outcome"] for p in chosen],
+                             [p["outlook"] for p in chosen] if with_ref and chosen else None)
+
+    result = {
+        "workspace": str(ws.path),
+        "seen_from": args.seen_from,
+        "pairing": "the chance of a sighting during the outing window issued last before the "
+                   "group went out (logged hours out, else the outing hours); where every "
+                   "chance was made later, the first one (after_start)",
+        "logged_site_nights": len(outcomes),
+        "unpaired": unpaired,
+        "after_start": sum(p["after_start"] for p in pairs),
+        "reference": "the Kp-climatology outlook: the same chance model with Kp from "
+                     "climatology and each site's monthly clear-sky share, no forecasts",
+        "overall": scored(pairs),
+        "by_kind": {k: scored([p for p in pairs if p["kind"] == k])
+                    for k in archive.KINDS if any(p["kind"] == k for p in pairs)},
+        "pairs": pairs,
+    }
+    if png_path:
+        from auroraplan.outfiles import write_bytes_atomic
+        from auroraplan.render.charts import reliability_png
+
+        write_bytes_atomic(png_path, reliability_png(
+            result["overall"], f"Reliability of the chances, {len(pairs)} logged site-nights"))
+    if args.json:
+        print_json(result)
+    else:
+        print_verify(result)
+        if png_path:
+            print(f"wrote {png_path}")
+    return 0
+
+
+def outlook_chances(ws, pairs) -> dict:
+    """(site, night) -> the chance the climatology outlook gives (no Kp or cloud forecast),
+    for the skill score's reference; sites no longer in the workspace get none."""
+    import datetime as dt
+
+    from auroraplan import report
+
+    by_name = {s.name: s for s in ws.sites}
+    names = sorted({p["site"] for p in pairs if p["site"] in by_name})
+    if not names:
+        return {}
+    nights = sorted({dt.date.fromisoformat(p["night"]) for p in pairs})
+    first, count = nights[0], (nights[-1] - nights[0]).days + 1
+    sites = [by_name[n] for n in names]
+    _, summary = report._grid_for_nights(ws, sites, first, count, report.DEFAULT_STEP_MIN,
+                                         report.default_climatology(ws), use_forecast=False,
+                                         use_clouds=False)
+    out = {}
+    for i, name in enumerate(names):
+        for d in range(count):
+            p = summary.p_any[i, d]
+            if p == p:  # not NaN
+                out[(name, (first + dt.timedelta(days=d)).isoformat())] = float(p)
+    return out
+
+
+def print_verify(result):
+    """Scores per kind and the reliability table, on the terminal."""
+    from auroraplan.commands._common import console
+    from auroraplan.commands._common import table as new_table
+
+    out = console()
+    out.print(f"[bold]Verification[/] · {result['logged_site_nights']} logged site-nights, "
+              f"{result['overall']['count']} paired, {result['unpaired']} without an issued "
+              f"chance · sighting = {result['seen_from']} or more")
+    scores = new_table(title="Chance of a sighting during the outing window")
+    for col in ("kind", "pairs", "seen", "Brier", "skill", "reliab.", "resol.", "ROC",
+                "more"):
+        scores.add_column(col, justify="left" if col == "kind" else "right", no_wrap=True)
+
+    def fmt(x, digits=3):
+        return "—" if x is None else f"{x:.{digits}f}"
+
+    rows = [("all", result["overall"])] + list(result["by_kind"].items())
+    for name, s in rows:
+        scores.add_row(name, str(s["count"]), str(s["sightings"]), fmt(s["brier"]),
+                       fmt(s["skill"], 2),
+                       fmt(s["decomposition"]["reliability"]), fmt(s["decomposition"]["resolution"]),
+                       fmt(s["roc_auc"], 2), str(s["more_needed"]) if s["more_needed"] else "—")
+    out.print(scores)
+    rel = new_table(title="Reliability (all pairs): issued chance against how often it happened")
+    for col in ("chance bin", "pairs", "mean chance", "observed", "95 % interval (Wilson)"):
+        rel.add_column(col, justify="right", no_wrap=True)
+    for b in result["overall"]["reliability"]:
+        if not b["count"]:
+            continue
+        rel.add_row(f"{100 * b['low']:.0f}–{100 * b['high']:.0f} %", str(b["count"]),
+                    f"{100 * b['mean_chance']:.0f} %", f"{100 * b['observed']:.0f} %",
+                    f"{100 * b['observed_low']:.0f}–{100 * b['observed_high']:.0f} %")
+    out.print(rel)
+    out.print("[dim]Brier: mean squared gap between chance and outcome (lower is better); skill: "
+              "share of the climatology outlook's Brier score removed; reliab.: gap between "
+              "chance and frequency; resol.: how well chances sort nights; ROC: 0.5 no better "
+              "than chance, 1 perfect ranking.[/]")
+    if result["overall"]["more_needed"]:
+        out.print(f"[yellow]note:[/] about {result['overall']['more_needed']} more logged outcomes "
+                  "are needed before these figures mean much.")
+    if result["after_start"]:
+        out.print(f"[yellow]note:[/] {result['after_start']} pairs use a chance made after the "
+                  "group went out (a re-run for a past night), not a true forecast.")
