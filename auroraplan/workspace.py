@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import csv
+import dataclasses
 import datetime as dt
 import io
 import json
@@ -121,9 +122,37 @@ SITE_LIMITS = {
     "sky_mag": (16.0, 22.5, "V mag/arcsec²"),
     "height_m": (-500.0, 9000.0, "m"),
 }
-SITE_DEFAULTS = {"drive_min": 0.0, "capacity": 8, "sky_mag": 21.5}
+SITE_DEFAULTS = {"sky_mag": 21.5}
 """sky_mag 21.5: a dark rural sky; the natural zenith sky is about 21.9-22.0 V mag/arcsec²
-(Krisciunas & Schaefer 1991, from memory)."""
+(Krisciunas & Schaefer 1991, from memory). ``capacity`` has no default (a missing one is
+an error: the tool cannot guess how many guests a site holds) and a missing ``drive_min``
+is estimated from the distance to the base (`estimated_drive_min`) with a warning."""
+
+ROAD_FACTOR = 1.3
+"""Road distance over straight-line distance for a missing drive_min. Circuity factors
+of road networks lie near 1.2-1.4 (Ballou, Rahardja & Sakai 2002, Transportation Research
+Part A 36, 843-848; from memory); coastal and fjord roads are at the high end."""
+
+WINTER_ROAD_KMH = 60.0
+"""Mean speed on winter roads at night for a missing drive_min (common practice, no
+source): below the 80 km/h limit of most rural roads in the Nordic countries."""
+
+MAX_SITE_KM = 1000.0
+"""Farthest a site may lie from the base: a night excursion drives a few hundred km at
+most (common practice, no source). Farther usually means latitude and longitude swapped
+(GeoJSON is [longitude, latitude], RFC 7946 section 3.1.1) or a typo."""
+
+MAX_ZONE_HOURS_FROM_SOLAR = 3.5
+"""Largest gap allowed between the base's time zone offset and its solar time (longitude
+/ 15° per hour). Civil zones stray up to about 3 hours from solar time (western China);
+a wider gap means the zone of another place (common practice, no source)."""
+
+
+def estimated_drive_min(km_straight: float) -> float:
+    """One-way drive in minutes from the straight-line distance: ROAD_FACTOR × km at
+    WINTER_ROAD_KMH, rounded up to 5 minutes."""
+    minutes = km_straight * ROAD_FACTOR / WINTER_ROAD_KMH * 60.0
+    return float(math.ceil(minutes / 5.0) * 5.0)
 
 HORIZON_EL_RANGE = (-5.0, 90.0)
 KP_SD_RANGE = (0.0, 5.0)
@@ -714,6 +743,31 @@ def _check_weather_table(doc: dict, label: str, problems: ProblemList) -> None:
             given[key] = checked
 
 
+def _check_zone_near_base(lat: float, lon: float, zone: str, label: str,
+                          problems: ProblemList) -> None:
+    """One problem when the base's time zone is far from its solar time (a zone of another
+    place: every local time, darkness window and outing hour would be shifted)."""
+    tz = zoneinfo.ZoneInfo(zone)
+    offsets = {tz.utcoffset(dt.datetime(2027, month, 15, 12)).total_seconds() / 3600.0
+               for month in (1, 7)}
+    solar = lon / 15.0
+    gap = min(abs((o - solar + 12.0) % 24.0 - 12.0) for o in offsets)
+    if gap <= MAX_ZONE_HOURS_FROM_SOLAR:
+        return
+    try:
+        from timezonefinder import TimezoneFinder
+
+        found = TimezoneFinder().timezone_at(lng=lon, lat=lat)
+    except Exception:  # a suggestion only; the problem stands without it
+        found = None
+    hint = f"; the zone at the base is {found}" if found else ""
+    shown = ", ".join(f"UTC{o:+g}" for o in sorted(offsets))
+    problems.add(
+        f"{label} [base] timezone: {zone} ({shown}) is {gap:.1f} h from the solar time of a "
+        f"base at {abs(lon):.1f}° {'E' if lon >= 0 else 'W'} (UTC{solar:+.1f}){hint}; give "
+        "the time zone of the base")
+
+
 def _load_operator(path: Path, label: str, problems: ProblemList) -> Operator | None:
     text = _read_text(path, label, problems)
     if text is None:
@@ -755,6 +809,9 @@ def _load_operator(path: Path, label: str, problems: ProblemList) -> Operator | 
         doc["activity"]["issued_utc"] = values[("activity", "issued_utc")]
     _check_stage_tables(doc, label, problems)
     _check_weather_table(doc, label, problems)
+    if all(("base", k) in values for k in ("lat", "lon", "timezone")):
+        _check_zone_near_base(values[("base", "lat")], values[("base", "lon")],
+                              values[("base", "timezone")], label, problems)
     if problems:
         return None
     viewing = {key: values[("viewing", key)] for key in OPERATOR_SCHEMA["viewing"]
@@ -956,10 +1013,48 @@ def _site_from_feature(i, feature, label, problems: ProblemList) -> Site | None:
         if _is_missing(raw) and key in SITE_DEFAULTS:
             values[key] = SITE_DEFAULTS[key]
             continue
+        if _is_missing(raw) and key == "drive_min":
+            values[key] = math.nan  # estimated from the distance once the base is known
+            continue
+        if _is_missing(raw) and key == "capacity":
+            problems.add(f"{where}, capacity: missing; give how many guests the site holds "
+                         f"at once (a whole number, 1 to {SITE_LIMITS['capacity'][1]})")
+            continue
         values[key] = _check_field(problems, where, key, checker, raw)
     if len(problems) > before:
         return None
     return Site(name=name, lat=lat, lon=lon, height_m=height, **values)
+
+
+def _sites_near_base(operator, sites, label, problems: ProblemList, warnings: list):
+    """Sites checked against the base: none beyond MAX_SITE_KM (with a hint when latitude
+    and longitude look swapped), and a missing drive_min estimated from the distance."""
+    from auroraplan.weather import _great_circle_km
+
+    lat = np.array([s.lat for s in sites], float)
+    lon = np.array([s.lon for s in sites], float)
+    km = _great_circle_km(operator.base_lat, operator.base_lon, lat, lon)
+    swapped_km = _great_circle_km(operator.base_lat, operator.base_lon,
+                                  np.clip(lon, -90, 90), lat)
+    out = []
+    for i, site in enumerate(sites):
+        where = f"{label} feature {i + 1} {_quote(site.name)}"
+        if km[i] > MAX_SITE_KM:
+            hint = (" latitude and longitude look swapped: GeoJSON gives [longitude, latitude]"
+                    if abs(site.lon) <= 90 and swapped_km[i] <= MAX_SITE_KM else
+                    " check the coordinates")
+            problems.add(f"{where}, geometry: {km[i]:,.0f} km from the base "
+                         f"{operator.base_name!r} (more than {MAX_SITE_KM:,.0f} km);{hint}")
+            continue
+        if math.isnan(site.drive_min):
+            minutes = estimated_drive_min(float(km[i]))
+            warnings.append(
+                f"{where}: no drive_min; estimated {minutes:.0f} min from {km[i]:.0f} km in a "
+                f"straight line × road factor {ROAD_FACTOR:g} at {WINTER_ROAD_KMH:g} km/h; "
+                "give drive_min to use the real drive")
+            site = dataclasses.replace(site, drive_min=minutes)
+        out.append(site)
+    return None if problems else out
 
 
 def _load_sites(path: Path, label: str, problems: ProblemList) -> list[Site] | None:
@@ -1015,6 +1110,11 @@ def _trip_from_row(line, row, label, largest, problems: ProblemList) -> Trip | N
     blocked = _check_field(problems, where, "blocked", _blocked, row.get("blocked", ""))
     if arrive and depart and depart <= arrive:
         problems.add(f"{where}, depart: {depart} is not after arrive {arrive}; give a later date")
+    elif arrive and depart and outings and outings > (depart - arrive).days:
+        nights = (depart - arrive).days
+        problems.add(f"{where}, outings: {outings} outings in a stay of {nights} night"
+                     f"{'s' if nights != 1 else ''} ({arrive} to {depart}); at most one outing "
+                     f"a night, give {nights} or fewer or check the dates")
     elif arrive and depart and (depart - arrive).days > MAX_STAY_NIGHTS:
         problems.add(
             f"{where}, depart: a stay of {(depart - arrive).days} nights from {arrive}; "
@@ -1323,6 +1423,9 @@ def load_workspace(path) -> Workspace:
 
     operator = step("operator", _load_operator)
     sites = step("sites", _load_sites)
+    if operator is not None and sites is not None:
+        sites = step("sites", lambda p, label, probs: _sites_near_base(
+            operator, sites, label, probs, warnings))
     trips = step("trips", lambda p, label, probs: _load_trips(p, label, sites, probs, warnings))
     site_names = None if sites is None else {s.name for s in sites}
     activity = clouds = None

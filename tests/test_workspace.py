@@ -3,6 +3,7 @@
 import datetime as dt
 import hashlib
 import json
+import re
 
 import numpy as np
 import pandas as pd
@@ -321,9 +322,91 @@ def test_sites_from_a_geopackage_match_the_geojson(workspace_copy, demo):
 
 
 def test_more_outings_than_free_evenings_is_a_warning(workspace_copy):
-    edit_csv(workspace_copy / "trips.csv", 5, "outings", "3")  # the couple has 2 evenings
+    # T01 stays 6 nights, one of them blocked: 6 outings fit the stay but not the free evenings
+    edit_csv(workspace_copy / "trips.csv", 2, "outings", "6")
     ws = load_workspace(workspace_copy)
-    assert any("trips.csv line 5" in w and "T04" in w for w in ws.warnings)
+    assert any("trips.csv line 2" in w and "T01" in w for w in ws.warnings)
+
+
+def test_more_outings_than_nights_in_the_stay_is_an_error(workspace_copy):
+    edit_csv(workspace_copy / "trips.csv", 5, "outings", "3")  # the couple has 2 evenings
+    lines = problems_after(workspace_copy)
+    assert len(lines) == 1 and "line 5, outings: 3 outings in a stay of 2 nights" in lines[0]
+
+
+def _set_site(folder, name, **props):
+    geo = json.loads((folder / "sites.geojson").read_text(encoding="utf-8"))
+    for f in geo["features"]:
+        if f["properties"]["name"] == name:
+            for key, value in props.items():
+                if key == "coordinates":
+                    f["geometry"]["coordinates"] = value
+                elif value is None:
+                    f["properties"].pop(key, None)
+                else:
+                    f["properties"][key] = value
+    (folder / "sites.geojson").write_text(json.dumps(geo), encoding="utf-8")
+    return [f for f in geo["features"] if f["properties"]["name"] == name][0]
+
+
+def test_a_missing_drive_min_is_estimated_from_the_distance_with_a_warning(workspace_copy):
+    from auroraplan.weather import _great_circle_km
+    from auroraplan.workspace import ROAD_FACTOR, WINTER_ROAD_KMH
+
+    feature = _set_site(workspace_copy, "Fjord Head", drive_min=None)
+    ws = load_workspace(workspace_copy)
+    site = next(s for s in ws.sites if s.name == "Fjord Head")
+    lon, lat = feature["geometry"]["coordinates"][:2]
+    km = float(_great_circle_km(ws.operator.base_lat, ws.operator.base_lon, lat, lon))
+    # The estimate is road distance at winter speed, rounded up to 5 minutes.
+    assert km * ROAD_FACTOR / WINTER_ROAD_KMH * 60 <= site.drive_min
+    assert site.drive_min < km * ROAD_FACTOR / WINTER_ROAD_KMH * 60 + 5
+    assert any("Fjord Head" in w and "no drive_min" in w and "road factor 1.3" in w
+               for w in ws.warnings)
+
+
+def test_a_missing_capacity_is_an_error_not_a_silent_default(workspace_copy):
+    _set_site(workspace_copy, "Fjord Head", capacity=None)
+    lines = problems_after(workspace_copy)
+    assert len(lines) == 1 and "'Fjord Head', capacity: missing" in lines[0]
+
+
+def test_a_site_with_latitude_and_longitude_swapped_is_named(workspace_copy):
+    feature = _set_site(workspace_copy, "Fjord Head")
+    lon, lat = feature["geometry"]["coordinates"][:2]
+    _set_site(workspace_copy, "Fjord Head", coordinates=[lat, lon])
+    lines = problems_after(workspace_copy)
+    assert len(lines) == 1 and "'Fjord Head', geometry" in lines[0]
+    assert "look swapped" in lines[0]
+
+
+def test_a_base_time_zone_far_from_its_longitude_is_named(workspace_copy):
+    """Fairbanks, Alaska (64.8° N, 147.7° W) keeps Alaska time, UTC-9 (tz database); with
+    Europe/Oslo every local time would be ten hours off."""
+    toml = workspace_copy / "operator.toml"
+    text = toml.read_text(encoding="utf-8")
+    text = re.sub(r"(?m)^timezone = .*$", 'timezone = "Europe/Oslo"', text)
+    text = re.sub(r"(?m)^lat = .*$", "lat = 64.8", text, count=1)
+    text = re.sub(r"(?m)^lon = .*$", "lon = -147.7", text, count=1)
+    toml.write_text(text, encoding="utf-8")
+    lines = [line for line in problems_after(workspace_copy) if "timezone" in line]
+    assert len(lines) == 1 and "Europe/Oslo" in lines[0] and "America/Anchorage" in lines[0]
+
+
+def test_zones_that_stray_from_solar_time_within_reason_are_accepted():
+    """Real bases: Longyearbyen (Arctic/Longyearbyen), Fairbanks (America/Anchorage),
+    Reykjavik (Atlantic/Reykjavik, 1.5 h from solar time), Kiritimati (Pacific/Kiritimati,
+    UTC+14 at 157° W, across the date line). Offsets from the tz database."""
+    from auroraplan.errors import ProblemList
+    from auroraplan.workspace import _check_zone_near_base
+
+    for lat, lon, zone in [(78.2, 15.6, "Arctic/Longyearbyen"),
+                           (64.8, -147.7, "America/Anchorage"),
+                           (64.1, -21.9, "Atlantic/Reykjavik"),
+                           (1.9, -157.4, "Pacific/Kiritimati")]:
+        problems = ProblemList()
+        _check_zone_near_base(lat, lon, zone, "operator.toml", problems)
+        assert not problems.problems, (zone, problems.problems)
 
 
 def test_several_trip_problems_are_all_reported(workspace_copy):
