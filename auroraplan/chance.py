@@ -285,9 +285,11 @@ def compute_grid(
 
     target_alt = np.clip(np.nan_to_num(look_el, nan=op.min_elevation_deg), op.min_elevation_deg, 90.0)
     target_az = np.nan_to_num(look_az, nan=0.0)
+    k_v = (np.full(len(sites), float(op.extinction_k)) if op.extinction_k is not None
+           else sky.extinction_k_v(arr["height_m"]))
     moonlit = sky.moonlit_sky_mag(
         arr["sky_mag"][:, None], track.moon_alt, track.moon_az, target_alt, target_az,
-        track.moon_phase_angle_deg[None, :],
+        track.moon_phase_angle_deg[None, :], k_v=k_v[:, None],
     )
     moon = moon_factor(arr["sky_mag"][:, None], moonlit, cfg["moon_beta"])
 

@@ -538,8 +538,52 @@ def _separation_deg(alt1, az1, alt2, az2):
     return np.degrees(np.arccos(np.clip(cos_rho, -1.0, 1.0)))
 
 
+KS91_K_V = 0.172
+"""V-band extinction (mag per airmass) Krisciunas & Schaefer (1991) measured at Mauna Kea
+(4.2 km): the default of their formulas here, used for their worked example."""
+
+EXTINCTION_V_TERMS = {
+    # term: (coefficient at sea level in mag per airmass, scale height in m)
+    "rayleigh": (0.1451, 7996.0),
+    "aerosol": (0.120, 1500.0),
+    "ozone": (0.016, None),
+}
+"""Parts of the V-band extinction coefficient and how each falls with height. From memory
+after Green (1992), who follows Hayes & Latham (1975): k = 0.1451 exp(-h / 7996 m)
++ 0.120 exp(-h / 1500 m) + 0.016, i.e. 0.28 at sea level (typical sea-level V values are
+0.25-0.30, from memory) and about 0.16 at 2 km. The aerosol part varies most from night to
+night; an operator who knows the local value sets ``[viewing] extinction_k``."""
+
+
+def extinction_k_v(height_m):
+    """V-band extinction coefficient at a site's height, mag per airmass.
+
+    Parameters
+    ----------
+    height_m : array_like
+        Height above sea level, metres (below 0 counts as 0).
+
+    Returns
+    -------
+    ndarray
+        k = sum over Rayleigh, aerosol and ozone of k_i exp(-h / H_i) (ozone
+        constant): 0.281 at sea level, decreasing with height.
+
+    References
+    ----------
+    Hayes, D. S. & Latham, D. W. (1975), ApJ 197, 593 (Rayleigh and aerosol parts);
+    Green, D. W. E. (1992), International Comet Quarterly 14, 55 (the sum used here).
+    Coefficients from memory.
+    """
+    h = np.maximum(np.asarray(height_m, dtype=float), 0.0)
+    k = np.zeros(h.shape)
+    for coeff, scale in EXTINCTION_V_TERMS.values():
+        k = k + (coeff if scale is None else coeff * np.exp(-h / scale))
+    return k
+
+
 def moon_sky_nl(
-    moon_alt_deg, moon_az_deg, target_alt_deg, target_az_deg, moon_phase_angle_deg, k_v=0.172
+    moon_alt_deg, moon_az_deg, target_alt_deg, target_az_deg, moon_phase_angle_deg, k_v=KS91_K_V
 ):
     """Scattered moonlight toward a target, nanoLamberts (K&S 1991, eq. 15).
 
@@ -567,7 +611,7 @@ def moonlit_sky_mag(
     target_alt_deg,
     target_az_deg,
     moon_phase_angle_deg,
-    k_v=0.172,
+    k_v=KS91_K_V,
     dark_sky_at_zenith=False,
 ):
     """Sky brightness toward a target with the moon's scattered light added.
@@ -583,9 +627,10 @@ def moonlit_sky_mag(
         Direction looked at, degrees. Below the horizon the result is NaN.
     moon_phase_angle_deg : array_like
         Sun-moon-earth angle, degrees: 0 full, 90 quarter, 180 new.
-    k_v : float
-        V-band extinction coefficient, mag per airmass. The default 0.172 is
-        the value K&S (1991) measured at Mauna Kea.
+    k_v : float or array_like
+        V-band extinction coefficient, mag per airmass (broadcast). The default
+        0.172 is the value K&S (1991) measured at Mauna Kea; for a site use
+        :func:`extinction_k_v` of its height or the operator's own value.
     dark_sky_at_zenith : bool
         Brighten a zenith dark-sky value toward the target by K&S eq. 2,
         B_0(Z) = B_zen 10^(-0.4 k (X - 1)) X.

@@ -36,6 +36,7 @@ class Operator:
     min_elevation_deg: float = 5.0
     emission_height_km: float = 110.0
     oval_model: str = "starkov1994"
+    extinction_k: float | None = None  # V mag per airmass; None: from each site's height
     settings: dict = field(default_factory=dict)  # the whole operator.toml, e.g. ["activity"]
 
 
@@ -510,6 +511,9 @@ OPERATOR_SCHEMA = {
         "min_elevation_deg": (_number(0, 30, "degrees"), False),
         "emission_height_km": (_number(80, 400, "km"), False),
         "oval_model": (_choice(OVAL_MODELS), False),
+        # V-band extinction for moonlight, mag per airmass; default from each site's height
+        # (sky.extinction_k_v).
+        "extinction_k": (_number(0.05, 1.0, "magnitudes per airmass"), False),
     },
     # history_file: Kp history in the CelesTrak space-weather format, relative to
     # the workspace, used instead of the bundled file for the climatology.

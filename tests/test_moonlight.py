@@ -3,6 +3,7 @@
 import numpy as np
 import pytest
 
+from auroraplan import sky
 from auroraplan.sky import mag_to_nl, moon_sky_nl, moonlit_sky_mag, nl_to_mag
 
 FULL, QUARTER, CRESCENT = 0.0, 90.0, 140.0  # moon phase angle, degrees
@@ -105,3 +106,27 @@ def test_zenith_dark_sky_is_brighter_toward_the_horizon():
 
 def test_target_below_the_horizon_has_no_value():
     assert np.isnan(moonlit_sky_mag(21.5, 30.0, 0.0, -5.0, 0.0, FULL))
+
+
+# --- extinction by the site's height ----------------------------------------------------------
+
+
+def test_extinction_at_sea_level_is_the_usual_sea_level_value_and_falls_with_height():
+    # Sea-level V-band extinction is typically 0.25-0.30 mag per airmass (from memory);
+    # K&S (1991) measured 0.172 on Mauna Kea at 4.2 km, where the aerosol part is small.
+    k = sky.extinction_k_v(np.array([0.0, 500.0, 1000.0, 2000.0, 4200.0]))
+    assert 0.25 <= k[0] <= 0.30
+    assert np.all(np.diff(k) < 0)
+    assert k[-1] < sky.KS91_K_V < k[0]
+    # Worked by hand from the three terms at 2 km: 0.1451 e^-0.2501 + 0.120 e^-1.333 + 0.016.
+    assert k[3] == pytest.approx(0.1451 * np.exp(-2000 / 7996) + 0.120 * np.exp(-2000 / 1500)
+                                 + 0.016, abs=1e-12)
+
+
+def test_a_sea_level_site_sees_a_brighter_moonlit_sky_than_mauna_kea():
+    # Full moon at 30 degrees, looking 20 degrees up away from it, a 21.7 mag dark sky:
+    # with k at sea level the moonlit sky is 0.15-0.25 mag brighter than with K&S's 0.172
+    # (more light scattered toward the observer outweighs the dimmer moon).
+    sea = sky.moonlit_sky_mag(21.7, 30.0, 180.0, 20.0, 0.0, 0.0, k_v=sky.extinction_k_v(0.0))
+    ks = sky.moonlit_sky_mag(21.7, 30.0, 180.0, 20.0, 0.0, 0.0)
+    assert 0.15 <= ks - sea <= 0.25

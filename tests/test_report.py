@@ -405,3 +405,22 @@ def test_storm_hours_look_overhead_or_equatorward_and_quiet_hours_poleward(ws, s
     assert storm_hours >= 10 and quiet_hours >= 10
     # and the storm changes the look: not the quiet night's bearing and height everywhere
     assert any(h["overhead"] for s in storm_night["sites"] for h in s["hourly"])
+
+
+def test_moonlight_extinction_follows_the_operators_setting(ws):
+    # A hazier sky (more extinction) scatters more light from a high moon toward the
+    # observer (K&S 1991 eq. 15: the moon's own dimming, 10^(-0.4 k X(Z_moon)), matters
+    # less than the extra scattering once the moon is well up): the moon factor falls.
+    from auroraplan import chance, sky
+
+    times, night = sky.night_times(dt.date(2027, 1, 18), 1, ws.operator.timezone, 30)
+
+    def grid(k):
+        op = dataclasses.replace(ws.operator, extinction_k=k)
+        return chance.compute_grid(dataclasses.replace(ws, operator=op), ws.sites, times, night,
+                                   30, climatology=False)
+
+    clear_air, hazy = grid(0.12), grid(0.4)
+    high = clear_air.moon_alt > 30.0
+    assert high.sum() > 20
+    assert np.all(hazy.moon[high] < clear_air.moon[high])
