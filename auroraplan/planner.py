@@ -616,6 +616,18 @@ class _Model:
             rounded, bound = self._rounded(floors, deadline)
             if floors is not None:
                 levels = (served, floors[eligible])
+        if self.fleet.seats is None:
+            # The plan that met the fairness levels, improved where the levels allow: no
+            # group served loses its outing or drops below its floor.
+            keep = None
+            if settings.fairness == "groups-first" and isinstance(levels, tuple):
+                keep = np.zeros(self.n_trips, int)
+                keep[eligible] = np.where(self._planned(x)[eligible] >= 1,
+                                          np.maximum(levels[1], 1), 0)
+            polished = self.polish(x, keep)
+            if polished is not None and (rounded is None
+                                         or self.value_of(polished) > self.value_of(rounded)):
+                rounded = polished
         if rounded is not None and bound is not None and (
                 bound - self.value_of(rounded) <= settings.relative_gap * bound
                 or bound - self.value_of(rounded) <= 1e-12):
@@ -671,6 +683,10 @@ class _Model:
         The relaxation answers "no" when it is infeasible; its rounding often
         answers "yes"; otherwise the integer program decides.
         """
+        if self.fleet.seats is None:
+            quick = self.polish(self.greedy(), floors)
+            if quick is not None:
+                return quick, False
         rounded, bound = self._rounded(floors, deadline)
         if rounded is not None:
             return rounded, False
@@ -717,12 +733,188 @@ class _Model:
         if result.x is None or result.status != 0:
             return None, None
         order = np.lexsort((np.arange(self.n_x), -self.net, -np.round(result.x[: self.n_x], 6)))
+        bound = -float(result.fun) / OBJECTIVE_SCALE
+        relaxed = result.x[: self.n_x]
+        x = self._settle(relaxed, floors, deadline)
+        if x is not None:
+            return (self.polish(x, floors) if self.fleet.seats is None else x), bound
+        order = np.lexsort((np.arange(self.n_x), -self.net, -np.round(relaxed, 6)))
+        if self.fleet.seats is None:
+            return self.polish(self.greedy(order), floors), bound
         x, met = self.greedy(order), True
         if floors is not None:
             met = bool(np.all(self._planned(x) >= floors))
             if not met:
                 x, met = self.greedy(order, floors)
-        return (x if met else None), -float(result.fun) / OBJECTIVE_SCALE
+        return (x if met else None), bound
+
+    SETTLE_MAX_FREE = 3000
+    """Most undecided outings for which `_settle` solves the rest exactly."""
+
+    def _settle(self, relaxed, floors, deadline):
+        """Keep the outings the relaxation decided (0 or 1) and solve for the rest.
+
+        Relaxation-induced neighbourhood search (Danna, Rothberg & Le Pape 2005,
+        Math. Program. 102, 71-90) with the LP solution alone: the integer
+        program over the few fractional outings is small. None when too many
+        are fractional or the rest has no plan.
+        """
+        decided = (relaxed < 1e-6) | (relaxed > 1 - 1e-6)
+        free = np.count_nonzero(~decided)
+        if free > self.SETTLE_MAX_FREE:
+            return None
+        eligible = np.flatnonzero(floors > 0) if floors is not None else np.zeros(0, int)
+        levels = (eligible.size, floors[eligible]) if eligible.size else None
+        quick = PlannerSettings(time_limit_s=math.inf, relative_gap=1e-4)
+        # The relaxation's 0s and 1s kept; if that leaves no plan, only its 1s.
+        for settled in (np.where(decided, np.round(relaxed), np.nan),
+                        np.where(relaxed > 1 - 1e-6, 1.0, np.nan)):
+            try:
+                x, _, _ = self._run("chance", eligible, levels, quick, deadline, 0.25, None,
+                                    settled=settled)
+            except (FixedOutingsDoNotFit, RuntimeError):
+                continue
+            if x is not None:
+                return x
+        return None
+
+    def polish(self, x, floors=None, rounds=20):
+        """Meet the floors by swaps, then improve by moves that keep every limit (one group per vehicle).
+
+        Repair: a group below its floor takes a night it is free by a vehicle
+        left over, or from the lowest-valued outing that night of a group above
+        its own floor (the swap that loses least goes first). Improvement,
+        repeated while anything changes: an outing moves to a better site with
+        room the same night or on another night of the group with a vehicle free;
+        an outing gives its vehicle to a better one of a
+        group with outings left, when its own group stays at or above its floor.
+        Returns None when the floors cannot be met this way.
+        """
+        n_nights = self.fleet.vehicles.shape[0]
+        floors = np.zeros(self.n_trips, int) if floors is None else np.asarray(floors, int)
+        chosen = set(np.flatnonzero(x[: self.n_x] > 0.5).tolist())
+        planned = np.zeros(self.n_trips, int)
+        used = np.zeros(n_nights, int)
+        load = {}
+        at = {}  # (trip, night) -> chosen index
+        for i in chosen:
+            planned[self.rr[i]] += 1
+            used[self.dd[i]] += 1
+            key = (self.dd[i], self.ss[i])
+            load[key] = load.get(key, 0) + self.guests_x[i]
+            at[(self.rr[i], self.dd[i])] = i
+        limit = self.fleet.out_limit()
+        pairs = self._pairs()
+
+        def room(i, leaving=None):
+            key = (self.dd[i], self.ss[i])
+            free = self.capacity[self.ss[i]] - load.get(key, 0)
+            if leaving is not None and (self.dd[leaving], self.ss[leaving]) == key:
+                free += self.guests_x[leaving]
+            return free >= self.guests_x[i]
+
+        def drop(j):
+            chosen.discard(j)
+            planned[self.rr[j]] -= 1
+            used[self.dd[j]] -= 1
+            load[(self.dd[j], self.ss[j])] -= self.guests_x[j]
+            del at[(self.rr[j], self.dd[j])]
+
+        def take(i):
+            chosen.add(i)
+            planned[self.rr[i]] += 1
+            used[self.dd[i]] += 1
+            key = (self.dd[i], self.ss[i])
+            load[key] = load.get(key, 0) + self.guests_x[i]
+            at[(self.rr[i], self.dd[i])] = i
+
+        def best_site(r, d, leaving=None):
+            for i in pairs.get((r, d), ()):
+                if room(i, leaving):
+                    return i
+            return None
+
+        def spare(d, but=None):
+            """The lowest-valued outing on night d whose group may lose one."""
+            options = [j for j in chosen if self.dd[j] == d and not self.forced[j]
+                       and planned[self.rr[j]] > floors[self.rr[j]] and j != but]
+            return min(options, key=lambda j: (self.net[j], -j)) if options else None
+
+        while np.any(planned < floors):
+            r = int(np.flatnonzero(planned < floors)[0])
+            best = None
+            for d in range(n_nights):
+                if (r, d) in at or (r, d) not in pairs:
+                    continue
+                if used[d] < limit[d]:
+                    i = best_site(r, d)
+                    if i is not None and (best is None or -self.net[i] < best[0]):
+                        best = (-self.net[i], None, i)
+                    continue
+                j = spare(d)
+                if j is None:
+                    continue
+                i = best_site(r, d, leaving=j)
+                if i is not None and (best is None or self.net[j] - self.net[i] < best[0]):
+                    best = (self.net[j] - self.net[i], j, i)
+            if best is None:
+                return None
+            if best[1] is not None:
+                drop(best[1])
+            take(best[2])
+        nights_of = {}
+        for r, d in pairs:
+            nights_of.setdefault(r, []).append(d)
+        for _ in range(rounds):
+            changed = False
+            for j in sorted(chosen):
+                if self.forced[j] or j not in chosen:
+                    continue
+                r, d = self.rr[j], self.dd[j]
+                best = best_site(r, d, leaving=j)
+                for other in nights_of.get(r, ()):  # the same group on a better night
+                    if (r, other) in at or used[other] >= limit[other]:
+                        continue
+                    i = best_site(r, other)
+                    if i is not None and (best is None or self.net[i] > self.net[best]):
+                        best = i
+                if best is not None and self.net[best] > self.net[j] + 1e-12:
+                    drop(j)
+                    take(best)
+                    changed = True
+            for r, d in list(pairs):
+                if (r, d) in at or planned[r] >= self.outings_left[r]:
+                    continue
+                if used[d] < limit[d]:
+                    i = best_site(r, d)
+                    if i is not None:
+                        take(i)
+                        changed = True
+                    continue
+                j = spare(d)
+                if j is None:
+                    continue
+                i = best_site(r, d, leaving=j)
+                if i is not None and self.net[i] > self.net[j] + 1e-12:
+                    drop(j)
+                    take(i)
+                    changed = True
+            if not changed:
+                break
+        out = np.zeros(self.n_vars)
+        out[list(chosen)] = 1
+        return out
+
+    def _pairs(self):
+        """(trip, night) -> candidate indices, best net value first (built once)."""
+        if not hasattr(self, "_pair_index"):
+            order = np.lexsort((np.arange(self.n_x), -self.net, self.dd, self.rr))
+            index = {}
+            for i in order.tolist():
+                if self.net[i] > 0 or self.forced[i]:
+                    index.setdefault((int(self.rr[i]), int(self.dd[i])), []).append(i)
+            self._pair_index = index
+        return self._pair_index
 
     def value_of(self, x):
         """Total chance minus drive cost of a plan."""
@@ -810,7 +1002,8 @@ class _Model:
                 need -= self.fleet.seats[k]
         return taken if need <= 0 else None
 
-    def _run(self, stage, eligible, levels, settings, deadline, share_of, fallback):
+    def _run(self, stage, eligible, levels, settings, deadline, share_of, fallback,
+             settled=None):
         """One program: ``served``, ``share`` or ``chance``; returns (x, limit hit, bound).
 
         ``fallback`` (a plan meeting every level so far) is returned when the
@@ -867,6 +1060,10 @@ class _Model:
         lo = np.zeros(n_all)
         lo[: self.n_x] = self.forced
         hi = np.concatenate([np.ones(self.n_x), self.v_upper, np.ones(extra)])
+        if settled is not None:  # outings decided already (0 or 1), the rest free
+            decided = ~np.isnan(settled)
+            lo[: self.n_x][decided] = np.maximum(lo[: self.n_x][decided], settled[decided])
+            hi[: self.n_x][decided] = settled[decided]
         integrality = np.ones(n_all)
         if stage == "share":
             integrality[-1] = 0
@@ -993,8 +1190,9 @@ def _check_fleet(fleet, n_nights):
 def _within_reach(net, candidate, ok, guests, capacity, fleet, forced):
     """Triples that can be in some optimal plan; the others need no variable.
 
-    On night ``d`` at most ``k = min(vehicles out, trips)`` sites are in use,
-    since every site in use has a vehicle of its own.
+    On night ``d`` at most ``k = min(vehicles out, groups with a candidate
+    that night)`` sites are in use, since every site in use has a vehicle and
+    a group of its own.
 
     One group per vehicle: if ``k`` candidate sites rank at or above site
     ``s`` for trip ``r`` (by net value, ties to the lower index), the other
@@ -1015,7 +1213,8 @@ def _within_reach(net, candidate, ok, guests, capacity, fleet, forced):
     the same nights), so the lexicographic optimum is kept.
     """
     n_trips, n_nights, n_sites = net.shape
-    k = np.minimum(fleet.out_limit(), n_trips)
+    going = (candidate | forced).any(axis=2).sum(axis=0)  # groups that can go out each night
+    k = np.minimum(fleet.out_limit(), going)
     if fleet.seats is None:
         order = np.argsort(np.where(candidate, -net, np.inf), axis=-1, kind="stable")
         position = np.empty_like(order)
