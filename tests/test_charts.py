@@ -156,3 +156,27 @@ def test_season_calendar_marks_nights_without_darkness():
     season["dark_hours"] = [max(h, 1.0) for h in season["dark_hours"]]
     season["chance"] = [max(c, 0.3) for c in season["chance"]]
     assert (np.abs(_pixels(charts.season_calendar_png(season)) - full).sum(axis=2) > 0.1).any()
+
+
+@pytest.mark.parametrize("k", [0.0, 0.1, 0.25, 0.5, 0.8, 1.0])
+@pytest.mark.parametrize("waxing", [True, False])
+def test_moon_glyph_lit_area_is_the_illuminated_fraction(k, waxing):
+    # Meeus, Astronomical Algorithms ch. 48: k is the illuminated fraction of the disc's
+    # area as seen from Earth; the glyph's lit polygon (shoelace area) must cover k of it.
+    x, y = charts.moon_glyph_xy(k, waxing, radius=1.0, n=400)
+    area = 0.5 * abs(np.dot(x, np.roll(y, 1)) - np.dot(y, np.roll(x, 1)))
+    assert area / np.pi == pytest.approx(k, abs=0.002)
+    # Waxing: lit on the right (east of the meridian seen from the north), waning: left.
+    if 0 < k < 1:
+        assert (np.mean(x) > 0) == waxing
+
+
+def test_season_chart_is_months_by_nights_with_the_moon():
+    season = _load("season")
+    plain = _pixels(charts.season_calendar_png(season))
+    # The moon glyphs change the picture (illumination from a simple 29.53-day cycle,
+    # the mean synodic month, from memory; any values would do for this check).
+    days = np.arange(len(season["dates"]))
+    season["moon_illumination"] = list((1 - np.cos(2 * np.pi * days / 29.53)) / 2)
+    with_moon = _pixels(charts.season_calendar_png(season))
+    assert (np.abs(with_moon - plain).sum(axis=2) > 0.1).sum() > 1000

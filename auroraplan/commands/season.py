@@ -18,7 +18,7 @@ def add_arguments(parser):
                         help="last night, YYYY-MM-DD (at most 2 years after --from)")
     parser.add_argument("--trip-nights", type=int_range(1, 30), default=5,
                         help="length of the trip to find the best start dates for (default 5)")
-    parser.add_argument("--png", metavar="FILE", help="also write a calendar chart PNG")
+    parser.add_argument("--png", metavar="FILE", help="also write the season chart (PNG): a strip per month, a column per night with its dark hours, chance and the moon")
     parser.add_argument("--json", action="store_true", help="print the result as JSON")
 
 
@@ -56,13 +56,15 @@ def run(args):
 
 
 def season_chart_data(result):
-    """The season calendar chart's input from a season report."""
+    """The season chart's input from a season report."""
     return {
         "title": f"{result['base']['name']}: outlook per night, {result['from']} to {result['to']}",
         "dates": [n["date"] for n in result["nights"]],
         "chance": [n["chance"] for n in result["nights"]],
         "dark_hours": [n["dark_hours"] for n in result["nights"]],
         "kinds": [n["kind"] for n in result["nights"]],
+        "moon_illumination": [n.get("moon_illumination") for n in result["nights"]],
+        "south": result["base"]["lat"] < 0,
     }
 
 

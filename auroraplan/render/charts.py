@@ -387,80 +387,120 @@ def _fill_band(ax, projected: dict) -> None:
     ax.fill(xs, ys, color=style.TEAL, alpha=0.12, lw=0, label="oval band")
 
 
+def moon_glyph_xy(illumination: float, waxing: bool, radius: float = 1.0, n: int = 24):
+    """Outline of the lit part of the moon's disc, as seen from the northern hemisphere.
+
+    The lit part is bounded by the limb on the sunward side (the right while waxing) and
+    by the terminator, an ellipse of semi-axis ``radius * (1 - 2k)`` across, where k is the
+    illuminated fraction (the terminator is a great circle seen obliquely; Meeus,
+    Astronomical Algorithms, 2nd ed., ch. 48, k = (1 + cos i) / 2).
+
+    Returns
+    -------
+    x, y : ndarray
+        Closed polygon, centre (0, 0), north up; empty lit part at new moon.
+    """
+    k = min(max(float(illumination), 0.0), 1.0)
+    t = np.linspace(-np.pi / 2, np.pi / 2, n)
+    limb_x, limb_y = radius * np.cos(t), radius * np.sin(t)
+    term_x = radius * np.cos(t[::-1]) * (1.0 - 2.0 * k)
+    x = np.r_[limb_x, term_x]
+    y = np.r_[limb_y, limb_y[::-1]]
+    return (x if waxing else -x), y
+
+
 def season_calendar_png(season: dict) -> bytes:
-    """A season's chance per night as a calendar: weeks across, weekdays down, months marked.
+    """A season at a glance: one strip per month, a column per night, the moon on top.
+
+    Each night is a column whose filled height is its dark hours (the full cell is 24 h)
+    in the colour of its chance; a dash marks a night with no darkness; an ink frame a
+    night inside the Kp forecast. Above each column, the moon's phase (lit part filled).
 
     Parameters
     ----------
     season : dict
-        ``title``, ``dates`` (YYYY-MM-DD, consecutive or not), ``chance`` (0..1),
-        ``dark_hours`` and ``kinds`` ("forecast" | "outlook" | "none") per date.
+        ``title``, ``dates`` (YYYY-MM-DD), ``chance`` (0..1), ``dark_hours`` and ``kinds``
+        ("forecast" | "outlook" | "none") per date; optionally ``moon_illumination`` (0..1)
+        per date, and ``south`` (true for a southern base: the moon is drawn mirrored).
 
     Returns
     -------
     bytes
-        PNG, 1600 × 900 px. Forecast nights are outlined in ink; nights with no darkness
-        (or no data) are crossed out on the paper colour; outlook nights are plain colour.
+        PNG, 1600 × 900 px.
     """
     import matplotlib
-    from matplotlib.patches import Patch, Rectangle
+    from matplotlib.lines import Line2D
+    from matplotlib.patches import Patch, Polygon, Rectangle
+    from matplotlib.transforms import ScaledTranslation
 
     dates = [dt.date.fromisoformat(d) for d in season["dates"]]
     chance, dark_h = _floats(season["chance"]), _floats(season["dark_hours"])
     kinds = season["kinds"]
-    first_monday = dates[0] - dt.timedelta(days=dates[0].weekday())
-    week = np.array([(d - first_monday).days // 7 for d in dates])
-    weekday = np.array([d.weekday() for d in dates])
+    moon = season.get("moon_illumination")
+    moon = _floats(moon) if moon is not None else None
+    months = sorted({(d.year, d.month) for d in dates})
+    row = {m: i for i, m in enumerate(months)}
     cmap = _ramp_cmap()
-    from matplotlib.dates import DateFormatter, MonthLocator
-
-    season_rc = {**RC, "axes.grid": False, "hatch.color": style.RULE, "hatch.linewidth": 0.8}
-    with matplotlib.rc_context(season_rc):
+    bar_h, moon_y = 0.62, 0.80  # share of a month's strip: bars below, moon row above
+    with matplotlib.rc_context({**RC, "axes.grid": False}):
         fig = _figure("season")
-        cal, hours = fig.subplots(2, 1, height_ratios=[3, 1.2])
-        for i in range(len(dates)):
+        ax = fig.subplots()
+        for i, d in enumerate(dates):
+            x, y = d.day - 1, row[(d.year, d.month)]
+            base = y + 0.92
+            ax.add_patch(Rectangle((x + 0.12, base - bar_h), 0.76, bar_h, facecolor="none",
+                                   edgecolor=style.RULE, lw=0.8))
             no_dark = kinds[i] == "none" or not dark_h[i] > 0 or np.isnan(chance[i])
-            colour = style.PAPER if no_dark else _hex(cmap(chance[i]))
-            cal.add_patch(Rectangle((week[i], weekday[i]), 1, 1, facecolor=colour,
-                                    edgecolor=style.PAPER, lw=1.5))
-            if no_dark:  # one stroke across the cell: nothing to plan that night
-                cal.plot([week[i] + 0.2, week[i] + 0.8], [weekday[i] + 0.8, weekday[i] + 0.2],
-                         color=style.SLATE, lw=1.2, alpha=0.6)
-            elif kinds[i] == "forecast":
-                cal.add_patch(Rectangle((week[i] + 0.06, weekday[i] + 0.06), 0.88, 0.88,
-                                        fill=False, edgecolor=style.INK, lw=2))
-        n_weeks = int(week.max()) + 1
-        cal.set_xlim(0, n_weeks)
-        cal.set_ylim(7, 0)
-        cal.set_aspect("equal")
-        cal.set_yticks(np.arange(7) + 0.5, ["Mon", "Tue", "Wed", "Thu", "Fri", "Sat", "Sun"])
-        firsts = [(week[i], d) for i, d in enumerate(dates) if d.day == 1 or i == 0]
-        cal.set_xticks([w + 0.5 for w, _ in firsts], [d.strftime("%b %Y") for _, d in firsts])
-        cal.xaxis.tick_top()
-        for w, _ in firsts[1:]:
-            cal.axvline(w, color=style.SLATE, lw=1)
-        cal.tick_params(length=0)
-        for side in cal.spines:
-            cal.spines[side].set_visible(False)
+            if no_dark:
+                ax.plot([x + 0.25, x + 0.75], [base - 0.06, base - 0.06], color=style.SLATE,
+                        lw=2, solid_capstyle="butt")
+            else:
+                h = bar_h * min(dark_h[i], 24.0) / 24.0
+                ax.add_patch(Rectangle((x + 0.12, base - h), 0.76, h,
+                                       facecolor=_hex(cmap(chance[i])), edgecolor="none"))
+                if kinds[i] == "forecast":
+                    ax.add_patch(Rectangle((x + 0.12, base - bar_h), 0.76, bar_h, fill=False,
+                                           edgecolor=style.INK, lw=1.8))
+            if moon is not None and np.isfinite(moon[i]):
+                nxt = moon[min(i + 1, len(moon) - 1)] if i + 1 < len(moon) else moon[i]
+                prev = moon[i - 1] if i else moon[i]
+                waxing = (nxt > moon[i]) if i + 1 < len(moon) else (moon[i] > prev)
+                if season.get("south"):
+                    waxing = not waxing
+                gx, gy = moon_glyph_xy(moon[i], waxing, radius=0.075)
+                place = fig.dpi_scale_trans + ScaledTranslation(x + 0.5, y + 0.92 - moon_y,
+                                                                 ax.transData)
+                ax.add_patch(matplotlib.patches.Circle((0, 0), 0.075, transform=place,
+                                                       facecolor=style.PAPER,
+                                                       edgecolor=style.PLUM, lw=0.8))
+                if moon[i] > 0.01:
+                    ax.add_patch(Polygon(np.c_[gx, -gy], closed=True, transform=place,
+                                         facecolor=style.PLUM, edgecolor="none"))
+        ax.set_xlim(0, 31)
+        ax.set_ylim(len(months), 0)
+        ax.set_yticks(np.arange(len(months)) + 0.55,
+                      [dt.date(yr, mo, 1).strftime("%b %Y") for yr, mo in months])
+        ax.set_xticks(np.arange(0, 31, 5) + 0.5, [str(n) for n in range(1, 32, 5)])
+        ax.xaxis.tick_top()
+        ax.set_xlabel("night of the month (evening date)")
+        ax.xaxis.set_label_position("top")
+        ax.tick_params(length=0)
+        for side in ax.spines:
+            ax.spines[side].set_visible(False)
         mappable = matplotlib.cm.ScalarMappable(cmap=cmap, norm=matplotlib.colors.Normalize(0, 1))
-        bar = fig.colorbar(mappable, ax=cal, shrink=0.7, pad=0.01)
+        bar = fig.colorbar(mappable, ax=ax, shrink=0.7, pad=0.01)
         bar.set_ticks([0, 0.25, 0.5, 0.75, 1.0], labels=["0 %", "25 %", "50 %", "75 %", "100 %"])
-        bar.set_label("chance per night")
-        cal.legend(handles=[
-            Patch(facecolor=style.PAPER, edgecolor=style.INK, lw=2, label="Kp forecast night"),
-            Patch(facecolor=style.CHANCE_RAMP[2], edgecolor=style.PAPER,
-                  label="outlook from Kp history"),
-            Patch(facecolor=style.PAPER, edgecolor=style.SLATE, hatch="/",
-                  label="no darkness or no data"),
-        ], loc="upper left", bbox_to_anchor=(0, -0.02), ncols=3)
-
-        hours.fill_between(dates, 0, np.nan_to_num(dark_h), color=style.SLATE, alpha=0.25, lw=0)
-        hours.plot(dates, dark_h, color=style.INK, lw=1.5)
-        hours.set_ylabel("dark hours")
-        hours.set_ylim(0, 24)
-        hours.set_xlim(dates[0], dates[-1])
-        hours.xaxis.set_major_locator(MonthLocator())
-        hours.xaxis.set_major_formatter(DateFormatter("%b"))
+        bar.set_label("chance of a sighting, best site (an outlook, not a promise)")
+        handles = [
+            Patch(facecolor=style.CHANCE_RAMP[3], edgecolor=style.RULE,
+                  label="height: dark hours (full box = 24 h)"),
+            Patch(facecolor="none", edgecolor=style.INK, lw=1.8, label="inside the Kp forecast"),
+            Line2D([], [], color=style.SLATE, lw=2, label="no darkness"),
+        ]
+        if moon is not None:
+            handles.append(Line2D([], [], marker="o", ls="", ms=9, mfc=style.PLUM,
+                                  mec=style.PLUM, label="moon: lit part filled"))
+        ax.legend(handles=handles, loc="upper left", bbox_to_anchor=(0, 0), ncols=4)
         fig.suptitle(season.get("title", ""), x=0.01, ha="left", fontsize=16, fontweight="bold")
         return _png(fig)
 
