@@ -174,6 +174,15 @@ def protected_files(database) -> list[Path]:
             database.with_name(database.name + "-shm")]
 
 
+def protected_inputs(ws, database=None) -> list[Path]:
+    """Every input of a workspace that an output may not replace: the files it read and the
+    workspace database (``database``, when another one is named, as well)."""
+    paths = list(ws.files.values()) + protected_files(database_path(ws.path))
+    if database:
+        paths += protected_files(Path(database).expanduser())
+    return paths
+
+
 class Store:
     """An open workspace database; use as a context manager or call `close`."""
 

@@ -244,3 +244,57 @@ def test_sigkill_while_writing_leaves_the_last_confirmed_plan(tmp_path):
         plans = db.query("SELECT count(*) FROM plans")[0][0]
     assert plans >= 2, "the writer committed at least one proposal before it was killed"
     assert len(proposed) in (0, 400) and len({o.plan_id for o in proposed}) <= 1
+
+
+@pytest.mark.parametrize("option", ["--csv", "--ics"])
+def test_no_output_option_overwrites_the_database(demo, capsys, option):
+    _week_json(demo, capsys)
+    path = store.database_path(demo)
+    before = path.read_bytes()
+    assert main(["week", str(demo), "--start", "2027-01-11", option, str(path)]) == 2
+    assert "input" in capsys.readouterr().err
+    assert path.read_bytes() == before
+    other = demo.parent / "elsewhere.sqlite"
+    assert main(["week", str(demo), "--start", "2027-01-11", "--database", str(other),
+                 "--json"]) == 0
+    capsys.readouterr()
+    kept = other.read_bytes()
+    assert main(["itinerary", str(demo), "--trip", "T01", "--pdf", str(other),
+                 "--database", str(other)]) == 2
+    assert other.read_bytes() == kept
+
+
+SOUTHERN = Path(__file__).resolve().parent / "southern_sites"
+
+
+def test_the_southern_workspace_agrees_across_week_calendar_and_itinerary(tmp_path, capsys):
+    """A second invented workspace (southern New Zealand, June 2027): the week plan, the
+    calendar written beside it and the record the itineraries read agree for every trip and
+    night, and every group planned fewer outings than it asked is named with a reason."""
+    folder = tmp_path / "south"
+    shutil.copytree(SOUTHERN, folder)
+    ics = tmp_path / "south.ics"
+    assert main(["week", str(folder), "--start", "2027-06-06", "--json", "--ics",
+                 str(ics)]) == 0
+    week = json.loads(capsys.readouterr().out)
+    in_week = {(p["trip"], p["date"]): p["site"] for p in week["plan"]}
+    from icalendar import Calendar
+
+    in_calendar = {}
+    for event in Calendar.from_ical(ics.read_bytes()).walk("VEVENT"):
+        trip = re.search(r"\(trip (\S+)\)", str(event["DESCRIPTION"])).group(1)
+        in_calendar[(trip, event.decoded("DTSTART").date().isoformat())] = str(event["LOCATION"])
+    assert in_calendar == in_week
+    assert main(["itinerary", str(folder), "--all", str(tmp_path)]) == 0
+    capsys.readouterr()
+    with store.open_store(store.database_path(folder)) as db:
+        record_now = {k: o.site for k, o in record.live_outings(db).items()}
+    assert {k: v for k, v in record_now.items() if k in in_week} == in_week
+    counts = {}
+    for p in week["plan"]:
+        counts[p["trip"]] = counts.get(p["trip"], 0) + 1
+    named = {w["trip"] for w in week["warnings"] if w["trip"]}
+    for trip in week["trips"]:
+        if trip["trip"] in week["record"]["replanned"]:
+            short = counts.get(trip["trip"], 0) < trip["outings"]
+            assert short == (trip["trip"] in named), trip["trip"]

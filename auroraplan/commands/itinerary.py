@@ -38,6 +38,7 @@ def run(args):
     from auroraplan.commands._progress import working
     from auroraplan.errors import InputError
     from auroraplan.outfiles import check_output_path, write_bytes_atomic
+    from auroraplan.store import protected_inputs
     from auroraplan.workspace import load_workspace
 
     if args.trip is not None and not args.pdf:
@@ -46,7 +47,7 @@ def run(args):
         raise InputError("--pdf goes with --trip; with --all the files are named "
                          "itinerary-<trip>.pdf inside the folder")
     ws = load_workspace(args.workspace)
-    protected = list(ws.files.values())
+    protected = protected_inputs(ws, args.database)
     trips = _chosen_trips(ws, args.trip)
     if args.all is not None:
         folder = Path(args.all).expanduser()

@@ -28,6 +28,7 @@ def run(args):
     from auroraplan.commands._progress import progress_bar
     from auroraplan.errors import InputError
     from auroraplan.outfiles import check_output_path, write_bytes_atomic
+    from auroraplan.store import protected_inputs
     from auroraplan.workspace import load_workspace
 
     if args.last < args.first:
@@ -39,7 +40,7 @@ def run(args):
     if args.trip_nights > nights:
         raise InputError(f"--trip-nights {args.trip_nights} is longer than the range ({nights} nights)")
     ws = load_workspace(args.workspace)
-    png = check_output_path(args.png, list(ws.files.values())) if args.png else None
+    png = check_output_path(args.png, protected_inputs(ws)) if args.png else None
     with progress_bar(nights, "Season outlook (nights)", quiet=args.json) as bar:
         result = report.season_report(ws, args.first, args.last, args.trip_nights, progress=bar)
     if png:

@@ -51,11 +51,13 @@ def run(args):
     from auroraplan.commands._common import open_record, print_json
     from auroraplan.commands._progress import working
     from auroraplan.outfiles import check_output_path, write_bytes_atomic
+    from auroraplan.store import protected_inputs
     from auroraplan.workspace import load_workspace, solar_wind_for
 
     ws = load_workspace(args.workspace)
     solar_wind = solar_wind_for(ws, args.solarwind)
-    protected = list(ws.files.values()) + ([solar_wind.path] if solar_wind else [])
+    protected = (protected_inputs(ws, args.database)
+                 + ([solar_wind.path] if solar_wind else []))
     outputs = {k: check_output_path(v, protected)
                for k, v in (("html", args.html), ("png", args.png)) if v}
     date = args.date or tonight_date(ws.operator.timezone)

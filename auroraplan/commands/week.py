@@ -45,10 +45,11 @@ def run(args):
     from auroraplan.commands._common import open_record, print_json
     from auroraplan.commands._progress import working
     from auroraplan.outfiles import check_output_path
+    from auroraplan.store import protected_inputs
     from auroraplan.workspace import load_workspace
 
     ws = load_workspace(args.workspace)
-    protected = list(ws.files.values())
+    protected = protected_inputs(ws, args.database)
     outputs = {k: check_output_path(v, protected)
                for k, v in (("csv", args.csv), ("ics", args.ics), ("png", args.png)) if v}
     assumptions = whatif.from_args(args)
