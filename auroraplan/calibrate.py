@@ -117,8 +117,12 @@ def _to_settings(x, held):
     return {**held, "display_active": active, "display_quiet": share * active, "moon_beta": beta}
 
 
-def fit_settings(parts: Parts, y, current: dict) -> dict:
-    """Maximum-likelihood display_quiet, display_active and moon_beta (L-BFGS-B, scipy)."""
+def fit_settings(parts: Parts, y, current: dict, guess: dict | None = None) -> dict:
+    """Maximum-likelihood display_quiet, display_active and moon_beta (L-BFGS-B, scipy).
+
+    Started from the current settings and from a middle point, the better kept; with
+    ``guess`` (a fit already made, as for bootstrap resamples) from that alone.
+    """
     from scipy.optimize import minimize
 
     y = np.asarray(y, float)
@@ -126,7 +130,11 @@ def fit_settings(parts: Parts, y, current: dict) -> dict:
     bounds = [BOUNDS["display_active"], BOUNDS["quiet_share"], BOUNDS["moon_beta"]]
     start_share = current["display_quiet"] / max(current["display_active"], _EPS)
     best = None
-    for x0 in ((current["display_active"], start_share, current["moon_beta"]), (0.5, 0.5, 1.0)):
+    starts = ((current["display_active"], start_share, current["moon_beta"]), (0.5, 0.5, 1.0))
+    if guess is not None:
+        starts = ((guess["display_active"],
+                   guess["display_quiet"] / max(guess["display_active"], _EPS), guess["moon_beta"]),)
+    for x0 in starts:
         x0 = [min(max(v, lo), hi) for v, (lo, hi) in zip(x0, bounds, strict=True)]
         res = minimize(lambda x: -_log_likelihood(night_chances(parts, _to_settings(x, held)), y),
                        x0, method="L-BFGS-B", bounds=bounds)
@@ -226,11 +234,11 @@ def calibrate(y, nights, issued, factors, step_min, current: dict, n_boot=BOOTST
         parts = prepare([factors[i] for i in range(n)], step_min)
         cur = {k: float(current[k]) for k in FITTED + ("decorrelation_min",)}
 
-        def fit(idx):
-            return fit_settings(_subset(parts, idx), y[idx], cur)
+        def fit(idx, guess=None):
+            return fit_settings(_subset(parts, idx), y[idx], cur, guess)
 
         fitted = fit(np.arange(n))
-        boot = _bootstrap(fit, nights, rng, n_boot)
+        boot = _bootstrap(lambda idx: fit(idx, fitted), nights, rng, n_boot)
         rows = []
         for name in FITTED:
             values = np.array([b[name] for b in boot])

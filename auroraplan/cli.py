@@ -23,6 +23,7 @@ COMMANDS = {
     "arrival": ("arrival", "arrival window of a coronal mass ejection and the nights it touches"),
     "logbook": ("logbook", "add or import what the guides saw (aurora, cloud) per site and night"),
     "verify": ("verify", "how good the issued chances have been against the logbook"),
+    "calibrate": ("calibrate", "fit the [chance] settings to the logbook; writes a suggestion to review"),
 }
 
 

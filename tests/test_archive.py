@@ -173,3 +173,17 @@ def test_verify_json_brier_is_the_mean_over_the_pairs_it_lists(recorded, tmp_pat
     # the skill score's reference is the climatology outlook of the same sites and night
     ref = [(p["outlook"] - p["outcome"]) ** 2 for p in pairs]
     assert got["overall"]["brier_reference"] == pytest.approx(np.mean(ref), abs=1e-9)
+
+
+def test_calibrate_never_writes_operator_toml(recorded, tmp_path):
+    ws, _ = recorded
+    run = [sys.executable, "-m", "auroraplan.cli", "calibrate", str(ws), "--resamples", "20"]
+    before = (ws / "operator.toml").read_bytes()
+    refused = subprocess.run([*run, "--out", str(ws / "operator.toml")], capture_output=True,
+                             text=True)
+    assert refused.returncode == 2 and "input" in refused.stderr
+    done = subprocess.run([*run, "--out", str(tmp_path / "s.toml"), "--json"],
+                          capture_output=True, text=True)
+    assert done.returncode == 0, done.stderr
+    assert json.loads(done.stdout)["outcomes"] >= 0
+    assert (ws / "operator.toml").read_bytes() == before

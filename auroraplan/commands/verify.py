@@ -26,9 +26,7 @@ def add_arguments(parser):
 def run(args):
     from auroraplan import archive, verify
     from auroraplan.commands._common import print_json
-    from auroraplan.errors import InputError
-    from auroraplan.logbook import AURORA_LEVELS, stored_entries
-    from auroraplan.store import database_path, open_store, protected_files
+    from auroraplan.store import database_path, protected_files
     from auroraplan.workspace import load_workspace
 
     ws = load_workspace(args.workspace)
@@ -38,31 +36,11 @@ def run(args):
 
         png_path = check_output_path(args.png, list(ws.files.values())
                                      + protected_files(database_path(ws.path)))
-    db = open_store(database_path(ws.path), create=False)
-    if db is None:
-        raise InputError(f"{database_path(ws.path)}: no workspace database yet; run `week` and "
-                         "`logbook import` first")
-    tz = ws.operator.timezone
-    with db:
-        entries = stored_entries(db, args.first and args.first.isoformat(),
-                                 args.last and args.last.isoformat())
-        outcomes = {}
-        for e in entries:
-            key = (e.site, e.night)
-            level, start = outcomes.get(key, ("none", None))
-            best = max(level, e.aurora, key=AURORA_LEVELS.index)
-            starts = [s for s in (start, e.out_from) if s]
-            outcomes[key] = (best, min(starts) if starts else None)
-        pairs, unpaired = [], 0
-        for (site, night), (level, out_from) in sorted(outcomes.items(), key=lambda kv: kv[0][::-1]):
-            got = archive.issued_for(db, site, night, out_from, tz)
-            if got is None:
-                unpaired += 1
-                continue
-            seen = AURORA_LEVELS.index(level) >= AURORA_LEVELS.index(args.seen_from)
-            pairs.append({"site": site, "night": night, "aurora": level, "outcome": int(seen),
-                          "chance": got.chance, "kind": got.kind, "made_at": got.made_at,
-                          "lead_hours": got.lead_hours, "after_start": got.after_start})
+    issued, logged, unpaired = logged_pairs(ws, args)
+    pairs = [{"site": g.site, "night": g.night, "aurora": level, "outcome": seen,
+              "chance": g.chance, "kind": g.kind, "made_at": g.made_at,
+              "lead_hours": g.lead_hours, "after_start": g.after_start}
+             for g, level, seen in issued]
     reference = outlook_chances(ws, pairs)
     for p in pairs:
         p["outlook"] = reference.get((p["site"], p["night"]))
@@ -78,7 +56,7 @@ def run(args):
         "pairing": "the chance of a sighting during the outing window issued last before the "
                    "group went out (logged hours out, else the outing hours); where every "
                    "chance was made later, the first one (after_start)",
-        "logged_site_nights": len(outcomes),
+        "logged_site_nights": logged,
         "unpaired": unpaired,
         "after_start": sum(p["after_start"] for p in pairs),
         "reference": "the Kp-climatology outlook: the same chance model with Kp from "
@@ -101,6 +79,43 @@ def run(args):
         if png_path:
             print(f"wrote {png_path}")
     return 0
+
+
+def logged_pairs(ws, args):
+    """Each logged site-night with the chance issued for it (archive.issued_for).
+
+    Several entries of one site and night count once: the strongest aurora any of them saw,
+    and the earliest time out. Returns ([(Issued, level, outcome 0/1)], logged site-nights,
+    how many had no issued chance).
+    """
+    from auroraplan import archive
+    from auroraplan.errors import InputError
+    from auroraplan.logbook import AURORA_LEVELS, stored_entries
+    from auroraplan.store import database_path, open_store
+
+    db = open_store(database_path(ws.path), create=False)
+    if db is None:
+        raise InputError(f"{database_path(ws.path)}: no workspace database yet; run `week` and "
+                         "`logbook import` first")
+    with db:
+        entries = stored_entries(db, args.first and args.first.isoformat(),
+                                 args.last and args.last.isoformat())
+        outcomes = {}
+        for e in entries:
+            level, start = outcomes.get((e.site, e.night), ("none", None))
+            starts = [t for t in (start, e.out_from) if t]
+            outcomes[(e.site, e.night)] = (max(level, e.aurora, key=AURORA_LEVELS.index),
+                                           min(starts) if starts else None)
+        found, unpaired = [], 0
+        for (site, night), (level, out_from) in sorted(outcomes.items(),
+                                                       key=lambda kv: kv[0][::-1]):
+            got = archive.issued_for(db, site, night, out_from, ws.operator.timezone)
+            if got is None:
+                unpaired += 1
+                continue
+            seen = int(AURORA_LEVELS.index(level) >= AURORA_LEVELS.index(args.seen_from))
+            found.append((got, level, seen))
+    return found, len(outcomes), unpaired
 
 
 def outlook_chances(ws, pairs) -> dict:
