@@ -135,6 +135,11 @@ class ChanceGrid:
     sky_brightening_mag: np.ndarray | None = None  # (N, T) dark − moonlit sky, mag ≥ 0
     p_reach: np.ndarray | None = None  # (N, T) P(Kp needed ≤ Kp < Kp lost)
     p_strong: np.ndarray | None = None  # (N, T) the same with the strong margin
+    cloud_source: np.ndarray | None = None  # (N, T) str, weather.CloudGrid.source
+    cloud_models: list = field(default_factory=list)  # (M,) weather-model names
+    cloud_model_pct: np.ndarray | None = None  # (M, N, T) each model's cloud, percent
+    cloud_spread_pct: np.ndarray | None = None  # (N, T) largest minus smallest model value
+    cloud_note: str = ""  # where the cloud figures come from (weather.source_note)
 
 
 def moon_factor(dark_sky_mag, moonlit_sky_mag, beta=DEFAULT_SETTINGS["moon_beta"]):
@@ -247,7 +252,7 @@ def compute_grid(
         Kp estimated from upstream solar wind; laid over the forecast for the hours it
         covers (``solarwind.blend``).
     """
-    from auroraplan import magnetic, sky, view, weather
+    from auroraplan import magnetic, sky, view
     from auroraplan.activity import forecast_at
 
     cfg = settings_for(ws, settings)
@@ -317,12 +322,9 @@ def compute_grid(
     p_reach, p_strong = activity_parts(p_at_least, kp_needed, kp_lost, cfg)
     activity = display_probability(p_reach, p_strong, cfg)
 
-    if use_clouds:
-        p_clear, cloud_pct, cloud_warnings = weather.clear_probability(sites, ws.clouds, times_utc, tz=op.timezone)
-    else:
-        empty = ws.clouds.iloc[0:0] if ws.clouds is not None else None
-        p_clear, cloud_pct, cloud_warnings = weather.clear_probability(sites, empty, times_utc, tz=op.timezone)
-    warnings.extend(cloud_warnings)
+    cloud = cloud_for(ws, sites, times_utc, arr, use_clouds)
+    p_clear, cloud_pct = cloud.p_clear, cloud.cloud_pct
+    warnings.extend(cloud.warnings)
 
     # Per step: the chance of a visible display in one decorrelation time
     # around it; also the expected share of the step with a display in sight.
@@ -338,7 +340,31 @@ def compute_grid(
         nowcast_weight=nowcast_weight,
         sky_brightening_mag=np.maximum(arr["sky_mag"][:, None] - moonlit, 0.0),
         p_reach=p_reach, p_strong=p_strong,
+        cloud_source=cloud.source, cloud_models=cloud.models, cloud_model_pct=cloud.model_pct,
+        cloud_spread_pct=cloud.spread_pct, cloud_note=cloud.note,
     )
+
+
+def cloud_for(ws, sites, times_utc, arr, use_clouds=True):
+    """weather.CloudGrid for the sites: clouds.csv, the weather-model files and sky reports
+    of the workspace, else climatology only (``use_clouds`` False, for long ranges)."""
+    from auroraplan import weather
+
+    settings = weather.settings_from(ws.operator.settings)
+    if not use_clouds:
+        return weather.cloud_grid(sites, None, times_utc, tz=ws.operator.timezone,
+                                  settings=settings)
+    reading = at_reports = None
+    if ws.weather_files:
+        from auroraplan.weatherfiles import read_cached
+
+        reading = read_cached(ws.weather_files, arr["lat"], arr["lon"], settings.layer_weights)
+        if ws.sky_reports:
+            at_reports = read_cached(ws.weather_files, [r.lat for r in ws.sky_reports],
+                                     [r.lon for r in ws.sky_reports], settings.layer_weights)
+    return weather.cloud_grid(sites, ws.clouds, times_utc, tz=ws.operator.timezone,
+                              reading=reading, reports=ws.sky_reports, settings=settings,
+                              report_reading=at_reports)
 
 
 LOOK_KP_BELOW_LOST = 0.01

@@ -294,6 +294,8 @@ def tonight_report(ws, date: dt.date, top: int | None = None, now=None, climatol
         "sites": rows,
         "chance_terms": CHANCE_TERMS,
         "chance_explained": CHANCE_EXPLAINED,
+        "cloud_note": grid.cloud_note,
+        "cloud_models": grid.cloud_models,
         "warnings": list(dict.fromkeys(ws.warnings + grid.warnings)),
         "cautions": CAUTIONS,
         "notice": FORECAST_NOT_PROMISE,
@@ -386,6 +388,7 @@ def _tonight_site(ws, grid, summary, site, i, rank, tz):
         "kp": _num(grid.kp_mean[step], 2),
         **look_fields(grid, i, step),
         "cloud_pct": _num(cloud_window, 0),
+        **_window_cloud(grid, summary, i),
         "moon_illumination": _num(np.mean(grid.moon_illumination), 2),
         "moon_up_hours": _num(moon_up.sum() * grid.step_min / 60.0, 1),
         "drive_min": site.drive_min,
@@ -447,6 +450,10 @@ def _hourly_rows(grid, i, tz, settings):
             "kp_from": _kp_from(grid, sl),
             **look_fields(grid, i, mid),
         }))
+        p = p_display_seen(shown[sl], grid.p_clear[i, sl], grid.step_min, cfg["decorrelation_min"])
+        rows.append({"time": local_iso(grid.times_utc[start], tz), "zone": _zone_name(
+            grid.times_utc[start], tz), "chance": _num(p, 3),
+            "kp_from": _kp_from(grid, sl), **cloud_at_step(grid, i, start)})
     return rows
 
 
@@ -549,6 +556,56 @@ def nowcast_info(cast, solar_wind, grid, tz) -> dict | None:
         "left_out": solar_wind.left_out,
         "estimate": [{"time": local_iso(t, tz), "kp": _num(k, 2), "kp_sd": _num(sd, 2)}
                      for t, k, sd in zip(cast.times_utc, cast.kp, cast.kp_sd, strict=True)],
+    }
+
+
+CLOUD_SOURCE_WORDS = {
+    "clouds.csv": "clouds.csv",
+    "models": "weather models",
+    "climatology": "climate average",
+    "default": "default clear-sky share",
+}
+"""How each source of a cloud figure (weather.CloudGrid.source) is named in reports."""
+
+
+def cloud_at_step(grid, i, step) -> dict:
+    """The cloud at site ``i`` at one time step: the figure used, where it came from, each
+    weather model's value and the models' spread (largest minus smallest)."""
+    models = {}
+    if grid.cloud_model_pct is not None:
+        for m, name in enumerate(grid.cloud_models):
+            value = grid.cloud_model_pct[m, i, step]
+            if np.isfinite(value):
+                models[name] = _num(value, 1)
+    source = grid.cloud_source[i, step] if grid.cloud_source is not None else None
+    spread = grid.cloud_spread_pct[i, step] if grid.cloud_spread_pct is not None else np.nan
+    return {
+        "cloud_pct": _num(grid.cloud_pct[i, step], 1),
+        "cloud_source": CLOUD_SOURCE_WORDS.get(source, source),
+        "cloud_models": models,
+        "cloud_spread_pct": _num(spread, 1),
+    }
+
+
+def _window_cloud(grid, summary, i) -> dict:
+    """Cloud over a site's best window: each model's mean, the mean spread, and the source
+    of most of its steps (the peak step's when there is no window)."""
+    start, end = summary.window_start[i, 0], summary.window_end[i, 0]
+    sel = ((grid.times_utc >= start) & (grid.times_utc < end)) if not np.isnat(start) else \
+        np.zeros(grid.times_utc.shape, bool)
+    if not sel.any():
+        return {"cloud_source": None, "cloud_models": {}, "cloud_spread_pct": None}
+    models = {}
+    for m, name in enumerate(grid.cloud_models):
+        values = grid.cloud_model_pct[m, i, sel]
+        if np.isfinite(values).any():
+            models[name] = _num(np.nanmean(values), 0)
+    sources, counts = np.unique(grid.cloud_source[i, sel], return_counts=True)
+    spread = grid.cloud_spread_pct[i, sel]
+    return {
+        "cloud_source": CLOUD_SOURCE_WORDS.get(sources[np.argmax(counts)]),
+        "cloud_models": models,
+        "cloud_spread_pct": _num(np.nanmean(spread), 0) if np.isfinite(spread).any() else None,
     }
 
 
@@ -742,6 +799,8 @@ def week_report(ws, start: dt.date, nights: int = 7, progress=None, now=None,
                        for i in range(len(sites))],
             "kinds": list(summary.kind),
         },
+        "cloud_note": grid.cloud_note,
+        "cloud_models": grid.cloud_models,
         "warnings": shortfalls + [note_warning(w) for w in dict.fromkeys(
             ws.warnings + grid.warnings + record_notes)],
         "cautions": CAUTIONS,

@@ -182,6 +182,8 @@ class SkyReport:
     site: str
     cloud_pct: float
     time_utc: np.datetime64
+    lat: float
+    lon: float
 
 
 @dataclass
@@ -196,6 +198,7 @@ class CloudGrid:
     model_weight: np.ndarray  # (M, N, T) weight of each model in the figure
     spread_pct: np.ndarray  # (N, T) largest minus smallest model value; NaN with < 2 models
     warnings: list = field(default_factory=list)
+    note: str = ""  # one sentence: where the cloud figures come from
 
 
 def blend_models(model_pct, weight):
@@ -281,14 +284,23 @@ def _great_circle_km(lat1, lon1, lat2, lon2):
     return 2 * 6371.0 * np.arcsin(np.sqrt(np.clip(a, 0, 1)))
 
 
-def sky_weights(sites, times_s, names, series, reports, settings=WeatherSettings()):
+def sky_weights(sites, times_s, names, reports, at_report, settings=WeatherSettings()):
     """Model weights (M, N, T) after the sky seen at sites now, and one line per report.
 
-    For each report, each model's error e_m = |C_m(site, report time) - observed|, and its
-    weight w_m = exp(-(e_m / sky_sd_pct)² / 2) (a Gaussian likelihood of the observation;
-    an assumption), applied at sites within ``sky_radius_km`` of the reported site for
-    ``sky_hours`` after the report; the nearest report counts where several reach a site.
-    Everywhere else every model weighs 1.
+    For each report, each model's error e_m = |C_m(report site, report time) - observed|,
+    and its weight w_m = exp(-(e_m / sky_sd_pct)² / 2) (a Gaussian likelihood of the
+    observation; an assumption), scaled so the best model weighs 1, applied at sites within
+    ``sky_radius_km`` of the reported site for ``sky_hours`` after the report; the nearest
+    report counts where several reach a site. Everywhere else every model weighs 1.
+
+    Parameters
+    ----------
+    sites : list of Site (N)
+    times_s : numpy.ndarray of int (T,)
+    names : list of str (M,)
+    reports : list of SkyReport (R)
+    at_report : numpy.ndarray (M, R)
+        Each model's cloud at each report's place and time, percent (NaN = no value).
     """
     weight = np.ones((len(names), len(sites), len(times_s)))
     lines = []
@@ -299,26 +311,23 @@ def sky_weights(sites, times_s, names, series, reports, settings=WeatherSettings
                         "weather-model files to compare with; the report is not used"]
     lat = np.array([s.lat for s in sites], float)
     lon = np.array([s.lon for s in sites], float)
-    index = {s.name: i for i, s in enumerate(sites)}
     best_km = np.full(len(sites), np.inf)
-    for report in reports:
-        i = index[report.site]
-        t_obs = np.array([np.datetime64(report.time_utc, "s").astype(np.int64)])
-        _, at_obs, _ = models_at(series, t_obs, settings)
-        seen = at_obs[:, i, 0]
+    for r, report in enumerate(reports):
+        seen = at_report[:, r]
         if not np.isfinite(seen).any():
             lines.append(f"sky reported at {report.site}: no model covers it at the report "
                          "time; the report is not used")
             continue
         error = np.abs(seen - report.cloud_pct)
-        w = np.where(np.isfinite(error), np.exp(-0.5 * (error / settings.sky_sd_pct) ** 2), 1.0)
-        w = w / w.max()
-        km = _great_circle_km(lat[i], lon[i], lat, lon)
+        w = np.where(np.isfinite(error), np.exp(-0.5 * (error / settings.sky_sd_pct) ** 2), 0.0)
+        w = np.where(np.isfinite(error), w / w.max(), 1.0)
+        km = _great_circle_km(report.lat, report.lon, lat, lon)
         near = (km <= settings.sky_radius_km) & (km < best_km)
         best_km = np.where(near, km, best_km)
-        soon = (times_s >= t_obs[0]) & (times_s <= t_obs[0] + settings.sky_hours * 3600)
-        weight[:, near[:, None] & soon[None, :]] = 0.0
-        weight += w[:, None, None] * (near[:, None] & soon[None, :])[None]
+        t0 = np.datetime64(report.time_utc, "s").astype(np.int64)
+        soon = (times_s >= t0) & (times_s <= t0 + settings.sky_hours * 3600)
+        mask = near[:, None] & soon[None, :]
+        weight[:, mask] = w[:, None]
         ranked = sorted(zip(names, w, error, strict=True), key=lambda x: -x[1])
         told = ", ".join(f"{n} weight {v:.2f}" + (f" (off by {e:.0f} points)"
                                                  if np.isfinite(e) else " (no value)")
@@ -329,8 +338,21 @@ def sky_weights(sites, times_s, names, series, reports, settings=WeatherSettings
     return weight, lines
 
 
+def models_at_reports(series, names, reports, settings=WeatherSettings()):
+    """Each model's cloud at each report's place and time (M, R); ``series`` were read at
+    the reports' places, in the order of ``reports``."""
+    out = np.full((len(names), len(reports)), np.nan)
+    for r, report in enumerate(reports):
+        t = np.array([np.datetime64(report.time_utc, "s").astype(np.int64)])
+        got_names, values, _ = models_at(series, t, settings)
+        for m, name in enumerate(got_names):
+            if name in names:
+                out[names.index(name), r] = values[m, r, 0]
+    return out
+
+
 def cloud_grid(sites, clouds_df, times_utc, tz=None, reading=None, reports=(),
-               settings=WeatherSettings()):
+               settings=WeatherSettings(), report_reading=None):
     """Cloud and P(clear sky) per site and time, from every source, with provenance.
 
     Order of preference per site and time: clouds.csv (interpolated by ``cloud_at``; it
@@ -349,6 +371,9 @@ def cloud_grid(sites, clouds_df, times_utc, tz=None, reading=None, reports=(),
         Series read from the weather-model files for these sites.
     reports : sequence of SkyReport
     settings : WeatherSettings
+    report_reading : weatherfiles.FileReading or None
+        The files read at the reports' places (in their order); None reads each report's
+        value from ``reading`` at the site of the same name.
 
     Returns
     -------
@@ -373,7 +398,17 @@ def cloud_grid(sites, clouds_df, times_utc, tz=None, reading=None, reports=(),
             last = max(v[-1] for v in mine if v.size)
             warnings.append(f"{path}: its valid times ({first}Z to {last}Z) miss the nights "
                             "asked for; the file is not used")
-    weight, sky_lines = sky_weights(sites, times_s, names, series, list(reports), settings)
+    reports = list(reports)
+    if report_reading is not None:
+        at_report = models_at_reports(report_reading.series, names, reports, settings)
+    else:
+        index = {site.name: i for i, site in enumerate(sites)}
+        at_report = np.full((len(names), len(reports)), np.nan)
+        for r, report in enumerate(reports):
+            if report.site in index:
+                t = np.array([np.datetime64(report.time_utc, "s").astype(np.int64)])
+                at_report[:, r] = models_at(series, t, settings)[1][:, index[report.site], 0]
+    weight, sky_lines = sky_weights(sites, times_s, names, reports, at_report, settings)
     warnings.extend(sky_lines)
     model_cloud, spread = blend_models(model_pct, weight) if names else (
         np.full((n, times.size), np.nan), np.full((n, times.size), np.nan))
@@ -408,9 +443,31 @@ def cloud_grid(sites, clouds_df, times_utc, tz=None, reading=None, reports=(),
         f"using P(clear) = {DEFAULT_CLEAR}"
         for site, flag in zip(sites, needs_default.any(axis=1), strict=True) if flag
     )
+    told = reading is not None or clouds_df is not None
     return CloudGrid(p_clear=p_clear, cloud_pct=cloud, source=source, models=names,
                      model_pct=model_pct, model_weight=weight, spread_pct=spread,
-                     warnings=warnings)
+                     warnings=warnings, note=source_note(source, names, bool(np.isfinite(model_pct).any()))
+                     if told else "")
+
+
+def source_note(source, names, have_values=False) -> str:
+    """One sentence saying where the cloud figures come from (``CloudGrid.source``)."""
+    used = set(np.unique(source).tolist())
+    parts = []
+    if "clouds.csv" in used:
+        parts.append("clouds.csv" + (" (it wins over the weather models)" if names else ""))
+    if names and "models" in used:
+        parts.append(f"weather models {', '.join(names)}"
+                     + (" (their mean; spread = largest minus smallest)" if len(names) > 1 else ""))
+    elif names and have_values:
+        parts.append(f"weather models {', '.join(names)} shown beside it")
+    elif names:
+        parts.append(f"weather models {', '.join(names)} (no value for these hours)")
+    else:
+        parts.append("no weather-model files")
+    if used & {"climatology", "default"}:
+        parts.append("the monthly climate average where no forecast reaches")
+    return "Cloud: " + "; ".join(parts) + "."
 
 
 def clear_probability(sites, clouds_df, times_utc, tz=None, reading=None, reports=(),

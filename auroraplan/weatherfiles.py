@@ -582,6 +582,24 @@ def _split(path, model, cloud, dims, run_dim, step_dim, member_dim, ref, valid, 
     return out
 
 
+_READINGS: dict = {}
+_READINGS_KEPT = 4
+
+
+def read_cached(paths, lat, lon, layer_weights=(1.0, 0.8, 0.5)) -> FileReading:
+    """``read_weather_files``, remembered for the same files (path, size, modification time)
+    and sites, so that the reports of one command read each file once."""
+    lat = np.ascontiguousarray(lat, dtype=float)
+    lon = np.ascontiguousarray(lon, dtype=float)
+    stamp = tuple((str(p), Path(p).stat().st_size, Path(p).stat().st_mtime_ns) for p in paths)
+    key = (stamp, lat.tobytes(), lon.tobytes(), tuple(layer_weights))
+    if key not in _READINGS:
+        if len(_READINGS) >= _READINGS_KEPT:
+            _READINGS.pop(next(iter(_READINGS)))
+        _READINGS[key] = read_weather_files(paths, lat, lon, layer_weights)
+    return _READINGS[key]
+
+
 def read_weather_files(paths, lat, lon, layer_weights=(1.0, 0.8, 0.5)) -> FileReading:
     """Cloud at the sites from every weather-model file given.
 

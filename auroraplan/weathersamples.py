@@ -18,7 +18,7 @@ GRIB_LAYERS = {"low": 3073, "medium": 3074, "high": 3075}
 
 
 def write_grib2(path, lats, lons, reference_utc, steps_h, fields, *, param_id=228164,
-                centre="ecmf", process=None, member=None, append=False):
+                centre="ecmf", process=None, member=None, append=False, bits_per_value=16):
     """Write a regular latitude/longitude GRIB2 file, one message per step.
 
     Parameters
@@ -43,6 +43,8 @@ def write_grib2(path, lats, lons, reference_utc, steps_h, fields, *, param_id=22
         Ensemble member number (product definition template 4.1), None for a single run.
     append : bool
         Add to an existing file.
+    bits_per_value : int
+        Simple packing precision (16: 0-100 % to 0.002; 8: to 0.4).
     """
     from auroraplan.weatherfiles import eccodes_module
 
@@ -79,7 +81,7 @@ def write_grib2(path, lats, lons, reference_utc, steps_h, fields, *, param_id=22
                     ("jScansPositively", int(lats[-1] > lats[0])),
                 ):
                     eccodes.codes_set(handle, key, value)
-                eccodes.codes_set(handle, "bitsPerValue", 16)
+                eccodes.codes_set(handle, "bitsPerValue", int(bits_per_value))
                 eccodes.codes_set_values(handle, fields[k].ravel())
                 eccodes.codes_write(handle, out)
             finally:

@@ -87,6 +87,19 @@ class Workspace:
     clouds: object  # pandas.DataFrame: site, time_utc (UTC), cloud_pct (float)
     files: dict = field(default_factory=dict)  # role -> Path actually read
     warnings: list = field(default_factory=list)
+    sky_reports: list = field(default_factory=list)  # weather.SkyReport from --sky
+
+    @property
+    def weather_files(self) -> list:
+        """The weather-model files to read: ``files`` entries whose role starts "weather:"."""
+        return [path for role, path in self.files.items() if role.startswith("weather:")]
+
+    def add_weather_files(self, paths) -> None:
+        """Add files given on the command line (``--weather``); InputError when one is missing."""
+        from auroraplan.weatherfiles import weather_files
+
+        for path in weather_files(self.path, paths):
+            self.files.setdefault(f"weather:{path}", path)
 
 
 # ---------------------------------------------------------------------------------------
@@ -1446,6 +1459,10 @@ def load_workspace(path) -> Workspace:
     else:
         warnings.append(f"{folder / FILE_NAMES['clouds']}: not found; no cloud forecast, "
                         "chances use each site's monthly clear-sky fraction")
+    from auroraplan.weatherfiles import weather_files
+
+    for weather_path in weather_files(folder):
+        found[f"weather:{weather_path}"] = weather_path
     if lines:
         raise InputError(lines)
     return Workspace(

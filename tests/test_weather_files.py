@@ -313,7 +313,8 @@ def test_a_sky_report_prefers_the_model_that_matches_it(tmp_path):
     lat, lon = np.append(SITE_LAT, 69.6492), np.append(SITE_LON, 18.98)
     near = sites(lat, lon)
     reading = read_weather_files([tmp_path / "a.grib2", tmp_path / "b.grib2"], lat, lon)
-    report = SkyReport(site="Site 0", cloud_pct=30.0, time_utc=np.datetime64("2027-01-12T18:00"))
+    report = SkyReport(site="Site 0", cloud_pct=30.0, time_utc=np.datetime64("2027-01-12T18:00"),
+                       lat=SITE_LAT[0], lon=SITE_LON[0])
     grid = cloud_grid(near, None, hours(), reading=reading, reports=[report],
                       settings=WeatherSettings(sky_radius_km=50, sky_hours=3, sky_sd_pct=20))
     # by hand: errors 10 and 50 points; weights exp(-0.125) = 0.8825, exp(-3.125) = 0.0439,

@@ -107,6 +107,33 @@ def time_zone(text: str) -> str:
     return text
 
 
+def sky_report(text: str) -> tuple:
+    """``--sky SITE=PCT`` or ``SITE=PCT@HH:MM``: (site name, cloud percent, "HH:MM" or None)."""
+    allowed = "give SITE=PCT, e.g. 'Delta Flats=30', or SITE=PCT@HH:MM for a local time"
+    name, sep, rest = text.rpartition("=")
+    if not sep or not name.strip():
+        raise argparse.ArgumentTypeError(f"{quoted(text)} is not SITE=PCT; {allowed}")
+    value, _, clock = rest.partition("@")
+    pct = number_range(0.0, 100.0, "cloud cover in percent")(value.strip().rstrip("%").strip())
+    if clock:
+        try:
+            hours, minutes = (int(p) for p in clock.strip().split(":"))
+            if not (0 <= hours < 24 and 0 <= minutes < 60):
+                raise ValueError
+        except ValueError:
+            raise argparse.ArgumentTypeError(
+                f"{quoted(text)}: {quoted(clock)} is not a clock time; {allowed}") from None
+        clock = f"{hours:02d}:{minutes:02d}"
+    return name.strip(), pct, clock or None
+
+
+def add_weather_option(parser) -> None:
+    """The repeatable ``--weather FILE`` option of the commands that read cloud."""
+    parser.add_argument("--weather", metavar="FILE", action="append", default=[],
+                        help="also read this GRIB or NetCDF weather-model file (repeatable); "
+                             "files in WORKSPACE/weather/ are always read")
+
+
 def print_json(obj) -> None:
     """Print a result as JSON on standard output."""
     json.dump(obj, sys.stdout, indent=2, ensure_ascii=False, default=_json_default)

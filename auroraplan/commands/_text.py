@@ -23,6 +23,8 @@ def print_notes(out, result) -> bool:
         return False
     if result.get("forecast"):
         out.print(f"[dim]{result['forecast']['note']}[/]")
+    if result.get("cloud_note"):
+        out.print(f"[dim]{result['cloud_note']}[/]", soft_wrap=True)
     if result.get("darkness_note"):
         out.print(f"[bold]{result['darkness_note']}[/]", soft_wrap=True)
     return True

@@ -8,7 +8,13 @@ backup, window, where to look, and whether to go, wait or swap to the backup.
 """
 
 from auroraplan import whatif
-from auroraplan.commands._common import add_record_options, int_range, iso_date
+from auroraplan.commands._common import (
+    add_record_options,
+    add_weather_option,
+    int_range,
+    iso_date,
+    sky_report,
+)
 
 
 def add_arguments(parser):
@@ -20,6 +26,11 @@ def add_arguments(parser):
     parser.add_argument("--trip", metavar="ID",
                         help="the group's run sheet: its planned outing tonight first "
                              "(the trip's id in trips.csv)")
+    add_weather_option(parser)
+    parser.add_argument("--sky", metavar="SITE=PCT", action="append", default=[], type=sky_report,
+                        help="cloud seen now at a site, percent (repeatable; SITE=PCT@HH:MM "
+                             "for another local time tonight): the weather models that "
+                             "match it count more at nearby sites for the next hours")
     parser.add_argument("--json", action="store_true", help="print the result as JSON")
     parser.add_argument("--no-record", action="store_true",
                         help="do not keep these chances in the workspace database (they are "
@@ -55,6 +66,7 @@ def run(args):
     from auroraplan.workspace import load_workspace, solar_wind_for
 
     ws = load_workspace(args.workspace)
+    ws.add_weather_files(args.weather)
     solar_wind = solar_wind_for(ws, args.solarwind)
     protected = (protected_inputs(ws, args.database)
                  + ([solar_wind.path] if solar_wind else []))
@@ -62,6 +74,7 @@ def run(args):
                for k, v in (("html", args.html), ("png", args.png)) if v}
     date = args.date or tonight_date(ws.operator.timezone)
     ws, what_if = whatif.apply(ws, whatif.from_args(args), date, date)
+    ws.sky_reports = sky_reports(ws, date, args.sky)
     sheet = None
     # A what-if run's chances rest on assumptions, not on the forecast: they are not kept.
     keep = None if args.no_record or what_if else recorder(
@@ -103,6 +116,45 @@ def run(args):
         for path in outputs.values():
             print(f"wrote {path}")
     return 0
+
+
+def sky_reports(ws, date, given, now=None) -> list:
+    """weather.SkyReport for each ``--sky``; a report without a clock time is for now, so
+    it needs tonight's date."""
+    import datetime as dt
+    from zoneinfo import ZoneInfo
+
+    import numpy as np
+
+    from auroraplan.errors import InputError
+    from auroraplan.weather import SkyReport
+
+    sites = {s.name: s for s in ws.sites}
+    zone = ZoneInfo(ws.operator.timezone)
+    now = now or dt.datetime.now(dt.UTC)
+    reports, problems = [], []
+    for name, pct, clock in given:
+        if name not in sites:
+            problems.append(f"--sky {name!r}: no site of that name in the sites file; known "
+                            f"sites: {', '.join(sorted(sites)[:12])}")
+            continue
+        if clock is None:
+            if date != tonight_date(ws.operator.timezone):
+                problems.append(f"--sky {name!r}: a sky seen now is for tonight only; drop "
+                                "--date, or give the local time as SITE=PCT@HH:MM")
+                continue
+            when = now
+        else:
+            hours, minutes = (int(p) for p in clock.split(":"))
+            day = date if hours >= 12 else date + dt.timedelta(days=1)
+            when = dt.datetime.combine(day, dt.time(hours, minutes), zone)
+        utc = np.datetime64(when.astimezone(dt.UTC).replace(tzinfo=None), "s")
+        site = sites[name]
+        reports.append(SkyReport(site=name, cloud_pct=pct, time_utc=utc, lat=site.lat,
+                                 lon=site.lon))
+    if problems:
+        raise InputError(problems)
+    return reports
 
 
 def page_for(ws, result, sheet=None) -> str:
@@ -173,9 +225,18 @@ def _cells(s) -> dict:
         "#": str(s["rank"]), "site": s["name"], "chance": chance_cell(s["chance"]),
         "window": span(s["window_start"], s["window_end"]) if s["window_start"] else "—",
         "drive": f"{s['drive_min']:.0f}′", "look": look, "limit": s["limiting"] or "—",
-        "cloud": f"{s['cloud_pct']:.0f}%" if s["cloud_pct"] is not None else "clim.",
+        "cloud": cloud_cell(s),
         "Kp": f"{s['kp_needed']:.1f}" if s["kp_needed"] is not None else "> 9",
     }
+
+
+def cloud_cell(site) -> str:
+    """The cloud figure, with the weather models' range when there are two or more."""
+    if site["cloud_pct"] is None:
+        return "clim."
+    values = list((site.get("cloud_models") or {}).values())
+    span = f" ({min(values):.0f}–{max(values):.0f})" if len(values) > 1 else ""
+    return f"{site['cloud_pct']:.0f}%{span}"
 
 
 def _table(columns, rows):

@@ -10,7 +10,7 @@ was added or dropped, and why). Confirm outings with `auroraplan confirm`.
 """
 
 from auroraplan import whatif
-from auroraplan.commands._common import add_record_options, int_range, iso_date
+from auroraplan.commands._common import add_record_options, add_weather_option, int_range, iso_date
 
 
 def add_week_arguments(parser):
@@ -24,6 +24,7 @@ def add_week_arguments(parser):
 
 def add_arguments(parser):
     add_week_arguments(parser)
+    add_weather_option(parser)
     parser.add_argument("--json", action="store_true", help="print the result as JSON")
     parser.add_argument("--no-record", action="store_true",
                         help="do not keep these chances in the workspace database "
@@ -49,6 +50,7 @@ def run(args):
     from auroraplan.workspace import load_workspace
 
     ws = load_workspace(args.workspace)
+    ws.add_weather_files(args.weather)
     protected = protected_inputs(ws, args.database)
     outputs = {k: check_output_path(v, protected)
                for k, v in (("csv", args.csv), ("ics", args.ics), ("png", args.png)) if v}

@@ -260,9 +260,17 @@ def _moon(site: dict, w: Words) -> str:
 
 def _cloud(site: dict, w: Words) -> str:
     cloud = site.get("cloud_pct")
-    if cloud is None:
-        return w("no cloud forecast (climate average used)")
-    return w("{percent} cover", percent=w.percent(cloud / 100.0))
+    text = (w("no cloud forecast (climate average used)") if cloud is None
+            else w("{percent} cover", percent=w.percent(cloud / 100.0)))
+    models = site.get("cloud_models") or {}
+    if cloud is not None and site.get("cloud_source"):
+        text += " " + w("(from {source})", source=w(site["cloud_source"]))
+    if models:
+        each = ", ".join(f"{name} {w.percent(value / 100.0)}" for name, value in models.items())
+        text += "; " + w("models: {each}", each=each)
+        if site.get("cloud_spread_pct") is not None:
+            text += "; " + w("spread {points} points", points=round(site["cloud_spread_pct"]))
+    return text
 
 
 def _drive(site: dict, w: Words) -> str:
