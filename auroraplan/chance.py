@@ -356,9 +356,16 @@ def cloud_for(ws, sites, times_utc, arr, use_clouds=True):
                                   settings=settings)
     reading = at_reports = None
     if ws.weather_files:
-        from auroraplan.weatherfiles import read_cached
+        from auroraplan.weatherfiles import read_cached, read_for_workspace
 
-        reading = read_cached(ws.weather_files, arr["lat"], arr["lon"], settings.layer_weights)
+        index = {site.name: i for i, site in enumerate(ws.sites)}
+        if all(site.name in index and (ws.sites[index[site.name]].lat,
+                                       ws.sites[index[site.name]].lon) == (site.lat, site.lon)
+               for site in sites):
+            reading = read_for_workspace(ws, settings).for_sites([index[s.name] for s in sites])
+        else:  # a place that is not one of the sites (the base)
+            reading = read_cached(ws.weather_files, arr["lat"], arr["lon"],
+                                  settings.layer_weights)
         if ws.sky_reports:
             at_reports = read_cached(ws.weather_files, [r.lat for r in ws.sky_reports],
                                      [r.lon for r in ws.sky_reports], settings.layer_weights)

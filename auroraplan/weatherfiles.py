@@ -87,6 +87,14 @@ class FileReading:
     files: list = field(default_factory=list)  # Path of every file read
     warnings: list = field(default_factory=list)
 
+    def for_sites(self, columns) -> FileReading:
+        """The same reading for a subset of its sites (indices into its site columns)."""
+        from dataclasses import replace
+
+        columns = np.asarray(columns, dtype=np.intp)
+        return FileReading([replace(s, cloud_pct=s.cloud_pct[:, columns]) for s in self.series],
+                           list(self.files), list(self.warnings))
+
 
 # ---------------------------------------------------------------------------------------
 # Which files
@@ -580,6 +588,18 @@ def _split(path, model, cloud, dims, run_dim, step_dim, member_dim, ref, valid, 
                               valid_utc=times[good][order_t], cloud_pct=values[good][order_t],
                               file=path))
     return out
+
+
+def read_for_workspace(ws, settings=None) -> FileReading | None:
+    """The workspace's weather files read at all its sites (None without files): called
+    before a command writes anything, so that a bad file stops it first."""
+    if not ws.weather_files:
+        return None
+    from auroraplan.weather import settings_from
+
+    settings = settings or settings_from(ws.operator.settings)
+    return read_cached(ws.weather_files, [s.lat for s in ws.sites], [s.lon for s in ws.sites],
+                       settings.layer_weights)
 
 
 _READINGS: dict = {}

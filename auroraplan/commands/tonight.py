@@ -63,10 +63,12 @@ def run(args):
     from auroraplan.commands._progress import working
     from auroraplan.outfiles import check_output_path, write_bytes_atomic
     from auroraplan.store import protected_inputs
+    from auroraplan.weatherfiles import read_for_workspace
     from auroraplan.workspace import load_workspace, solar_wind_for
 
     ws = load_workspace(args.workspace)
     ws.add_weather_files(args.weather)
+    read_for_workspace(ws)  # a bad weather file stops the command before anything is written
     solar_wind = solar_wind_for(ws, args.solarwind)
     protected = (protected_inputs(ws, args.database)
                  + ([solar_wind.path] if solar_wind else []))

@@ -47,10 +47,12 @@ def run(args):
     from auroraplan.commands._progress import working
     from auroraplan.outfiles import check_output_path
     from auroraplan.store import protected_inputs
+    from auroraplan.weatherfiles import read_for_workspace
     from auroraplan.workspace import load_workspace
 
     ws = load_workspace(args.workspace)
     ws.add_weather_files(args.weather)
+    read_for_workspace(ws)  # a bad weather file stops the command before anything is written
     protected = protected_inputs(ws, args.database)
     outputs = {k: check_output_path(v, protected)
                for k, v in (("csv", args.csv), ("ics", args.ics), ("png", args.png)) if v}
