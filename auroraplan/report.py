@@ -413,8 +413,10 @@ def hourly_chance(grid, i, tz, settings=None):
     over the hour's dark steps), so that ``chance_in_hour`` is about
     ``chance_if_clear × p_clear`` and the night's ``chance`` follows from the
     hours by the same rule; and at the middle of the hour the forecast ``kp``
-    (null where the forecast has no block), ``cloud_pct`` (hour mean, null
-    without a cloud forecast) and where to look (:func:`look_fields`).
+    (null where the forecast has no block), where to look (:func:`look_fields`), and the
+    cloud forecast for the hour (:func:`cloud_at_step`: ``cloud_pct`` valid at the hour's
+    start, as hourly weather forecasts are given, null without a forecast; its source, each
+    weather model's value and their spread).
 
     Hours are counted in elapsed time from local noon, so a night when the clocks go
     forward has one hour fewer and a night when they go back has the repeated hour twice,
@@ -436,7 +438,6 @@ def _hourly_rows(grid, i, tz, settings):
         if not dark.any():
             continue
         mid = min(start + dark.size // 2, len(grid.times_utc) - 1)
-        cloud = grid.cloud_pct[i, sl]
         rows.append((sl, {
             "time": local_iso(grid.times_utc[start], tz),
             "zone": _zone_name(grid.times_utc[start], tz),
@@ -446,14 +447,10 @@ def _hourly_rows(grid, i, tz, settings):
                                                    grid.step_min, tau), 3),
             "p_clear": _num(np.mean(grid.p_clear[i, sl][dark]), 3),
             "kp": _num(grid.kp_mean[mid], 2),
-            "cloud_pct": _num(np.nanmean(cloud), 0) if np.isfinite(cloud).any() else None,
+            **cloud_at_step(grid, i, start),
             "kp_from": _kp_from(grid, sl),
             **look_fields(grid, i, mid),
         }))
-        p = p_display_seen(shown[sl], grid.p_clear[i, sl], grid.step_min, cfg["decorrelation_min"])
-        rows.append({"time": local_iso(grid.times_utc[start], tz), "zone": _zone_name(
-            grid.times_utc[start], tz), "chance": _num(p, 3),
-            "kp_from": _kp_from(grid, sl), **cloud_at_step(grid, i, start)})
     return rows
 
 

@@ -28,7 +28,7 @@ def published(tmp_path_factory):
     home = tmp_path_factory.mktemp("operator")
     ws = home / "my-workspace"
     shutil.copytree(ROOT / "demo_sites", ws)
-    before = {p.name: p.read_bytes() for p in ws.iterdir()}
+    before = {str(p.relative_to(ws)): p.read_bytes() for p in ws.rglob("*") if p.is_file()}
     out = home / "outputs"
     code = main(["publish", str(ws), "--start", "2027-01-13", "--nights", "2", "--out", str(out)])
     return ws, out, before, code
