@@ -26,6 +26,9 @@ def add_arguments(parser):
     parser.add_argument("--out", required=True, metavar="DIR",
                         help="folder for the outputs (made if missing; not the workspace)")
     add_record_options(parser, who=True)
+    parser.add_argument("--no-record", action="store_true",
+                        help="do not keep the week's chances in the workspace database "
+                             "(they are kept by default, for `verify` and `calibrate`)")
 
 
 def run(args):
@@ -36,7 +39,10 @@ def run(args):
     ws = load_workspace(args.workspace)
     out = check_out_folder(Path(args.out), ws)
     with open_record(args, ws, create=True) as db:
-        builder = OutputSet(ws, db, by=args.by)
+        from auroraplan.archive import recorder
+
+        builder = OutputSet(ws, db, by=args.by,
+                            keep=None if args.no_record else recorder(ws, "publish", db=db))
         steps = builder.steps(args.start, args.nights)
         with progress_bar(len(steps), "Making the outputs") as bar:
             for step in steps:
@@ -77,8 +83,9 @@ class OutputSet:
     index page.
     """
 
-    def __init__(self, ws, db, by: str | None = None):
+    def __init__(self, ws, db, by: str | None = None, keep=None):
         self.ws, self.db, self.by = ws, db, by
+        self.keep = keep  # the forecast archive's callback (archive.recorder), or None
         self.files: dict[str, bytes] = {}
         self.entries: list[dict] = []
         self.state: dict = {}
@@ -115,7 +122,8 @@ class OutputSet:
             from auroraplan.render.calendar import plan_ics
             from auroraplan.runsheet import language
 
-            week = plan or record.propose_week(ws, start, nights, self.db, by=self.by)
+            week = plan or record.propose_week(ws, start, nights, self.db, by=self.by,
+                                               keep_chances=self.keep)
             self.state["week"] = week
             self.add("week.json", _json(week), f"Week plan from {start} (JSON)",
                      "ranked nights and sites per trip and the excursion plan")
