@@ -9,6 +9,10 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from auroraplan import checks
+from auroraplan.checks import setting
+from auroraplan.nights import utc_datetime64
+
 BLOCK_HOURS = 3
 """Kp is defined for the eight 3-hour UT intervals of a day (Bartels et al., 1939)."""
 
@@ -90,47 +94,32 @@ def parse_kp(text) -> float:
 # verification pages plot the error of its 1-3 day maximum-Kp forecasts, and Sharpe &
 # Murray (2017) verify storm probabilities (forecasts over-predict storms); both are why
 # the spread is a setting in operator.toml rather than a constant.
-SPREAD_DEFAULTS = {"sd0": 0.5, "rate_per_day": 0.4, "sd_max": 2.0}
-SPREAD_LIMITS = {"sd0": (0.0, 3.0), "rate_per_day": (0.0, 3.0), "sd_max": (0.1, 5.0)}
-"""Allowed ranges of the operator.toml [activity] settings (Kp units; per day)."""
 
 
 @dataclass(frozen=True)
-class ForecastSpread:
-    """How uncertain a Kp forecast is: kp_sd = sd0 + rate_per_day * lead_days, at most sd_max.
+class ActivitySettings:
+    """operator.toml [activity]: how uncertain a Kp forecast is, and the Kp history to use.
 
-    ``issued_utc`` is when the forecast was made (numpy datetime64, UTC); None means the
-    start of the forecast's first block.
+    kp_sd = sd0 + rate_per_day * lead_days, at most sd_max, where the lead counts from
+    ``issued_utc`` (an aware UTC datetime; None means the start of the forecast's first
+    block).
     """
 
-    sd0: float = SPREAD_DEFAULTS["sd0"]
-    rate_per_day: float = SPREAD_DEFAULTS["rate_per_day"]
-    sd_max: float = SPREAD_DEFAULTS["sd_max"]
-    issued_utc: np.datetime64 | None = None
-
-    @classmethod
-    def from_table(cls, table) -> ForecastSpread:
-        """Settings from the [activity] table of operator.toml (a dict; missing keys default).
-
-        A dict holding a whole operator.toml (with an "activity" table) is accepted too.
-        Values are expected to be checked already (workspace loader); this only converts.
-        """
-        if table is None:
-            return cls()
-        if isinstance(table, cls):
-            return table
-        if isinstance(table.get("activity"), dict):
-            table = table["activity"]
-        issued = table.get("issued_utc")
-        return cls(
-            sd0=float(table.get("sd0", SPREAD_DEFAULTS["sd0"])),
-            rate_per_day=float(table.get("rate_per_day", SPREAD_DEFAULTS["rate_per_day"])),
-            sd_max=float(table.get("sd_max", SPREAD_DEFAULTS["sd_max"])),
-            issued_utc=None if issued is None else utc_datetime64([issued])[0],
-        )
+    sd0: float = setting(0.5, checks.number(0.0, 3.0, "Kp"), "Kp",
+                         "spread of the forecast for the block it was issued in")
+    rate_per_day: float = setting(0.4, checks.number(0.0, 3.0, "Kp"), "Kp per day",
+                                  "growth of the spread per day of lead time")
+    sd_max: float = setting(2.0, checks.number(0.1, 5.0, "Kp"), "Kp",
+                            "largest spread, however far ahead")
+    issued_utc: dt.datetime | None = setting(None, checks.time_setting, "ISO 8601 time",
+                                             "when the forecast in activity.csv was made")
+    history_file: str | None = setting(
+        None, checks.text, "path",
+        "Kp history in the CelesTrak space-weather format, relative to the workspace, "
+        "used instead of the bundled file for the climatology")
 
 
-def kp_spread(lead_days, spread: ForecastSpread):
+def kp_spread(lead_days, spread: ActivitySettings):
     """Standard deviation of the forecast Kp at a lead time.
 
     Parameters
@@ -138,7 +127,7 @@ def kp_spread(lead_days, spread: ForecastSpread):
     lead_days : array_like
         Time from the forecast's issue to the block's start, days. Negative leads (blocks
         before the issue time) count as 0.
-    spread : ForecastSpread
+    spread : ActivitySettings
 
     Returns
     -------
@@ -156,34 +145,6 @@ def kp_spread(lead_days, spread: ForecastSpread):
     return np.minimum(spread.sd0 + spread.rate_per_day * lead, spread.sd_max)
 
 
-def utc_datetime64(values) -> np.ndarray:
-    """UTC times as numpy datetime64[s], from numpy, pandas (aware or naive) or datetime.
-
-    Naive times are taken as UTC; aware ones are converted.
-    """
-    tz = getattr(getattr(values, "dt", values), "tz", None)
-    if tz is not None:
-        import pandas as pd
-
-        index = pd.DatetimeIndex(values).tz_convert("UTC").tz_localize(None)
-        return index.to_numpy().astype("datetime64[s]")
-    arr = np.asarray(values)
-    if arr.dtype.kind == "M":
-        return arr.astype("datetime64[s]")
-    flat = [_one_utc(v) for v in arr.ravel()]
-    return np.array(flat, dtype="datetime64[s]").reshape(arr.shape)
-
-
-def _one_utc(value) -> np.datetime64:
-    if isinstance(value, str):
-        value = dt.datetime.fromisoformat(value.strip().replace("Z", "+00:00"))
-    if isinstance(value, dt.datetime):
-        if value.tzinfo is not None:
-            value = value.astimezone(dt.UTC).replace(tzinfo=None)
-        return np.datetime64(value, "s")
-    return np.datetime64(value, "s")
-
-
 def forecast_at(activity_df, times_utc, settings=None):
     """Forecast Kp and its spread at given times.
 
@@ -194,8 +155,8 @@ def forecast_at(activity_df, times_utc, settings=None):
         use the spread rule), one row per 3-hour block, as read by ``load_workspace``.
     times_utc : array_like of datetime64, shape (T,)
         UTC times.
-    settings : ForecastSpread, dict or None
-        The spread rule; a dict is the [activity] table of operator.toml. None = defaults.
+    settings : ActivitySettings or None
+        The spread rule; None = defaults.
 
     Returns
     -------
@@ -214,7 +175,7 @@ def forecast_at(activity_df, times_utc, settings=None):
     Bartels et al. (1939) for the 3-hour blocks; see ``kp_spread`` for the spread rule.
     """
     times = utc_datetime64(times_utc).astype("int64")
-    spread = ForecastSpread.from_table(settings)
+    spread = settings or ActivitySettings()
     shape = times.shape
     nan = np.full(shape, np.nan)
     if activity_df is None or len(activity_df) == 0:
@@ -229,7 +190,8 @@ def forecast_at(activity_df, times_utc, settings=None):
     else:
         explicit_sd = np.full(kp.shape, np.nan)
 
-    issued = starts[0] if spread.issued_utc is None else spread.issued_utc.astype("int64")
+    issued = starts[0] if spread.issued_utc is None else \
+        utc_datetime64([spread.issued_utc]).astype("int64")[0]
     lead_days = (starts - issued) / 86400.0
     block_sd = np.where(np.isnan(explicit_sd), kp_spread(lead_days, spread), explicit_sd)
 

@@ -102,6 +102,11 @@ def hourly_chances(grid, decorrelation_min: float):
     return np.arange(h) * per_hour, chance, dark
 
 
+def chance_settings_of(ws) -> dict:
+    """The settings a chance was made with: [chance] and the outing hours, as one dict."""
+    return {**dataclasses.asdict(ws.settings.chance), **dataclasses.asdict(ws.settings.outing)}
+
+
 def record_issue(store, *, command: str, site_names, grid, summary, dates, settings,
                  files: dict, made_at: dt.datetime | None = None) -> int:
     """Add one run's chances to the archive in one transaction; returns the run id.
@@ -278,7 +283,6 @@ def recorder(ws, command: str, db=None, open_db=None, warn=None):
     import sqlite3
     import sys
 
-    from auroraplan.chance import settings_for
     from auroraplan.errors import InputError
 
     def note(text):
@@ -293,7 +297,7 @@ def recorder(ws, command: str, db=None, open_db=None, warn=None):
                 return
             try:
                 record_issue(target, command=command, site_names=site_names, grid=grid,
-                             summary=summary, dates=dates, settings=settings_for(ws),
+                             summary=summary, dates=dates, settings=chance_settings_of(ws),
                              files=dict(ws.files))
             finally:
                 if db is None:

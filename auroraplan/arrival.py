@@ -218,10 +218,6 @@ def arrival_window(
     }
 
 
-def _local_noon(day: dt.date, zone: zoneinfo.ZoneInfo) -> dt.datetime:
-    return dt.datetime.combine(day, dt.time(12), tzinfo=zone)
-
-
 def _overlap_hours(a0, a1, b0, b1) -> float:
     return max(0.0, (min(a1, b1) - max(a0, b0)).total_seconds() / 3600.0)
 
@@ -247,15 +243,15 @@ def nights_touched(earliest: dt.datetime, latest: dt.datetime, tz: str, darkness
         the arrival window within that noon-to-noon night), and with ``darkness``
         also ``dark_start``, ``dark_end`` and ``dark_overlap_hours``.
     """
+    from auroraplan.nights import night_bounds, night_of
+
     zone = zoneinfo.ZoneInfo(tz)
-    first = (earliest.astimezone(zone) - dt.timedelta(hours=12)).date()
-    last = (latest.astimezone(zone) - dt.timedelta(hours=12)).date()
+    first, last = night_of(earliest, zone), night_of(latest, zone)
     dark_by_date = {str(d["date"]): d for d in (darkness or [])}
     nights = []
     day = first
     while day <= last:
-        start = _local_noon(day, zone)
-        end = _local_noon(day + dt.timedelta(days=1), zone)
+        start, end = night_bounds(day, zone)
         night = {
             "date": day.isoformat(),
             "window_hours": round(_overlap_hours(earliest, latest, start, end), 2),

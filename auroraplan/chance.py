@@ -1,6 +1,6 @@
 """Combining darkness, moonlight, activity and cloud into the chance of seeing the aurora.
 
-Per site and time step the chance is the product of four factors (DESIGN):
+Per site and time step the chance is the product of four factors:
 
     chance = darkness × moon factor × P(aurora visible) × P(clear)
 
@@ -14,47 +14,62 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from auroraplan import checks
+from auroraplan.checks import setting
+
 # Factor names in the order used for "what limits it".
 FACTORS = ("darkness", "moon", "activity", "cloud")
 
-DEFAULT_SETTINGS = {
-    # Spread of the oval boundary itself, in Kp units, added in quadrature to
-    # the forecast's own spread. Assumption: the observed equatorward boundary
-    # scatters about 1 degree of latitude around a model (Starkov 1994 quotes
-    # boundary errors of this order) and moves about 2 degrees per Kp
-    # (Gussenhoven et al. 1983), hence about 0.5 Kp.
-    "boundary_sd_kp": 0.5,
-    # Moon rule: the share of displays that still stand out against a sky
-    # brightened by dm magnitudes is 10**(-0.4 * beta * dm). It follows from
-    # a display-brightness distribution P(I >= x) proportional to x**-beta
-    # (a power law; beta is an assumption, common practice, no source) and a
-    # fixed contrast threshold against the sky (Weber's law).
-    "moon_beta": 0.5,
-    # The band being within view is not yet a display bright enough to see:
-    # displays come and go with substorms. Chance of a visible display in one
-    # decorrelation time when the band is just within reach (quiet) and when
-    # activity exceeds the need by `strong_margin_kp` (active). Assumptions,
-    # common practice, no source: substorm expansions recur every 2-4 h and
-    # a stronger driver gives brighter, longer displays.
-    "display_quiet": 0.3,
-    "display_active": 0.8,
-    "strong_margin_kp": 2.0,
-    # Displays are taken as independent from one decorrelation time to the
-    # next (about one substorm cycle; assumption, see above).
-    "decorrelation_min": 120.0,
-    # Local clock hours when groups are taken out (operator.toml [planner]
-    # outing_from / outing_until); chances and windows count only these.
-    # Common practice, no source: evening tours leave after dinner and are
-    # back before the small hours.
-    "outing_from": "18:00",
-    "outing_until": "02:00",
-    # A best window is never shorter than this, nor longer than the other.
-    "min_window_min": 30.0,
-    "max_window_min": 180.0,
-}
+@dataclass(frozen=True)
+class ChanceSettings:
+    """operator.toml [chance]: the assumptions of the chance model.
+
+    The ranges are what the formulas here can use (probabilities 0-1, durations above 0 and
+    within a day, Kp spreads and margins on the 0-9 scale); common practice, no source.
+    """
+
+    boundary_sd_kp: float = setting(
+        0.5, checks.number(0, 3, "Kp"), "Kp",
+        "spread of the oval boundary itself, added in quadrature to the forecast's spread. "
+        "Assumption: the observed equatorward boundary scatters about 1 degree of latitude "
+        "around a model (Starkov 1994 quotes boundary errors of this order) and moves about "
+        "2 degrees per Kp (Gussenhoven et al. 1983), hence about 0.5 Kp")
+    moon_beta: float = setting(
+        0.5, checks.number(0, 3), "",
+        "moon rule: the share of displays that still stand out against a sky brightened by "
+        "dm magnitudes is 10**(-0.4 * beta * dm), from a display-brightness distribution "
+        "P(I >= x) proportional to x**-beta (a power law; beta is an assumption, common "
+        "practice, no source) and a fixed contrast threshold against the sky (Weber's law)")
+    display_quiet: float = setting(
+        0.3, checks.number(0, 1, "(a probability)"), "probability",
+        "chance of a visible display in one decorrelation time when the band is just within "
+        "reach. The band being within view is not yet a display bright enough to see: "
+        "displays come and go with substorms (assumption, common practice, no source)")
+    display_active: float = setting(
+        0.8, checks.positive(1, "(a probability)"), "probability",
+        "the same when activity exceeds the need by strong_margin_kp: a stronger driver "
+        "gives brighter, longer displays (assumption, common practice, no source)")
+    strong_margin_kp: float = setting(2.0, checks.number(0, 9, "Kp"), "Kp",
+                                      "Kp above the need at which activity counts as strong")
+    decorrelation_min: float = setting(
+        120.0, checks.positive(1440, "minutes"), "minutes",
+        "displays are taken as independent from one decorrelation time to the next (about "
+        "one substorm cycle; substorm expansions recur every 2-4 h; assumption)")
+    min_window_min: float = setting(30.0, checks.positive(1440, "minutes"), "minutes",
+                                    "a best window is never shorter than this")
+    max_window_min: float = setting(180.0, checks.positive(1440, "minutes"), "minutes",
+                                    "nor longer than this")
+
+    ORDERED = (
+        # (lower, upper, what the pair means): the loader checks lower <= upper
+        ("display_quiet", "display_active",
+         "a display is no less likely when activity is strong"),
+        ("min_window_min", "max_window_min",
+         "the shortest best window is not longer than the longest"),
+    )
 
 
-def display_probability(p_reach, p_strong, cfg=None):
+def display_probability(p_reach, p_strong, settings: ChanceSettings | None = None):
     """Chance of a visible display in one decorrelation time, given activity.
 
     ``p_reach`` = P(Kp needed ≤ Kp < Kp lost), ``p_strong`` = P(Kp needed +
@@ -64,12 +79,12 @@ def display_probability(p_reach, p_strong, cfg=None):
     both terms rise with Kp, so q never falls when the forecast rises; a
     forecast beyond Kp lost lowers q for that site, as it should.
     """
-    cfg = cfg or DEFAULT_SETTINGS
-    q0, q1 = cfg["display_quiet"], cfg["display_active"]
+    settings = settings or ChanceSettings()
+    q0, q1 = settings.display_quiet, settings.display_active
     return q0 * np.asarray(p_reach) + (q1 - q0) * np.asarray(p_strong)
 
 
-def activity_factor(p_at_least, kp_needed, kp_lost, cfg=None):
+def activity_factor(p_at_least, kp_needed, kp_lost, cfg: ChanceSettings | None = None):
     """Chance of a visible display per decorrelation time from P(Kp ≥ k) (N, T).
 
     A storm that carries the band out of a polar-cap site's sight does not
@@ -84,21 +99,21 @@ def activity_factor(p_at_least, kp_needed, kp_lost, cfg=None):
         ``p_at_least(kp (N, T)) -> (N, T)``: P(Kp ≥ kp) from a forecast or climatology.
     kp_needed, kp_lost : ndarray (N, T)
         Kp needed on the horizon and Kp at which the band is lost (inf: never).
-    cfg : dict, optional
-        Chance settings (``strong_margin_kp``, ``display_quiet``, ``display_active``).
+    cfg : ChanceSettings, optional
+        ``strong_margin_kp``, ``display_quiet``, ``display_active``.
     """
     return display_probability(*activity_parts(p_at_least, kp_needed, kp_lost, cfg), cfg)
 
 
 def activity_parts(p_at_least, kp_needed, kp_lost, cfg=None):
     """(p_reach, p_strong) (N, T) of :func:`activity_factor`; the forecast archive keeps them."""
-    cfg = cfg or DEFAULT_SETTINGS
+    cfg = cfg or ChanceSettings()
     p_lost = np.zeros(kp_needed.shape)
     if np.isfinite(kp_lost).any():
         p_lost = np.where(np.isfinite(kp_lost),
                           p_at_least(np.where(np.isfinite(kp_lost), kp_lost, 0.0)), 0.0)
     p_reach = np.maximum(p_at_least(kp_needed) - p_lost, 0.0)
-    p_strong = np.maximum(p_at_least(kp_needed + cfg["strong_margin_kp"]) - p_lost, 0.0)
+    p_strong = np.maximum(p_at_least(kp_needed + cfg.strong_margin_kp) - p_lost, 0.0)
     return p_reach, p_strong
 
 
@@ -142,7 +157,7 @@ class ChanceGrid:
     cloud_note: str = ""  # where the cloud figures come from (weather.source_note)
 
 
-def moon_factor(dark_sky_mag, moonlit_sky_mag, beta=DEFAULT_SETTINGS["moon_beta"]):
+def moon_factor(dark_sky_mag, moonlit_sky_mag, beta=ChanceSettings.moon_beta):
     """Share of aurora displays still visible when moonlight brightens the sky.
 
     Parameters
@@ -225,62 +240,69 @@ def site_arrays(sites):
 
 
 def compute_grid(
-    ws, sites, times_utc, night_index, step_min, *, use_forecast=True, use_clouds=True,
-    climatology=None, settings=None, table=None, nowcast=None,
+    sites, times_utc, night_index, step_min, *, tz, settings, activity=None, clouds=None,
+    climatology=None, table=None, nowcast=None, cloud=None,
 ):
-    """Chance per site and time step for the workspace's sites.
+    """Chance per site and time step.
 
     Parameters
     ----------
-    ws : auroraplan.workspace.Workspace
-        Operator settings, activity forecast and clouds.
     sites : list of Site
-        The sites to evaluate (usually ``ws.sites``).
+        The sites to evaluate.
     times_utc : ndarray of datetime64, shape (T,)
     night_index : ndarray of int, shape (T,)
     step_min : float
         Step between times, minutes.
-    use_forecast, use_clouds : bool
-        Set False for long-range work (season) to use climatology only.
+    tz : str
+        IANA time zone of the base (outing hours are local clock hours).
+    settings : auroraplan.settings.Settings
+        The stage settings: ``viewing``, ``activity``, ``chance`` and ``outing``.
+    activity : pandas.DataFrame, optional
+        The Kp forecast (``start_utc``, ``kp``, ``kp_sd``); None or empty = no forecast,
+        as in long-range work (season), where the climatology serves alone.
+    clouds : pandas.DataFrame, optional
+        Hourly cloud per site (``site``, ``time_utc``, ``cloud_pct``); None or empty = each
+        site's monthly clear-sky fraction.
     climatology : object with ``p_kp_at_least(kp_needed, times_utc)``, optional
         Used beyond the forecast; without it such steps have NaN activity.
-    settings : dict, optional
-        Overrides of :data:`DEFAULT_SETTINGS`.
     table : auroraplan.view.KpNeeded, optional
         A Kp-needed table already computed for these sites (long ranges reuse it).
+    cloud : auroraplan.weather.CloudGrid, optional
+        Cloud already combined from clouds.csv, weather-model files and sky reports
+        (``report.cloud_for``); without it, ``clouds`` or the climatology.
     nowcast : auroraplan.solarwind.Nowcast, optional
         Kp estimated from upstream solar wind; laid over the forecast for the hours it
         covers (``solarwind.blend``).
     """
-    from auroraplan import magnetic, sky, view
+    from auroraplan import magnetic, sky, view, weather
     from auroraplan.activity import forecast_at
 
-    cfg = settings_for(ws, settings)
-    op = ws.operator
+    cfg = settings.chance
+    viewing = settings.viewing
     arr = site_arrays(sites)
     times_utc = np.asarray(times_utc, dtype="datetime64[s]")
     warnings: list[str] = []
 
     track = sky.sun_moon_altaz(arr["lat"], arr["lon"], arr["height_m"], times_utc)
-    dark = track.sun_alt < sky.DARKNESS_DEG[op.darkness]
-    outing = outing_mask(times_utc, op.timezone, cfg["outing_from"], cfg["outing_until"])
+    dark = track.sun_alt < sky.DARKNESS_DEG[viewing.darkness]
+    outing = settings.outing.mask(times_utc, tz)
     darkness = (dark & outing[None, :]).astype(float)
 
     if table is None:
-        table = kp_table(ws, sites, times_utc[len(times_utc) // 2])
+        table = kp_table(sites, times_utc[len(times_utc) // 2], viewing)
     mlt = magnetic.mlt(table.mlon, times_utc)
     kp_needed = view.kp_needed_at(table, mlt)
     kp_lost = view.kp_lost_at(table, mlt)
 
-    settings_activity = op.settings.get("activity", {}) if op.settings else {}
-    if use_forecast and ws.activity is not None and len(ws.activity):
-        kp_mean, kp_sd, covered = forecast_at(ws.activity, times_utc, settings_activity)
+    has_forecast = activity is not None and len(activity) > 0
+    if has_forecast:
+        kp_mean, kp_sd, covered = forecast_at(activity, times_utc, settings.activity)
     else:
         kp_mean = np.full(times_utc.shape, np.nan)
         kp_sd = np.full(times_utc.shape, np.nan)
         covered = np.zeros(times_utc.shape, bool)
     nowcast_weight = np.zeros(times_utc.shape)
-    if use_forecast and nowcast is not None:
+    if nowcast is not None:
         from auroraplan.solarwind import blend
 
         kp_mean, kp_sd, covered, nowcast_weight = blend(times_utc, kp_mean, kp_sd, covered,
@@ -288,24 +310,24 @@ def compute_grid(
     look = look_for_forecast(table, kp_needed, kp_lost, kp_mean, mlt)
     look_az, look_el = look["look_azimuth_deg"], look["look_elevation_deg"]
 
-    target_alt = np.clip(np.nan_to_num(look_el, nan=op.min_elevation_deg), op.min_elevation_deg, 90.0)
+    target_alt = np.clip(np.nan_to_num(look_el, nan=viewing.min_elevation_deg),
+                         viewing.min_elevation_deg, 90.0)
     target_az = np.nan_to_num(look_az, nan=0.0)
-    k_v = (np.full(len(sites), float(op.extinction_k)) if op.extinction_k is not None
+    k_v = (np.full(len(sites), float(viewing.extinction_k)) if viewing.extinction_k is not None
            else sky.extinction_k_v(arr["height_m"]))
     moonlit = sky.moonlit_sky_mag(
         arr["sky_mag"][:, None], track.moon_alt, track.moon_az, target_alt, target_az,
         track.moon_phase_angle_deg[None, :], k_v=k_v[:, None],
     )
-    moon = moon_factor(arr["sky_mag"][:, None], moonlit, cfg["moon_beta"])
+    moon = moon_factor(arr["sky_mag"][:, None], moonlit, cfg.moon_beta)
 
     kind = np.where(covered, "forecast", "none").astype(object)
     rest = ~covered if climatology else np.zeros_like(covered)
     known = None
-    if use_forecast and ws.activity is not None and len(ws.activity) and \
-            hasattr(climatology, "p_kp_at_least_with_recurrence"):
-        from auroraplan.activity import utc_datetime64
+    if has_forecast and hasattr(climatology, "p_kp_at_least_with_recurrence"):
+        from auroraplan.nights import utc_datetime64
 
-        known = (utc_datetime64(ws.activity["start_utc"]), ws.activity["kp"].to_numpy(float))
+        known = (utc_datetime64(activity["start_utc"]), activity["kp"].to_numpy(float))
     kind[rest] = "outlook"
 
     def p_at_least(kp):
@@ -313,16 +335,17 @@ def compute_grid(
         p = np.full(kp_needed.shape, np.nan)
         if covered.any():
             p[:, covered] = p_aurora_from_forecast(
-                kp[:, covered], kp_mean[covered], kp_sd[covered], cfg["boundary_sd_kp"])
+                kp[:, covered], kp_mean[covered], kp_sd[covered], cfg.boundary_sd_kp)
         if rest.any():
             p[:, rest] = p_aurora_from_climatology(
-                climatology, kp[:, rest], times_utc[rest], cfg["boundary_sd_kp"], known)
+                climatology, kp[:, rest], times_utc[rest], cfg.boundary_sd_kp, known)
         return p
 
     p_reach, p_strong = activity_parts(p_at_least, kp_needed, kp_lost, cfg)
     activity = display_probability(p_reach, p_strong, cfg)
 
-    cloud = cloud_for(ws, sites, times_utc, arr, use_clouds)
+    if cloud is None:
+        cloud = weather.cloud_grid(sites, clouds, times_utc, tz=tz, settings=settings.weather)
     p_clear, cloud_pct = cloud.p_clear, cloud.cloud_pct
     warnings.extend(cloud.warnings)
 
@@ -343,35 +366,6 @@ def compute_grid(
         cloud_source=cloud.source, cloud_models=cloud.models, cloud_model_pct=cloud.model_pct,
         cloud_spread_pct=cloud.spread_pct, cloud_note=cloud.note,
     )
-
-
-def cloud_for(ws, sites, times_utc, arr, use_clouds=True):
-    """weather.CloudGrid for the sites: clouds.csv, the weather-model files and sky reports
-    of the workspace, else climatology only (``use_clouds`` False, for long ranges)."""
-    from auroraplan import weather
-
-    settings = weather.settings_from(ws.operator.settings)
-    if not use_clouds:
-        return weather.cloud_grid(sites, None, times_utc, tz=ws.operator.timezone,
-                                  settings=settings)
-    reading = at_reports = None
-    if ws.weather_files:
-        from auroraplan.weatherfiles import read_cached, read_for_workspace
-
-        index = {site.name: i for i, site in enumerate(ws.sites)}
-        if all(site.name in index and (ws.sites[index[site.name]].lat,
-                                       ws.sites[index[site.name]].lon) == (site.lat, site.lon)
-               for site in sites):
-            reading = read_for_workspace(ws, settings).for_sites([index[s.name] for s in sites])
-        else:  # a place that is not one of the sites (the base)
-            reading = read_cached(ws.weather_files, arr["lat"], arr["lon"],
-                                  settings.layer_weights)
-        if ws.sky_reports:
-            at_reports = read_cached(ws.weather_files, [r.lat for r in ws.sky_reports],
-                                     [r.lon for r in ws.sky_reports], settings.layer_weights)
-    return weather.cloud_grid(sites, ws.clouds, times_utc, tz=ws.operator.timezone,
-                              reading=reading, reports=ws.sky_reports, settings=settings,
-                              report_reading=at_reports)
 
 
 LOOK_KP_BELOW_LOST = 0.01
@@ -413,55 +407,16 @@ def look_for_forecast(table, kp_needed, kp_lost, kp_mean, mlt):
     return out
 
 
-def settings_for(ws, overrides=None) -> dict:
-    """Chance settings: defaults, then operator.toml [chance] and [planner], then overrides.
-
-    The tables were checked when the workspace was read (workspace.CHANCE_CHECKS:
-    known keys, types and ranges), so nothing here can be bad input.
-    """
-    cfg = dict(DEFAULT_SETTINGS)
-    doc = ws.operator.settings or {}
-    for table in ("chance", "planner"):
-        for key, value in (doc.get(table) or {}).items():
-            if key in DEFAULT_SETTINGS:
-                cfg[key] = value
-    cfg.update(overrides or {})
-    return cfg
-
-
-def _clock_minutes(text) -> int:
-    hours, minutes = str(text).split(":")
-    value = int(hours) * 60 + int(minutes)
-    if not (0 <= int(minutes) < 60 and 0 <= value <= 24 * 60):
-        raise ValueError(text)
-    return value
-
-
-def outing_mask(times_utc, tz, outing_from, outing_until):
-    """True at times whose local clock time lies in [from, until), wrapping past midnight."""
-    import pandas as pd
-
-    local = pd.DatetimeIndex(np.asarray(times_utc, "datetime64[s]")).tz_localize("UTC").tz_convert(tz)
-    minute = np.asarray(local.hour * 60 + local.minute)
-    start, end = _clock_minutes(outing_from), _clock_minutes(outing_until)
-    if start == end:
-        return np.ones(minute.shape, bool)
-    if start < end:
-        return (minute >= start) & (minute < end)
-    return (minute >= start) | (minute < end)
-
-
-def kp_table(ws, sites, when_utc):
-    """The Kp-needed table (sites × MLT) for the workspace's viewing settings."""
+def kp_table(sites, when_utc, viewing):
+    """The Kp-needed table (sites × MLT) for the viewing settings (view.ViewingSettings)."""
     from auroraplan import view
 
-    op = ws.operator
     arr = site_arrays(sites)
     when = np.datetime64(when_utc, "s").astype(object)
     return view.kp_needed_table(
         arr["lat"], arr["lon"], arr["height_m"], arr["horizons"],
-        min_elevation_deg=op.min_elevation_deg, emission_height_km=op.emission_height_km,
-        model=op.oval_model, when=when,
+        min_elevation_deg=viewing.min_elevation_deg,
+        emission_height_km=viewing.emission_height_km, model=viewing.oval_model, when=when,
     )
 
 
@@ -518,7 +473,8 @@ def p_display_seen(display, p_clear, step_min, decorrelation_min):
     return np.sum((c_sorted - c_next) * seen_if_clear, axis=-1)
 
 
-def summarise_nights(grid: ChanceGrid, nights: int, settings=None) -> NightSummary:
+def summarise_nights(grid: ChanceGrid, nights: int,
+                     settings: ChanceSettings | None = None) -> NightSummary:
     """Best window, expected minutes and P(at least one display) per site and night.
 
     The best window is the block of at most ``max_window_min`` with the most
@@ -528,8 +484,7 @@ def summarise_nights(grid: ChanceGrid, nights: int, settings=None) -> NightSumma
     ``min_window_min``. "What limits it" is the factor with the lowest mean
     over that window, activity measured against its most active value.
     """
-    cfg = dict(DEFAULT_SETTINGS)
-    cfg.update(settings or {})
+    cfg = settings or ChanceSettings()
     n_sites = grid.chance.shape[0]
     shape = (n_sites, nights)
     out = NightSummary(
@@ -555,7 +510,7 @@ def summarise_nights(grid: ChanceGrid, nights: int, settings=None) -> NightSumma
         kinds = set(grid.kind[cols][dark_steps] if dark_steps.any() else grid.kind[cols]) or {"none"}
         out.kind[d] = next(k for k in ("none", "outlook", "forecast") if k in kinds)
         has_data = (~np.isnan(shown) | (dark == 0)).all(axis=1)
-        p = p_display_seen(shown, grid.p_clear[:, cols], grid.step_min, cfg["decorrelation_min"])
+        p = p_display_seen(shown, grid.p_clear[:, cols], grid.step_min, cfg.decorrelation_min)
         out.p_any[:, d] = np.where(has_data, p, np.nan)
         filled = np.nan_to_num(c, nan=0.0)
         out.expected_min[:, d] = filled.sum(axis=1) * grid.step_min
@@ -575,8 +530,8 @@ def summarise_nights(grid: ChanceGrid, nights: int, settings=None) -> NightSumma
 def best_windows(chance, dark, mlt, step_min, cfg):
     """First and last step (inclusive) of each row's best window; rows without dark get 0, 0."""
     n, k = chance.shape
-    length = max(1, min(k, int(round(cfg["max_window_min"] / step_min))))
-    min_steps = max(1, int(np.ceil(cfg["min_window_min"] / step_min)))
+    length = max(1, min(k, int(round(cfg.max_window_min / step_min))))
+    min_steps = max(1, int(np.ceil(cfg.min_window_min / step_min)))
     sums = np.cumsum(np.concatenate([np.zeros((n, 1)), chance], axis=1), axis=1)
     block = sums[:, length:] - sums[:, :-length]  # (n, k - length + 1)
     centre = np.arange(block.shape[1]) + length // 2
@@ -616,7 +571,7 @@ def limiting_factor(grid, cols, lo, hi, any_dark, cfg):
     factors = np.stack([
         mean(grid.darkness[:, cols]),
         mean(grid.moon[:, cols]),
-        mean(grid.activity[:, cols]) / cfg["display_active"],
+        mean(grid.activity[:, cols]) / cfg.display_active,
         mean(grid.p_clear[:, cols]),
     ])
     names = np.array(FACTORS, dtype=object)[np.argmin(factors, axis=0)]

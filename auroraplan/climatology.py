@@ -597,6 +597,6 @@ def build_climatology(history: KpHistory | None = None) -> Climatology:
 
 
 @functools.lru_cache(maxsize=1)
-def default_climatology() -> Climatology:
+def bundled_climatology() -> Climatology:
     """The climatology of the bundled history, built once per process."""
     return build_climatology(load_history())

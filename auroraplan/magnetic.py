@@ -68,7 +68,9 @@ def as_utc_datetime(when) -> dt.datetime:
         seconds = when.astype("datetime64[s]").astype(np.int64)
         value = dt.datetime(1970, 1, 1, tzinfo=dt.UTC) + dt.timedelta(seconds=int(seconds))
     elif isinstance(when, str):
-        value = dt.datetime.fromisoformat(when.replace("Z", "+00:00"))
+        from auroraplan.checks import parse_utc
+
+        value = parse_utc(when)
     elif isinstance(when, dt.datetime):
         value = when
     elif isinstance(when, dt.date):

@@ -333,11 +333,27 @@ MODELS = {
 }
 
 
+VIEWING_MODELS = tuple(
+    name for name, fn in MODELS.items() if np.isfinite(fn(3.0, 0.0)["equatorward"]))
+"""Models with discrete-oval edges: the ones a site's view (auroraplan.view) can use.
+``gussenhoven1983`` gives only the diffuse boundary, so it serves the oval chart alone."""
+
+
 def check_model(model: str) -> str:
     """The model name, or one line listing the known ones."""
     if model not in MODELS:
         raise InputError(
             f"unknown oval model {model!r}; known models: {', '.join(MODELS)}"
+        )
+    return model
+
+
+def check_viewing_model(model: str) -> str:
+    """The model name if a site's view can use it (VIEWING_MODELS), or one line listing those."""
+    if model not in VIEWING_MODELS:
+        raise InputError(
+            f"oval model {model!r} cannot give a site's view (it has no discrete-oval edges); "
+            f"use one of {', '.join(VIEWING_MODELS)}"
         )
     return model
 

@@ -42,12 +42,16 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from auroraplan import checks
+from auroraplan.checks import setting
+
 DRIVE_WEIGHT_PER_MIN = 0.001
 """Drive-time cost per minute of one-way drive, in chance units.
 
 An outing 60 min from base must offer 0.06 more chance than one at the door
 to be preferred. Common practice, no source: a weight an operator tunes.
 """
+
 
 OBJECTIVE_SCALE = 1.0e6
 """The solver works in micro-chance units.
@@ -78,6 +82,8 @@ FAIRNESS = {
 class PlannerSettings:
     """How the excursion plan is searched for (operator.toml ``[planner]``).
 
+    The outing hours written in [planner] fill ``auroraplan.nights.OutingHours``.
+
     Attributes
     ----------
     drive_cost_per_min : float
@@ -94,10 +100,16 @@ class PlannerSettings:
         A key of `FAIRNESS`.
     """
 
-    drive_cost_per_min: float = DRIVE_WEIGHT_PER_MIN
-    time_limit_s: float = 10.0
-    relative_gap: float = 0.01
-    fairness: str = "groups-first"
+    drive_cost_per_min: float = setting(
+        DRIVE_WEIGHT_PER_MIN, checks.number(0, 0.1, "chance per minute"), "chance per minute",
+        "cost of one minute of one-way drive; 0.1 would make a one-hour drive cost more "
+        "than any chance (common practice, no source)")
+    time_limit_s: float = setting(10.0, checks.positive(3600, "seconds"), "seconds",
+                                  "wall-clock time for the whole search")
+    relative_gap: float = setting(0.01, checks.number(0, 0.5, "(a fraction; 0.01 is 1 %)"),
+                                  "fraction", "the search for chance stops within this gap")
+    fairness: str = setting("groups-first", checks.choice(FAIRNESS), "name",
+                            "the plan's objective (FAIRNESS)")
 
 
 EXACT = PlannerSettings(time_limit_s=math.inf, relative_gap=0.0)

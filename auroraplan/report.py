@@ -1,7 +1,7 @@
 """Building the reports (plain, JSON-ready dicts) that the commands print and the renderers draw.
 
 Each builder runs the stages of the pipeline for one question (tonight,
-a week, a season) and turns arrays into the fields named in DESIGN.md.
+a week, a season) and turns arrays into JSON-ready fields.
 """
 
 from __future__ import annotations
@@ -13,7 +13,6 @@ from zoneinfo import ZoneInfo
 import numpy as np
 
 from auroraplan.cautions import CAUTIONS, FORECAST_NOT_PROMISE
-from auroraplan.chance import settings_for
 from auroraplan.render.style import chance_in_words, compass_point
 
 DEFAULT_STEP_MIN = 10
@@ -44,7 +43,7 @@ def _date_spans(dates: list[str]) -> str:
     return ", ".join(s[0].isoformat() if len(s) == 1 else f"{s[0]} to {s[-1]}" for s in spans)
 
 
-def no_darkness(grid, dates, level: str, lat: float, cfg) -> dict:
+def no_darkness(grid, dates, level: str, lat: float, outing) -> dict:
     """The nights on which no site gets dark enough during the outing hours, and why.
 
     A night is "midnight sun" when the sun's centre stays above −0.833° at every
@@ -76,7 +75,7 @@ def no_darkness(grid, dates, level: str, lat: float, cfg) -> dict:
     if not rows:
         return {"nights": [], "note": None}
     deg = sky.DARKNESS_DEG[level]
-    hours = f"({cfg['outing_from']}–{cfg['outing_until']})"
+    hours = f"({outing.outing_from}–{outing.outing_until})"
     parts = []
     for reason, words in NO_DARKNESS_WORDS.items():
         got = [r["date"] for r in rows if r["reason"] == reason]
@@ -172,7 +171,7 @@ def forecast_info(ws, kinds, times_utc=None) -> dict:
         note = "Kp forecast where it reaches; later nights are an outlook from Kp climatology."
     else:
         note = notes[kind]
-    issued = ((ws.operator.settings or {}).get("activity") or {}).get("issued_utc")
+    issued = ws.settings.activity.issued_utc
     if isinstance(issued, dt.datetime):
         issued = issued.astimezone(dt.UTC).strftime("%Y-%m-%dT%H:%M:%SZ")
     return {
@@ -210,18 +209,50 @@ def base_info(ws) -> dict:
     return {"name": op.base_name, "lat": op.base_lat, "lon": op.base_lon, "timezone": op.timezone}
 
 
-def _grid_for_nights(ws, sites, first_night, nights, step_min, climatology, **kw):
-    from auroraplan import chance, sky
+def _grid_for_nights(ws, sites, first_night, nights, step_min, climatology, nowcast=None):
+    from auroraplan import chance
+    from auroraplan import nights as nights_mod
 
-    times, night_index = sky.night_times(first_night, nights, ws.operator.timezone, step_min)
+    times, night_index = nights_mod.night_times(first_night, nights, ws.operator.timezone,
+                                                step_min)
     grid = chance.compute_grid(
-        ws, sites, times, night_index, step_min, climatology=climatology, **kw
+        sites, times, night_index, step_min, tz=ws.operator.timezone, settings=ws.settings,
+        activity=ws.activity, climatology=climatology, nowcast=nowcast,
+        cloud=cloud_for(ws, sites, times),
     )
-    summary = chance.summarise_nights(grid, nights, chance.settings_for(ws))
+    summary = chance.summarise_nights(grid, nights, ws.settings.chance)
     return grid, summary
 
 
-def default_climatology(ws=None):
+def cloud_for(ws, sites, times_utc):
+    """weather.CloudGrid for the sites: clouds.csv, the weather-model files and sky reports
+    of the workspace."""
+    from auroraplan import weather
+    from auroraplan.chance import site_arrays
+
+    settings = ws.settings.weather
+    arr = site_arrays(sites)
+    reading = at_reports = None
+    if ws.weather_files:
+        from auroraplan.weatherfiles import read_cached, read_for_workspace
+
+        index = {site.name: i for i, site in enumerate(ws.sites)}
+        if all(site.name in index and (ws.sites[index[site.name]].lat,
+                                       ws.sites[index[site.name]].lon) == (site.lat, site.lon)
+               for site in sites):
+            reading = read_for_workspace(ws, settings).for_sites([index[s.name] for s in sites])
+        else:  # a place that is not one of the sites (the base)
+            reading = read_cached(ws.weather_files, arr["lat"], arr["lon"],
+                                  settings.layer_weights)
+        if ws.sky_reports:
+            at_reports = read_cached(ws.weather_files, [r.lat for r in ws.sky_reports],
+                                     [r.lon for r in ws.sky_reports], settings.layer_weights)
+    return weather.cloud_grid(sites, ws.clouds, times_utc, tz=ws.operator.timezone,
+                              reading=reading, reports=ws.sky_reports, settings=settings,
+                              report_reading=at_reports)
+
+
+def workspace_climatology(ws=None):
     """The Kp climatology: from the workspace's own history file when operator.toml names
     one in [activity] history_file, else from the bundled history."""
     from pathlib import Path
@@ -229,9 +260,9 @@ def default_climatology(ws=None):
     from auroraplan import climatology
     from auroraplan.errors import InputError
 
-    name = ((ws.operator.settings or {}).get("activity") or {}).get("history_file") if ws else None
+    name = ws.settings.activity.history_file if ws else None
     if not name:
-        return climatology.default_climatology()
+        return climatology.bundled_climatology()
     path = Path(ws.path) / name
     if not path.is_file():
         raise InputError(f"operator.toml: [activity] history_file {name!r}: no such file in "
@@ -257,7 +288,7 @@ def tonight_report(ws, date: dt.date, top: int | None = None, now=None, climatol
     sites = [s for s in ws.sites if not s.closed]
     closed_note = all_closed_note(ws)
     if climatology is None:
-        climatology = default_climatology(ws)
+        climatology = workspace_climatology(ws)
     cast = solar_wind_estimate(solar_wind)
     # With every site closed the night is still described, at the base.
     grid, summary = _grid_for_nights(ws, sites or [_base_site(ws)], date, 1, DEFAULT_STEP_MIN,
@@ -272,8 +303,8 @@ def tonight_report(ws, date: dt.date, top: int | None = None, now=None, climatol
     for rank, i in enumerate(order, start=1):
         rows.append(_tonight_site(ws, grid, summary, sites[i], i, rank, tz))
     dark_any = grid.darkness.any(axis=0)
-    dark_note = no_darkness(grid, [date], ws.operator.darkness, ws.operator.base_lat,
-                            settings_for(ws))
+    dark_note = no_darkness(grid, [date], ws.settings.viewing.darkness, ws.operator.base_lat,
+                            ws.settings.outing)
     return {
         "kind": "tonight",
         "operator": ws.operator.name,
@@ -282,7 +313,7 @@ def tonight_report(ws, date: dt.date, top: int | None = None, now=None, climatol
         "made_at": made_at(tz, now),
         "forecast": forecast_info(ws, grid.kind[dark_any], grid.times_utc[dark_any])
         if dark_any.any() else forecast_info(ws, grid.kind),
-        "darkness_level": ws.operator.darkness,
+        "darkness_level": ws.settings.viewing.darkness,
         "dark_start": local_iso(grid.times_utc[dark_cols[0]], tz) if dark_cols.size else None,
         "dark_end": (local_iso(grid.times_utc[dark_cols[-1]] + np.timedelta64(DEFAULT_STEP_MIN, "m"), tz)
                      if dark_cols.size else None),
@@ -371,7 +402,7 @@ def _tonight_site(ws, grid, summary, site, i, rank, tz):
         step = len(grid.times_utc) // 2
     dark = grid.darkness[i] > 0
     moon_up = (grid.moon_alt[i] > 0) & dark
-    hourly = hourly_chance(grid, i, tz, settings_for(ws))
+    hourly = hourly_chance(grid, i, tz, ws.settings.chance)
     cloud_window = _window_mean(grid.cloud_pct[i], grid, summary, i)
     return {
         "rank": rank,
@@ -427,10 +458,9 @@ def hourly_chance(grid, i, tz, settings=None):
 
 def _hourly_rows(grid, i, tz, settings):
     """(slice of steps, row) per dark hour; see :func:`hourly_chance`."""
-    from auroraplan.chance import DEFAULT_SETTINGS, p_display_seen
+    from auroraplan.chance import ChanceSettings, p_display_seen
 
-    cfg = dict(DEFAULT_SETTINGS, **(settings or {}))
-    tau = cfg["decorrelation_min"]
+    tau = (settings or ChanceSettings()).decorrelation_min
     shown = grid.darkness[i] * grid.moon[i] * grid.activity[i]
     rows = []
     for start, sl in _hour_blocks(grid):
@@ -460,12 +490,12 @@ def chance_by_time(grid, i, settings=None) -> np.ndarray:
     Same rule as the night's ``chance`` (:func:`auroraplan.chance.p_display_seen`),
     over a growing prefix of the night; its last value is the night's chance.
     """
-    from auroraplan.chance import DEFAULT_SETTINGS, p_display_seen
+    from auroraplan.chance import ChanceSettings, p_display_seen
 
-    cfg = dict(DEFAULT_SETTINGS, **(settings or {}))
+    tau = (settings or ChanceSettings()).decorrelation_min
     shown = np.nan_to_num(grid.darkness[i] * grid.moon[i] * grid.activity[i], nan=0.0)
     return np.array([p_display_seen(shown[:k + 1], grid.p_clear[i, :k + 1], grid.step_min,
-                                    cfg["decorrelation_min"])
+                                    tau)
                      for k in range(len(grid.times_utc))])
 
 
@@ -628,14 +658,14 @@ def site_timeline(ws, date: dt.date, site_name: str, climatology=None) -> dict:
     tz = ws.operator.timezone
     site = next(s for s in ws.sites if s.name == site_name)
     if climatology is None:
-        climatology = default_climatology(ws)
+        climatology = workspace_climatology(ws)
     grid, _ = _grid_for_nights(ws, [site], date, 1, DEFAULT_STEP_MIN, climatology)
-    cfg = settings_for(ws)
+    outing = ws.settings.outing
     return {
-        "site": f"{site.name} (outings {cfg['outing_from']}–{cfg['outing_until']})",
+        "site": f"{site.name} (outings {outing.outing_from}–{outing.outing_until})",
         "date": date.isoformat(),
         "timezone": tz,
-        "darkness_level": ws.operator.darkness,
+        "darkness_level": ws.settings.viewing.darkness,
         "times": [local_iso(t, tz) for t in grid.times_utc],
         "sun_alt": [_num(v, 2) for v in grid.sun_alt[0]],
         "moon_alt": [_num(v, 2) for v in grid.moon_alt[0]],
@@ -645,8 +675,8 @@ def site_timeline(ws, date: dt.date, site_name: str, climatology=None) -> dict:
         "kp_forecast": [_num(v, 2) for v in grid.kp_mean],
         "kp_sd": [_num(v, 2) for v in grid.kp_sd],
         "cloud_pct": [_num(v, 1) for v in grid.cloud_pct[0]],
-        "chance_in_hour": _per_step_hourly(grid, 0, tz, cfg),
-        "chance_by_time": [_num(v, 4) for v in chance_by_time(grid, 0, cfg)],
+        "chance_in_hour": _per_step_hourly(grid, 0, tz, ws.settings.chance),
+        "chance_by_time": [_num(v, 4) for v in chance_by_time(grid, 0, ws.settings.chance)],
         "chance_terms": {k: CHANCE_TERMS[k] for k in ("chance_in_hour", "chance_by_time")},
     }
 
@@ -655,7 +685,7 @@ def site_timeline(ws, date: dt.date, site_name: str, climatology=None) -> dict:
 # week
 
 
-def week_report(ws, start: dt.date, nights: int = 7, progress=None, now=None,
+def week_report(ws, start: dt.date, nights: int = 7, now=None,
                 climatology=None, ranked_top: int = 5, fixed=None, replan=None, keep_chances=None) -> dict:
     """Ranked nights and sites per trip, and the excursion plan for the fleet.
 
@@ -676,7 +706,7 @@ def week_report(ws, start: dt.date, nights: int = 7, progress=None, now=None,
     tz = ws.operator.timezone
     sites = ws.sites
     if climatology is None:
-        climatology = default_climatology(ws)
+        climatology = workspace_climatology(ws)
     grid, summary = _grid_for_nights(ws, sites, start, nights, DEFAULT_STEP_MIN, climatology)
     dates = [start + dt.timedelta(days=d) for d in range(nights)]
     if keep_chances and sites:
@@ -687,7 +717,7 @@ def week_report(ws, start: dt.date, nights: int = 7, progress=None, now=None,
     guests = np.array([t.guests for t in trips], int)
     outings = np.array([t.outings for t in trips], int)
     capacity = np.array([s.capacity for s in sites], int)
-    settings = planner_settings(ws)
+    settings = ws.settings.planner
     drive_cost = np.array([s.drive_min for s in sites], float) * settings.drive_cost_per_min
     _, plan_allowed, fixed_at, record_notes = _keep_fixed(
         ws, dates, value, allowed, outings, fixed or {}, replan)
@@ -711,8 +741,8 @@ def week_report(ws, start: dt.date, nights: int = 7, progress=None, now=None,
                 f"{trips[r].trip}'s {state} outing on {dates[d]} to {sites[s].name} no longer "
                 "fits the fleet or the site; release it or change the plan by hand")
 
-    dark_note = no_darkness(grid, dates, ws.operator.darkness, ws.operator.base_lat,
-                            settings_for(ws))
+    dark_note = no_darkness(grid, dates, ws.settings.viewing.darkness, ws.operator.base_lat,
+                            ws.settings.outing)
     trip_rows = []
     for r, trip in enumerate(trips):
         rows = []
@@ -934,15 +964,6 @@ def bookings_report(ws, now=None, db=None) -> dict:
     return record.bookings_plan(ws, db, save=False, now=now)
 
 
-def planner_settings(ws):
-    """planner.PlannerSettings from operator.toml [planner] (checked when it was read)."""
-    from auroraplan.planner import PlannerSettings
-
-    table = ws.operator.settings.get("planner", {})
-    names = ("drive_cost_per_min", "time_limit_s", "relative_gap", "fairness")
-    return PlannerSettings(**{key: table[key] for key in names if key in table})
-
-
 def _fleet(ws):
     from auroraplan.planner import Fleet
 
@@ -1012,12 +1033,12 @@ def season_report(ws, first: dt.date, last: dt.date, trip_nights: int = 5, progr
     open-horizon point at the base with the sites' mean clear-sky climatology.
     """
     from auroraplan import chance as chance_mod
-    from auroraplan import sky
+    from auroraplan import nights as nights_mod
     from auroraplan.workspace import Site
 
     tz = ws.operator.timezone
     if climatology is None:
-        climatology = default_climatology(ws)
+        climatology = workspace_climatology(ws)
     open_sites = [s for s in ws.sites if not s.closed]
     months = [s.clear_by_month for s in open_sites if s.clear_by_month]
     base_clear = tuple(np.mean(np.array(months, float), axis=0)) if months else None
@@ -1035,19 +1056,19 @@ def season_report(ws, first: dt.date, last: dt.date, trip_nights: int = 5, progr
     dark_hours = np.zeros(nights)
     outing_dark = np.zeros(nights, bool)
     illum = np.zeros(nights)
-    first_times, _ = sky.night_times(first, 1, tz, step)
-    table = chance_mod.kp_table(ws, sites, first_times[len(first_times) // 2])
+    first_times, _ = nights_mod.night_times(first, 1, tz, step)
+    table = chance_mod.kp_table(sites, first_times[len(first_times) // 2], ws.settings.viewing)
     warnings: list[str] = []
     done = 0
     while done < nights:
         n = min(SEASON_CHUNK_NIGHTS, nights - done)
         start = first + dt.timedelta(days=done)
-        times, night_index = sky.night_times(start, n, tz, step)
+        times, night_index = nights_mod.night_times(start, n, tz, step)
         grid = chance_mod.compute_grid(
-            ws, sites, times, night_index, step, use_forecast=False, use_clouds=False,
+            sites, times, night_index, step, tz=tz, settings=ws.settings,
             climatology=climatology, table=table,
         )
-        summary = chance_mod.summarise_nights(grid, n, chance_mod.settings_for(ws))
+        summary = chance_mod.summarise_nights(grid, n, ws.settings.chance)
         p_any[:, done:done + n] = np.nan_to_num(summary.p_any, nan=0.0)
         dark_hours[done:done + n] = summary.dark_hours[-1]
         for d in range(n):
@@ -1067,7 +1088,7 @@ def season_report(ws, first: dt.date, last: dt.date, trip_nights: int = 5, progr
     if open_sites and not starts:
         starts_note = (
             f"No start of {trip_nights} nights from {first} to {last} has a night dark "
-            f"enough ({ws.operator.darkness} darkness inside the outing hours) with any "
+            f"enough ({ws.settings.viewing.darkness} darkness inside the outing hours) with any "
             "chance, so no start date is recommended; look at the darker months.")
     rows = [{
         "date": d.isoformat(),
@@ -1160,7 +1181,9 @@ def oval_map_data(ws, kp: float, date: dt.date, basemap=None) -> dict:
     base_mlat, _ = magnetic.geo_to_aacgm(np.array([op.base_lat]), np.array([op.base_lon]), 0.0,
                                          when)
     hemisphere = "south" if np.nan_to_num(base_mlat[0], nan=op.base_lat) < 0 else "north"
-    bands = view.band_outline(kp, when, model=op.oval_model, emission_height_km=op.emission_height_km,
+    viewing = ws.settings.viewing
+    bands = view.band_outline(kp, when, model=viewing.oval_model,
+                              emission_height_km=viewing.emission_height_km,
                               hemisphere=hemisphere)
     return {
         "base": {"name": op.base_name, "lat": op.base_lat, "lon": op.base_lon},
@@ -1177,9 +1200,9 @@ def oval_map_data(ws, kp: float, date: dt.date, basemap=None) -> dict:
 
 def _magnetic_midnight(op, date: dt.date) -> dt.datetime:
     """The UTC time on the night of ``date`` when the base is at magnetic local time 0."""
-    from auroraplan import magnetic, sky
+    from auroraplan import magnetic, nights
 
-    times, _ = sky.night_times(date, 1, op.timezone, 10)
+    times, _ = nights.night_times(date, 1, op.timezone, 10)
     _, mlon = magnetic.geo_to_aacgm(np.array([op.base_lat]), np.array([op.base_lon]), 0.0,
                                     times[len(times) // 2].astype(object))
     mlt = magnetic.mlt(np.atleast_1d(mlon), times)[0]
@@ -1248,15 +1271,17 @@ def nowcast_report(ws, solar_wind, hours: int = 2, at: dt.datetime | None = None
     times = start + np.arange(hours * per_hour) * step
     sites = [s for s in ws.sites if not s.closed]
     if climatology is None:
-        climatology = default_climatology(ws)
-    cfg = settings_for(ws)
-    grid = chance.compute_grid(ws, sites or [_base_site(ws)], times,
+        climatology = workspace_climatology(ws)
+    cfg = ws.settings.chance
+    grid = chance.compute_grid(sites or [_base_site(ws)], times,
                                np.zeros(times.shape, int), NOWCAST_STEP_MIN,
+                               tz=tz, settings=ws.settings, activity=ws.activity,
+                               cloud=cloud_for(ws, sites or [_base_site(ws)], times),
                                climatology=climatology, nowcast=cast)
     shown = grid.darkness * grid.moon * grid.activity
     by_hour = [slice(h * per_hour, (h + 1) * per_hour) for h in range(hours)]
     p = np.stack([chance.p_display_seen(shown[:, sl], grid.p_clear[:, sl], grid.step_min,
-                                        cfg["decorrelation_min"]) for sl in by_hour], axis=1)
+                                        cfg.decorrelation_min) for sl in by_hour], axis=1)
     rows = []
     for i in (_rank(p[:, 0]) if sites else []):
         rows.append({

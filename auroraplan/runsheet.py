@@ -11,8 +11,46 @@ from __future__ import annotations
 import datetime as dt
 from dataclasses import dataclass
 
+from auroraplan import checks
+from auroraplan.checks import setting
 from auroraplan.errors import InputError
 from auroraplan.render import style as _style
+
+PRINT_LANGUAGES = ("en", "de")
+"""Languages with a message catalogue (the keys of auroraplan.i18n.LANGUAGES, which needs
+babel; a test keeps the two equal)."""
+
+
+@dataclass(frozen=True)
+class ContactSettings:
+    """operator.toml [contact]: who guests and guides call, and where groups are met."""
+
+    phone: str | None = setting(None, checks.text, "text", "the operator's phone number")
+    emergency: str | None = setting(None, checks.text, "text", "emergency number to call")
+    meeting_point: str | None = setting(None, checks.text, "text",
+                                        "where groups are picked up (default: the base)")
+    meeting_address: str | None = setting(None, checks.text, "text",
+                                          "street address of the meeting point")
+    meeting_lat: float | None = setting(None, checks.number(-90, 90, "degrees"), "degrees",
+                                        "latitude of the meeting point")
+    meeting_lon: float | None = setting(None, checks.number(-180, 180, "degrees"), "degrees",
+                                        "longitude of the meeting point")
+
+
+@dataclass(frozen=True)
+class PrintSettings:
+    """operator.toml [print]: what guests and guides read besides the plan."""
+
+    language: str = setting("en", checks.choice(PRINT_LANGUAGES), "code",
+                            "language of the itinerary and the phone page")
+    cloudy_night_policy: str | None = setting(
+        None, checks.paragraph, "text", "the operator's own words for a cloudy or cancelled night")
+    chance_meaning: str | None = setting(None, checks.paragraph, "text",
+                                         "the operator's own words for what a chance means")
+    forecast_max_age_hours: float = setting(
+        12.0, checks.positive(240, "hours"), "hours",
+        "a Kp forecast issued longer ago than this is called old (forecast centres reissue "
+        "the 3-day Kp forecast at least twice a day, from memory)")
 
 
 @dataclass(frozen=True)
@@ -34,26 +72,24 @@ class RunSheetSettings:
     forecast_max_age_h: float = 12.0
 
 
-def settings_from(operator_settings: dict) -> RunSheetSettings:
-    """The run-sheet settings from operator.toml's [print] table (checked by the loader)."""
-    table = (operator_settings or {}).get("print") or {}
-    if "forecast_max_age_hours" in table:
-        return RunSheetSettings(forecast_max_age_h=float(table["forecast_max_age_hours"]))
-    return RunSheetSettings()
+def settings_from(operator_settings) -> RunSheetSettings:
+    """The run-sheet settings from the workspace's settings (``[print]``)."""
+    printing = operator_settings.print if operator_settings is not None else PrintSettings()
+    return RunSheetSettings(forecast_max_age_h=float(printing.forecast_max_age_hours))
 
 
-def language(operator_settings: dict) -> str:
-    """The language for guests and guides: ``[print] language`` (checked by the loader)."""
-    return ((operator_settings or {}).get("print") or {}).get("language", "en")
+def language(operator_settings) -> str:
+    """The language for guests and guides: ``[print] language``."""
+    return operator_settings.print.language if operator_settings is not None else "en"
 
 
-def meeting_point(operator_settings: dict, base: dict) -> dict:
+def meeting_point(operator_settings, base: dict) -> dict:
     """Where groups are picked up: [contact] meeting_* from operator.toml, else the base."""
-    contact = (operator_settings or {}).get("contact") or {}
-    if contact.get("meeting_point"):
-        return {"name": contact["meeting_point"], "address": contact.get("meeting_address"),
-                "lat": contact.get("meeting_lat"), "lon": contact.get("meeting_lon")}
-    return {"name": base.get("name"), "address": contact.get("meeting_address"),
+    contact = operator_settings.contact if operator_settings is not None else ContactSettings()
+    if contact.meeting_point:
+        return {"name": contact.meeting_point, "address": contact.meeting_address,
+                "lat": contact.meeting_lat, "lon": contact.meeting_lon}
+    return {"name": base.get("name"), "address": contact.meeting_address,
             "lat": base.get("lat"), "lon": base.get("lon")}
 
 
@@ -135,7 +171,7 @@ def _instant(iso_text: str) -> dt.datetime:
     return t if t.tzinfo else t.replace(tzinfo=dt.UTC)
 
 
-def run_sheet(tonight: dict, week: dict, trip_id: str, operator_settings: dict | None = None,
+def run_sheet(tonight: dict, week: dict, trip_id: str, operator_settings=None,
               settings: RunSheetSettings | None = None) -> dict:
     """One group's run sheet for tonight.
 
@@ -148,8 +184,8 @@ def run_sheet(tonight: dict, week: dict, trip_id: str, operator_settings: dict |
         A ``week_report`` whose plan covers the night (the plan of the group's stay).
     trip_id : str
         The trip's id in trips.csv.
-    operator_settings : dict
-        operator.toml as read (for ``[contact]`` and ``[print]``).
+    operator_settings : auroraplan.settings.Settings, optional
+        The workspace's settings (``contact`` and ``print``); None = defaults.
 
     Returns
     -------
@@ -160,7 +196,6 @@ def run_sheet(tonight: dict, week: dict, trip_id: str, operator_settings: dict |
         (see :func:`decide`), ``data_age`` (see :func:`data_age`), ``outing`` (the plan's
         entry, or None with ``no_outing`` saying why).
     """
-    operator_settings = operator_settings or {}
     settings = settings or settings_from(operator_settings)
     trip = find_trip(week, trip_id)
     date = tonight["date"]

@@ -17,6 +17,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from auroraplan.errors import InputError
+from auroraplan.nights import night_times, zone_of
 
 # Sun altitude (degrees, centre, geometric) below which the sky counts as dark.
 # Civil, nautical and astronomical twilight end at -6, -12 and -18 degrees
@@ -286,64 +287,9 @@ def sun_moon_altaz(lat_deg, lon_deg, height_m, times_utc, chunk_size=2_000_000) 
 # Nights and darkness
 
 
-def _local_noon_utc(day: dt.date, zone: zoneinfo.ZoneInfo) -> np.datetime64:
-    noon = dt.datetime(day.year, day.month, day.day, 12, tzinfo=zone)
-    return np.datetime64(noon.astimezone(dt.UTC).replace(tzinfo=None), "s")
-
-
 def _local_midnight_utc(day: dt.date, zone: zoneinfo.ZoneInfo) -> np.datetime64:
     midnight = dt.datetime(day.year, day.month, day.day, tzinfo=zone)
     return np.datetime64(midnight.astimezone(dt.UTC).replace(tzinfo=None), "s")
-
-
-def _zone(tz: str) -> zoneinfo.ZoneInfo:
-    try:
-        return zoneinfo.ZoneInfo(tz)
-    except (zoneinfo.ZoneInfoNotFoundError, ValueError):
-        raise InputError(
-            f"time zone {tz!r} is not a known IANA zone; give a name such as Europe/Oslo"
-        ) from None
-
-
-def night_times(first_night: dt.date, nights: int, tz: str, step_min=10, include_end=False):
-    """A UTC time grid running from local noon to the next local noon, night by night.
-
-    Parameters
-    ----------
-    first_night : datetime.date
-        Local date on which the first night begins (the evening's date).
-    nights : int
-        Number of consecutive nights.
-    tz : str
-        IANA time zone; noon is taken on the local clock, so nights that contain
-        a daylight-saving change last 23 or 25 hours.
-    step_min : float
-        Spacing in minutes.
-    include_end : bool
-        Also give each night's closing noon (which is the next night's opening
-        time) so that a night can be worked on as a closed interval.
-
-    Returns
-    -------
-    times_utc : ndarray of datetime64[s] (T,)
-    night_index : ndarray of int (T,)
-        0 for the first night, 1 for the next, ...
-    """
-    zone = _zone(tz)
-    step = np.timedelta64(int(round(step_min * 60)), "s")
-    times, index = [], []
-    for k in range(nights):
-        day = first_night + dt.timedelta(days=k)
-        start = _local_noon_utc(day, zone)
-        end = _local_noon_utc(day + dt.timedelta(days=1), zone)
-        grid = np.arange(start, end, step)
-        if include_end:
-            grid = np.append(grid, end)
-        times.append(grid)
-        index.append(np.full(grid.size, k))
-    if not times:
-        return np.array([], dtype="datetime64[s]"), np.array([], dtype=int)
-    return np.concatenate(times), np.concatenate(index)
 
 
 def _crossing(t: np.ndarray, f: np.ndarray, i: int) -> float:
@@ -431,7 +377,7 @@ def darkness_windows(lat, lon, first_night, nights, tz, level="nautical", height
             f"nights {first_night} to {last} are outside the ephemeris; "
             f"give dates from {FIRST_NIGHT} to {LAST_NIGHT}"
         )
-    zone = _zone(tz)
+    zone = zone_of(tz)
     times, night = night_times(first_night, nights, tz, step_min=1, include_end=True)
     days = [first_night + dt.timedelta(days=k + 1) for k in range(nights)]
     midnights = np.array([_local_midnight_utc(d, zone) for d in days], dtype="datetime64[s]")

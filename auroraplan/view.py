@@ -58,8 +58,10 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from auroraplan import magnetic, oval
+from auroraplan import checks, magnetic, oval
+from auroraplan.checks import setting
 from auroraplan.errors import InputError
+from auroraplan.sky import DARKNESS_DEG
 
 R_EARTH_KM = 6371.2  # IGRF reference radius, used as a spherical Earth
 MLT_STEP_H = 0.25  # Kp-needed table resolution in MLT (96 columns)
@@ -67,9 +69,31 @@ KP_FINE_STEP = 0.01  # resolution of Kp needed
 KP_COARSE_EVERY = 25  # the first scan looks at every 25th fine Kp (0.25 Kp)
 LAT_STEP_DEG = 0.5  # spacing of band sample points along the magnetic meridian
 MASK_STEP_DEG = 0.5  # horizon masks are resampled on this azimuth grid
-MASK_ELEVATION_RANGE = (-10.0, 90.0)  # allowed horizon elevations, degrees
+MASK_ELEVATION_RANGE = (-5.0, 90.0)
+"""Allowed horizon-mask elevations, degrees: a horizon below 0 is the sea seen from a hill
+(the dip is about 1 degree from 300 m; -5 leaves room for a cliff top). Common practice,
+no source."""
 SITE_CHUNK = 256  # sites per block in the Kp search (bounds memory)
 NIGHT_MLT = (18.0, 6.0)  # MLT span treated as the night side for the best hour
+
+
+@dataclass(frozen=True)
+class ViewingSettings:
+    """operator.toml [viewing]: when the sky counts as dark and how the band must be seen."""
+
+    darkness: str = setting("nautical", checks.choice(DARKNESS_DEG), "level",
+                            "sun depth that counts as dark (auroraplan.sky.DARKNESS_DEG)")
+    min_elevation_deg: float = setting(
+        5.0, checks.number(0, 30, "degrees"), "degrees",
+        "margin the band must clear above each site's horizon (common practice, no source)")
+    emission_height_km: float = setting(
+        110.0, checks.number(80, 400, "km"), "km",
+        "height of the aurora's lower border (typical green aurora)")
+    oval_model: str = setting(oval.DEFAULT_MODEL, checks.choice(oval.VIEWING_MODELS), "name",
+                              "oval boundary model with discrete-oval edges (auroraplan.oval)")
+    extinction_k: float | None = setting(
+        None, checks.number(0.05, 1.0, "magnitudes per airmass"), "V mag per airmass",
+        "V-band extinction for moonlight; None: from each site's height (sky.extinction_k_v)")
 
 
 @dataclass
@@ -538,18 +562,13 @@ def kp_needed_table(lat, lon, height_m, horizons, min_elevation_deg=5.0,
     ----------
     See the module docstring.
     """
-    oval.check_model(model)
+    oval.check_viewing_model(model)
     lat, lon, height_m = _as_site_arrays(lat, lon, height_m)
     n = lat.size
     horizons = check_horizons(horizons, n, names)
     mlt_h = np.arange(0.0, 24.0, MLT_STEP_H)
     kp_fine = np.round(np.arange(0.0, oval.KP_MAX + 1e-9, KP_FINE_STEP), 6)
     eq, pw = _discrete_edges(kp_fine[:, None], mlt_h[None, :], model)  # (F, M)
-    if not (np.all(np.isfinite(eq)) and np.all(np.isfinite(pw))):
-        raise InputError(
-            f"oval model {model!r} has no discrete-oval edges; use one of "
-            f"{', '.join(k for k in oval.MODELS if k.startswith('starkov'))} for Kp needed"
-        )
     coarse = np.arange(0, kp_fine.size, KP_COARSE_EVERY)
     # One height for both sides of every comparison: the site's magnetic
     # coordinates are those of the point at the emission height above it.

@@ -6,7 +6,9 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from auroraplan.activity import utc_datetime64
+from auroraplan import checks
+from auroraplan.checks import setting
+from auroraplan.nights import utc_datetime64
 
 END_HOLD_H = 1.0
 """At the ends of a forecast, and beside a gap longer than ``WeatherSettings.max_gap_h``, the
@@ -131,6 +133,9 @@ def _forecast_by_site(clouds_df):
     return {names[a]: (times[a:b], pct[a:b]) for a, b in zip(starts, ends, strict=True)}
 
 
+CLOUDS_UNITS = ("percent", "fraction")
+
+
 @dataclass(frozen=True)
 class WeatherSettings:
     """Settings of the cloud stage, from operator.toml ``[weather]``.
@@ -152,27 +157,19 @@ class WeatherSettings:
         Model weight exp(-(error / sky_sd_pct)² / 2), percent; default 20. An assumption.
     """
 
-    max_gap_h: float = 6.0
-    layer_weights: tuple = (1.0, 0.8, 0.5)
-    clouds_unit: str = "percent"
-    sky_radius_km: float = 50.0
-    sky_hours: float = 6.0
-    sky_sd_pct: float = 20.0
-
-
-WEATHER_LIMITS = {
-    # field: (low, high, unit) -- what the rules above can use
-    "max_gap_h": (0.0, 24.0, "hours"),
-    "sky_radius_km": (0.0, 1000.0, "km"),
-    "sky_hours": (0.0, 24.0, "hours"),
-    "sky_sd_pct": (1.0, 100.0, "percent"),
-}
-CLOUDS_UNITS = ("percent", "fraction")
-
-
-def settings_from(doc: dict | None) -> WeatherSettings:
-    """WeatherSettings from a checked operator.toml document (its [weather] table)."""
-    return WeatherSettings(**((doc or {}).get("weather") or {}))
+    max_gap_h: float = setting(6.0, checks.number(0.0, 24.0, "hours"), "hours",
+                               "longest gap between forecast steps that is interpolated")
+    layer_weights: tuple = setting(
+        (1.0, 0.8, 0.5), checks.numbers(("low", "medium", "high"), 0, 1, "(a share)"),
+        "shares", "share of low, medium and high cloud that hides the aurora")
+    clouds_unit: str = setting("percent", checks.choice(CLOUDS_UNITS), "name",
+                               "unit of cloud_pct in clouds.csv")
+    sky_radius_km: float = setting(50.0, checks.number(0.0, 1000.0, "km"), "km",
+                                   "a reported sky ranks the models for sites this close")
+    sky_hours: float = setting(6.0, checks.number(0.0, 24.0, "hours"), "hours",
+                               "for this many hours after the report")
+    sky_sd_pct: float = setting(20.0, checks.number(1.0, 100.0, "percent"), "percent",
+                                "spread of the model weight around the reported sky")
 
 
 @dataclass(frozen=True)

@@ -595,9 +595,7 @@ def read_for_workspace(ws, settings=None) -> FileReading | None:
     before a command writes anything, so that a bad file stops it first."""
     if not ws.weather_files:
         return None
-    from auroraplan.weather import settings_from
-
-    settings = settings or settings_from(ws.operator.settings)
+    settings = settings or ws.settings.weather
     return read_cached(ws.weather_files, [s.lat for s in ws.sites], [s.lon for s in ws.sites],
                        settings.layer_weights)
 

@@ -8,7 +8,6 @@ import datetime as dt
 import io
 import json
 import math
-import re
 import tomllib
 import zoneinfo
 from dataclasses import dataclass, field
@@ -16,9 +15,12 @@ from pathlib import Path
 
 import numpy as np
 
-from auroraplan.activity import BLOCK_HOURS, SPREAD_LIMITS, parse_kp
+from auroraplan import checks
+from auroraplan.activity import BLOCK_HOURS, parse_kp
 from auroraplan.errors import InputError, ProblemList
-from auroraplan.planner import FAIRNESS, Fleet, Guide, Vehicle
+from auroraplan.planner import Fleet, Guide, Vehicle
+from auroraplan.settings import TABLES, Settings
+from auroraplan.view import MASK_ELEVATION_RANGE
 
 
 @dataclass(frozen=True)
@@ -32,12 +34,6 @@ class Operator:
     timezone: str
     vehicles: int = 1
     fleet: object = None  # planner.Fleet: vehicles (seats, dates away) and guides
-    darkness: str = "nautical"
-    min_elevation_deg: float = 5.0
-    emission_height_km: float = 110.0
-    oval_model: str = "starkov1994"
-    extinction_k: float | None = None  # V mag per airmass; None: from each site's height
-    settings: dict = field(default_factory=dict)  # the whole operator.toml, e.g. ["activity"]
 
 
 @dataclass(frozen=True)
@@ -85,6 +81,7 @@ class Workspace:
     trips: list[Trip]
     activity: object  # pandas.DataFrame: start_utc (UTC), kp (float), kp_sd (float, NaN = default)
     clouds: object  # pandas.DataFrame: site, time_utc (UTC), cloud_pct (float)
+    settings: Settings = field(default_factory=Settings)  # every stage's settings record
     files: dict = field(default_factory=dict)  # role -> Path actually read
     warnings: list = field(default_factory=list)
     sky_reports: list = field(default_factory=list)  # weather.SkyReport from --sky
@@ -105,12 +102,6 @@ class Workspace:
 # ---------------------------------------------------------------------------------------
 # What the files may hold
 # ---------------------------------------------------------------------------------------
-
-DARKNESS_LEVELS = ("civil", "nautical", "astronomical")
-"""Keys of sky.DARKNESS_DEG: sun 6, 12 or 18 degrees below the horizon."""
-
-OVAL_MODELS = ("starkov1994", "gussenhoven1983")
-"""Keys of oval.MODELS."""
 
 FILE_NAMES = {
     "operator": "operator.toml",
@@ -168,218 +159,21 @@ def estimated_drive_min(km_straight: float) -> float:
     minutes = km_straight * ROAD_FACTOR / WINTER_ROAD_KMH * 60.0
     return float(math.ceil(minutes / 5.0) * 5.0)
 
-HORIZON_EL_RANGE = (-5.0, 90.0)
 KP_SD_RANGE = (0.0, 5.0)
 
 MAX_STAY_NIGHTS = 366
 """A stay longer than a year in trips.csv is a typo in a date (common practice, no source)."""
-
-FILE_YEARS = (1900, 2099)
-"""Years allowed for times in activity.csv, clouds.csv and [activity] issued_utc: a wide
-net for typos in the year. Times outside the nights being planned are never used, so the
-bound is looser than the ephemeris span of TRIP_DATES (pandas' nanosecond times end in 2262)."""
 
 TRIP_DATES = (dt.date(1900, 1, 1), dt.date(2053, 1, 1))
 """Arrive and depart dates allowed in trips.csv: nights from sky.FIRST_NIGHT to
 sky.LAST_NIGHT, inside the span of the JPL DE421 ephemeris (Skyfield reports de421.bsp
 as covering 1899-07-29 to 2053-10-09)."""
 
-SHOWN_CHARS = 60
-"""Longest piece of a bad value quoted back in an error line."""
-
-TIME_EXAMPLE = "2027-01-12T18:00Z"
-_ISO_TIME_RE = re.compile(r"^\d{4}-\d{2}-\d{2}[T ]\d{2}:\d{2}")
 
 
 # ---------------------------------------------------------------------------------------
 # Small value checkers: each returns the value or raises ValueError saying what is allowed
 # ---------------------------------------------------------------------------------------
-
-
-def _is_missing(value) -> bool:
-    return value is None or (isinstance(value, float) and math.isnan(value))
-
-
-def _quote(value) -> str:
-    """``repr`` of a bad value for an error line, cut to SHOWN_CHARS characters."""
-    text = repr(value)
-    return text if len(text) <= SHOWN_CHARS else text[: SHOWN_CHARS - 3] + "..."
-
-
-def _as_float(value) -> float:
-    """A JSON/TOML number as float; integers too large for a float become infinity."""
-    try:
-        return float(value)
-    except OverflowError:
-        return math.inf if value > 0 else -math.inf
-
-
-def _number(low, high, unit=""):
-    unit_text = f" {unit}" if unit else ""
-
-    def check(value):
-        if isinstance(value, bool) or not isinstance(value, int | float):
-            raise ValueError(f"{_quote(value)} is not a number; give {low} to {high}{unit_text}")
-        number = _as_float(value)
-        if not (math.isfinite(number) and low <= number <= high):
-            raise ValueError(f"{number:g} is outside {low} to {high}{unit_text}")
-        return number
-
-    return check
-
-
-def _whole(low, high, unit=""):
-    as_number = _number(low, high, unit)
-
-    def check(value):
-        value = as_number(value)
-        if value != int(value):
-            raise ValueError(f"{value:g} is not a whole number; give {low} to {high}")
-        return int(value)
-
-    return check
-
-
-def _choice(allowed):
-    def check(value):
-        if not isinstance(value, str) or value not in allowed:
-            raise ValueError(f"{_quote(value)} is not known; allowed: {', '.join(allowed)}")
-        return value
-
-    return check
-
-
-_CONTROL_RE = re.compile(r"[\x00-\x1f\x7f]")
-_CONTROL_IN_NOTES_RE = re.compile(r"[\x00-\x08\x0b-\x1f\x7f]")  # tabs and line breaks allowed
-_SURROGATE_RE = re.compile(r"[\ud800-\udfff]")
-
-
-def _printable(value: str, control=_CONTROL_RE) -> str:
-    """``value`` if it can be shown and written as UTF-8; ValueError naming the bad character."""
-    bad = _SURROGATE_RE.search(value)
-    if bad:
-        raise ValueError(
-            f"holds a broken character (lone surrogate U+{ord(bad.group()):04X}); retype the text"
-        )
-    bad = control.search(value)
-    if bad:
-        raise ValueError(
-            f"holds a control character (U+{ord(bad.group()):04X}); retype the text"
-        )
-    return value
-
-
-def _text(value):
-    if not isinstance(value, str) or not value.strip():
-        raise ValueError("must be a non-empty text")
-    return _printable(value.strip())
-
-
-def _paragraph(value):
-    """A non-empty text that may run over several lines (an operator's policy, a note)."""
-    if not isinstance(value, str) or not value.strip():
-        raise ValueError("must be a non-empty text")
-    return _printable(value.strip(), _CONTROL_IN_NOTES_RE)
-
-
-def _zone(value):
-    _text(value)
-    try:
-        zoneinfo.ZoneInfo(value)
-    except (zoneinfo.ZoneInfoNotFoundError, ValueError, OSError):
-        # OSError: a folder of the zone database ("Europe") or a name too long for a path
-        raise ValueError(
-            f"{_quote(value)} is not a known IANA time zone; give a name such as Europe/Oslo"
-        ) from None
-    return value
-
-
-def parse_utc(text) -> dt.datetime:
-    """An ISO 8601 date and time as an aware UTC datetime.
-
-    "Z" or an offset ("+01:00") is honoured; a time without a zone is taken as UTC (the
-    files hold UTC, and the command line reads times the same way).
-    """
-    if isinstance(text, dt.datetime):
-        value = text
-    else:
-        raw = str(text).strip()
-        if not _ISO_TIME_RE.match(raw):
-            raise ValueError(
-                f"{_quote(raw)} is not an ISO 8601 date and time; give for example {TIME_EXAMPLE}"
-            )
-        try:
-            value = dt.datetime.fromisoformat(re.sub(r"[zZ]$", "+00:00", raw))
-        except ValueError:
-            raise ValueError(
-                f"{_quote(raw)} is not an ISO 8601 date and time; give for example {TIME_EXAMPLE}"
-            ) from None
-    if value.tzinfo is None:
-        return value.replace(tzinfo=dt.UTC)
-    try:
-        return value.astimezone(dt.UTC)
-    except OverflowError:  # 0001-01-01T00:00+01:00 or 9999-12-31T23:59-01:00
-        raise ValueError(
-            f"{_quote(str(text).strip())} lies outside the calendar in UTC; give a time "
-            f"such as {TIME_EXAMPLE}"
-        ) from None
-
-
-def _file_time(text) -> dt.datetime:
-    """parse_utc, limited to the years FILE_YEARS that the later stages can compute."""
-    value = parse_utc(text)
-    first, last = FILE_YEARS
-    if not first <= value.year <= last:
-        raise ValueError(
-            f"{value:%Y-%m-%dT%H:%MZ} is outside the years {first} to {last}; check the year"
-        )
-    return value
-
-
-def _date(text) -> dt.date:
-    raw = str(text).strip()
-    try:
-        return dt.date.fromisoformat(raw)
-    except ValueError:
-        raise ValueError(
-            f"{_quote(raw)} is not a date; give YYYY-MM-DD, for example 2027-01-12"
-        ) from None
-
-
-def _trip_date(text) -> dt.date:
-    """A date of trips.csv: _date within TRIP_DATES."""
-    value = _date(text)
-    first, last = TRIP_DATES
-    if not first <= value <= last:
-        raise ValueError(
-            f"{value} is outside {first} to {last}, the dates the sky is computed for; "
-            "check the year"
-        )
-    return value
-
-
-def _csv_parsed(checker, what: str, low, high, unit=""):
-    """A CSV cell read as a number, then checked by ``checker`` (range, wholeness)."""
-
-    def check(text):
-        raw = str(text).strip()
-        try:
-            value = float(raw)
-        except ValueError:
-            raise ValueError(
-                f"{_quote(raw)} is not {what}; give {low} to {high} {unit}".rstrip()
-            ) from None
-        return checker(value)
-
-    return check
-
-
-def _csv_number(low, high, unit=""):
-    return _csv_parsed(_number(low, high, unit), "a number", low, high, unit)
-
-
-def _csv_whole(low, high, unit=""):
-    return _csv_parsed(_whole(low, high, unit), "a whole number", low, high)
 
 
 # ---------------------------------------------------------------------------------------
@@ -475,77 +269,24 @@ def _check_field(problems, where, name, checker, value):
 # ---------------------------------------------------------------------------------------
 
 
-def _time_setting(value):
-    if isinstance(value, dt.date | dt.time) and not isinstance(value, dt.datetime):
-        raise ValueError(f"{value} is not a date and time; give for example \"{TIME_EXAMPLE}\"")
-    return _file_time(value)
-
-
-def _spread_checkers():
-    checks = {key: (_number(low, high, "Kp"), False) for key, (low, high) in SPREAD_LIMITS.items()}
-    checks["issued_utc"] = (_time_setting, False)
-    return checks
-
-
-def _positive(high, unit):
-    """A number above 0 and at most ``high``."""
-    as_number = _number(0, high, unit)
-
-    def check(value):
-        value = as_number(value)
-        if value <= 0:
-            raise ValueError(f"{value:g} must be above 0; give up to {high} {unit}")
-        return value
-
-    return check
-
-
-PRINT_LANGUAGES = ("en", "de")  # the languages with a catalogue (auroraplan.i18n.LANGUAGES)
+_TRIP_DATE = checks.date_within(*TRIP_DATES)
 
 OPERATOR_SCHEMA = {
-    # table: {key: (checker, required)}
+    # table: {key: (checker, required)}; the stage tables are in auroraplan.settings.TABLES
     "base": {
-        "name": (_text, True),
-        "lat": (_number(-90, 90, "degrees"), True),
-        "lon": (_number(-180, 180, "degrees"), True),
-        "timezone": (_zone, True),
+        "name": (checks.text, True),
+        "lat": (checks.number(-90, 90, "degrees"), True),
+        "lon": (checks.number(-180, 180, "degrees"), True),
+        "timezone": (checks.zone, True),
     },
-    "operator": {"name": (_text, False)},
+    "operator": {"name": (checks.text, False)},
     # vehicles: a count, or a list of {name, seats, unavailable}; seats: the default seats
     # per vehicle (without it a vehicle takes one group); guides: a count or a list of
     # {name, unavailable}. See _fleet_record.
     "fleet": {
         "vehicles": (lambda value: _fleet_members(value, "vehicle"), False),
-        "seats": (_whole(1, 100, "seats"), False),
+        "seats": (checks.whole(1, 100, "seats"), False),
         "guides": (lambda value: _fleet_members(value, "guide"), False),
-    },
-    "viewing": {
-        "darkness": (_choice(DARKNESS_LEVELS), False),
-        "min_elevation_deg": (_number(0, 30, "degrees"), False),
-        "emission_height_km": (_number(80, 400, "km"), False),
-        "oval_model": (_choice(OVAL_MODELS), False),
-        # V-band extinction for moonlight, mag per airmass; default from each site's height
-        # (sky.extinction_k_v).
-        "extinction_k": (_number(0.05, 1.0, "magnitudes per airmass"), False),
-    },
-    # history_file: Kp history in the CelesTrak space-weather format, relative to
-    # the workspace, used instead of the bundled file for the climatology.
-    "activity": {**_spread_checkers(), "history_file": (_text, False)},
-    # What guests and guides read besides the plan: who to call, where to meet, and the
-    # operator's own words for a cloudy or cancelled night (itinerary and run sheet).
-    "contact": {
-        "phone": (_text, False),
-        "emergency": (_text, False),
-        "meeting_point": (_text, False),
-        "meeting_address": (_text, False),
-        "meeting_lat": (_number(-90, 90, "degrees"), False),
-        "meeting_lon": (_number(-180, 180, "degrees"), False),
-    },
-    "print": {
-        "language": (_choice(PRINT_LANGUAGES), False),
-        "cloudy_night_policy": (_paragraph, False),
-        "chance_meaning": (_paragraph, False),
-        "forecast_max_age_hours": (_positive(240, "hours"), False),
     },
 }
 
@@ -557,10 +298,10 @@ def _unavailable(value, where):
     dates = []
     for item in value:
         if isinstance(item, dt.datetime) or not isinstance(item, dt.date | str):
-            raise ValueError(f"{where} unavailable: {_quote(item)} is not a date; "
+            raise ValueError(f"{where} unavailable: {checks.quote(item)} is not a date; "
                              "give YYYY-MM-DD, for example 2027-01-12")
         try:
-            dates.append(item if isinstance(item, dt.date) else _date(item))
+            dates.append(item if isinstance(item, dt.date) else checks.date(item))
         except ValueError as exc:
             raise ValueError(f"{where} unavailable: {exc}") from None
     return tuple(sorted(set(dates)))
@@ -572,7 +313,7 @@ FLEET_MEMBER_KEYS = {"vehicle": ("name", "seats", "unavailable"), "guide": ("nam
 def _fleet_members(value, kind):
     """A count (1-100), or a list of tables for each vehicle or guide; a tuple of dicts."""
     if not isinstance(value, list):
-        return _whole(1 if kind == "vehicle" else 0, 100, f"{kind}s")(value)
+        return checks.whole(1 if kind == "vehicle" else 0, 100, f"{kind}s")(value)
     if not 1 <= len(value) <= 100:
         raise ValueError(f"give 1 to 100 {kind}s, not {len(value)}")
     members, names = [], set()
@@ -585,14 +326,14 @@ def _fleet_members(value, kind):
         if unknown:
             raise ValueError(f"{where}: unknown key {unknown[0]}; allowed: "
                              f"{', '.join(FLEET_MEMBER_KEYS[kind])}")
-        name = _text(item["name"]) if "name" in item else f"{kind} {number}"
+        name = checks.text(item["name"]) if "name" in item else f"{kind} {number}"
         if name in names:
-            raise ValueError(f"{where}: the name {_quote(name)} is used twice; name each once")
+            raise ValueError(f"{where}: the name {checks.quote(name)} is used twice; name each once")
         names.add(name)
         member = {"name": name, "unavailable": _unavailable(item.get("unavailable", []), where)}
         if kind == "vehicle" and "seats" in item:
             try:
-                member["seats"] = _whole(1, 100, "seats")(item["seats"])
+                member["seats"] = checks.whole(1, 100, "seats")(item["seats"])
             except ValueError as exc:
                 raise ValueError(f"{where} seats: {exc}") from None
         members.append(member)
@@ -621,143 +362,54 @@ def _fleet_record(values, label, problems):
     return Fleet(fleet_vehicles, guides)
 
 
-def _clock(value) -> str:
-    """A local clock time "HH:MM" from 00:00 to 24:00 (a TOML time such as 18:00:00 too)."""
-    if isinstance(value, dt.time):
-        if value.second or value.microsecond or value.tzinfo is not None:
-            raise ValueError(f"{value} is not a whole minute of the local clock; give \"HH:MM\"")
-        return f"{value:%H:%M}"
-    allowed = 'give "HH:MM" from 00:00 to 24:00, for example "18:00"'
-    match = _CLOCK_RE.match(value) if isinstance(value, str) else None
-    if match is None:
-        raise ValueError(f"{_quote(value)} is not a clock time; {allowed}")
-    hours, minutes = int(match.group(1)), int(match.group(2))
-    if minutes >= 60 or hours * 60 + minutes > 24 * 60:
-        raise ValueError(f"{_quote(value)} is not a clock time; {allowed}")
-    return f"{hours:02d}:{minutes:02d}"
+def _read_settings(doc: dict, label: str, problems: ProblemList) -> Settings | None:
+    """The stage settings records filled from their operator.toml tables (auroraplan.settings).
 
-
-_CLOCK_RE = re.compile(r"^\s*(\d{1,2}):(\d{2})\s*$")
-
-CHANCE_CHECKS = {
-    # key of chance.DEFAULT_SETTINGS: checker. The ranges are what the formulas in
-    # auroraplan/chance.py can use (probabilities 0-1, durations above 0 and within a day,
-    # Kp spreads and margins on the 0-9 scale); common practice, no source.
-    "boundary_sd_kp": _number(0, 3, "Kp"),
-    "moon_beta": _number(0, 3),
-    "display_quiet": _number(0, 1, "(a probability)"),
-    "display_active": _positive(1, "(a probability)"),
-    "strong_margin_kp": _number(0, 9, "Kp"),
-    "decorrelation_min": _positive(1440, "minutes"),
-    "outing_from": _clock,
-    "outing_until": _clock,
-    "min_window_min": _positive(1440, "minutes"),
-    "max_window_min": _positive(1440, "minutes"),
-}
-PLANNER_CHECKS = {
-    # planner.DRIVE_WEIGHT_PER_MIN is 0.001 chance per minute of driving; 0.1 would make a
-    # one-hour drive cost more than any chance (common practice, no source).
-    "drive_cost_per_min": _number(0, 0.1, "chance per minute"),
-    # The search for the plan (planner.PlannerSettings): seconds, a fraction, a rule name.
-    "time_limit_s": _positive(3600, "seconds"),
-    "relative_gap": _number(0, 0.5, "(a fraction; 0.01 is 1 %)"),
-    "fairness": _choice(tuple(FAIRNESS)),
-}
-FREE_TABLES = ("chance", "planner")
-STAGE_TABLES = FREE_TABLES + ("weather",)
-"""Tables of operator.toml beyond OPERATOR_SCHEMA: [weather] holds the fields of
-weather.WeatherSettings."""
-"""Tables of the later stages: [chance] holds keys of chance.DEFAULT_SETTINGS, [planner] the
-same keys (the outing hours usually) and drive_cost_per_min."""
-
-SETTING_PAIRS = (
-    # (lower, upper, what the pair means)
-    ("display_quiet", "display_active", "a display is no less likely when activity is strong"),
-    ("min_window_min", "max_window_min", "the shortest best window is not longer than the longest"),
-)
-
-
-def _setting_keys(table: str) -> dict:
-    """Key -> checker of the [chance] or [planner] table; the keys are chance.DEFAULT_SETTINGS."""
-    from auroraplan.chance import DEFAULT_SETTINGS  # imported here: numpy only, but not at start
-
-    checks = {}
-    for key, default in DEFAULT_SETTINGS.items():
-        checks[key] = CHANCE_CHECKS.get(key) or (
-            _clock if isinstance(default, str) else _number(0, 1e6))
-    if table == "planner":
-        checks.update(PLANNER_CHECKS)
-    return checks
-
-
-def _check_stage_tables(doc: dict, label: str, problems: ProblemList) -> None:
-    """Check [chance] and [planner] in place: known keys, types, ranges; values normalised."""
-    set_in = {}
+    Each key is checked by its field's checker; a key may stand in one of the tables that
+    accept it, once.
+    """
     before = len(problems)
-    for table in FREE_TABLES:
+    records = [f.name for f in dataclasses.fields(Settings)]
+    defaults = Settings()
+    values: dict = {name: {} for name in records}
+    set_in: dict = {}  # key -> table
+    for table, homes in TABLES.items():
         given = doc.get(table)
         if not isinstance(given, dict):
             continue
-        keys = _setting_keys(table)
-        for key in list(given):
+        fields = {}
+        for home in homes:
+            for key, fld in checks.setting_fields(getattr(defaults, home)).items():
+                fields.setdefault(key, (home, fld))
+        for key, raw in given.items():
             where = f"{label} [{table}] {key}"
-            if key not in keys:
-                problems.add(f"{where}: unknown key; allowed: {', '.join(keys)}")
+            if key not in fields:
+                problems.add(f"{where}: unknown key; allowed: {', '.join(fields)}")
                 continue
+            home, fld = fields[key]
             if key in set_in:
                 problems.add(f"{where}: also set in [{set_in[key]}]; set it in one table only")
                 continue
             set_in[key] = table
-            checked = _check_field(problems, where, None, keys[key], given[key])
+            checked = _check_field(problems, where, None, fld.metadata["check"], raw)
             if checked is not None:
-                given[key] = checked
+                values[home][key] = checked
     if len(problems) > before:
-        return
-    from auroraplan.chance import DEFAULT_SETTINGS
-
-    for low, high, meaning in SETTING_PAIRS:
-        if low in set_in or high in set_in:
-            values = {k: doc[set_in[k]][k] if k in set_in else DEFAULT_SETTINGS[k]
-                      for k in (low, high)}
-            if values[low] > values[high]:
-                key = high if high in set_in else low
-                problems.add(
-                    f"{label} [{set_in[key]}] {key}: {low} {values[low]:g} is above {high} "
-                    f"{values[high]:g}; {meaning}, give {low} ≤ {high}"
-                )
-
-
-def _weather_checks() -> dict:
-    """Key -> checker of the [weather] table, from weather.WeatherSettings and its limits."""
-    from auroraplan.weather import CLOUDS_UNITS, WEATHER_LIMITS
-
-    def layer_weights(value):
-        if not isinstance(value, list) or len(value) != 3:
-            raise ValueError(f"{_quote(value)} is not three numbers; give [low, medium, high], "
-                             "each 0 to 1")
-        share = _number(0, 1, "(a share)")
-        return tuple(share(v) for v in value)
-
-    checks = {key: _number(*limits) for key, limits in WEATHER_LIMITS.items()}
-    checks["layer_weights"] = layer_weights
-    checks["clouds_unit"] = _choice(CLOUDS_UNITS)
-    return checks
-
-
-def _check_weather_table(doc: dict, label: str, problems: ProblemList) -> None:
-    """Check [weather] in place: known keys (weather.WeatherSettings), types and ranges."""
-    given = doc.get("weather")
-    if not isinstance(given, dict):
-        return
-    checks = _weather_checks()
-    for key in list(given):
-        where = f"{label} [weather] {key}"
-        if key not in checks:
-            problems.add(f"{where}: unknown key; allowed: {', '.join(checks)}")
-            continue
-        checked = _check_field(problems, where, None, checks[key], given[key])
-        if checked is not None:
-            given[key] = checked
+        return None
+    filled = {name: dataclasses.replace(getattr(defaults, name), **values[name])
+              for name in records}
+    for record in filled.values():
+        for low, high, meaning in getattr(record, "ORDERED", ()):
+            if low in set_in or high in set_in:
+                if getattr(record, low) > getattr(record, high):
+                    key = high if high in set_in else low
+                    problems.add(
+                        f"{label} [{set_in[key]}] {key}: {low} {getattr(record, low):g} is "
+                        f"above {high} {getattr(record, high):g}; {meaning}, give {low} ≤ {high}"
+                    )
+    if len(problems) > before:
+        return None
+    return Settings(**filled)
 
 
 def _check_zone_near_base(lat: float, lon: float, zone: str, label: str,
@@ -785,7 +437,8 @@ def _check_zone_near_base(lat: float, lon: float, zone: str, label: str,
         "the time zone of the base")
 
 
-def _load_operator(path: Path, label: str, problems: ProblemList) -> Operator | None:
+def _load_operator(path: Path, label: str, problems: ProblemList):
+    """(Operator, Settings) from operator.toml, or None with the problems added."""
     text = _read_text(path, label, problems)
     if text is None:
         return None
@@ -797,7 +450,7 @@ def _load_operator(path: Path, label: str, problems: ProblemList) -> Operator | 
     except RecursionError:
         problems.add(f"{label}: arrays or tables nested too deeply to read; check the brackets")
         return None
-    known = tuple(OPERATOR_SCHEMA) + STAGE_TABLES
+    known = tuple(OPERATOR_SCHEMA) + tuple(TABLES)
     values = {}
     for table, value in doc.items():
         if table not in known:
@@ -822,21 +475,16 @@ def _load_operator(path: Path, label: str, problems: ProblemList) -> Operator | 
                                    given[key])
             if checked is not None:
                 values[(table, key)] = checked
-    if ("activity", "issued_utc") in values:
-        doc["activity"]["issued_utc"] = values[("activity", "issued_utc")]
-    _check_stage_tables(doc, label, problems)
-    _check_weather_table(doc, label, problems)
+    settings = _read_settings(doc, label, problems)
     if all(("base", k) in values for k in ("lat", "lon", "timezone")):
         _check_zone_near_base(values[("base", "lat")], values[("base", "lon")],
                               values[("base", "timezone")], label, problems)
     if problems:
         return None
-    viewing = {key: values[("viewing", key)] for key in OPERATOR_SCHEMA["viewing"]
-               if ("viewing", key) in values}
     fleet = _fleet_record(values, label, problems)
     if fleet is None:
         return None
-    return Operator(
+    operator = Operator(
         name=values.get(("operator", "name"), values[("base", "name")]),
         base_name=values[("base", "name")],
         base_lat=values[("base", "lat")],
@@ -844,9 +492,8 @@ def _load_operator(path: Path, label: str, problems: ProblemList) -> Operator | 
         timezone=values[("base", "timezone")],
         vehicles=len(fleet.vehicles),
         fleet=fleet,
-        settings=doc,
-        **viewing,
     )
+    return operator, settings
 
 
 # ---------------------------------------------------------------------------------------
@@ -878,7 +525,7 @@ def _json_list(value, problem: str):
 
 def _horizon(value):
     """A horizon polyline [[azimuth°, elevation°], ...] as an (M, 2) array sorted by azimuth."""
-    if _is_missing(value):
+    if checks.is_missing(value):
         return None
     value = _json_list(value, "is not a list of [azimuth, elevation] pairs")
     allowed = "give a list of [azimuth 0-360, elevation -5 to 90] pairs in degrees"
@@ -891,11 +538,11 @@ def _horizon(value):
             or len(point) != 2
             or not all(isinstance(v, int | float) and not isinstance(v, bool) for v in point)
         ):
-            raise ValueError(f"point {i} ({_quote(point)}) is not an [azimuth, elevation] pair; {allowed}")
-        az, el = _as_float(point[0]), _as_float(point[1])
+            raise ValueError(f"point {i} ({checks.quote(point)}) is not an [azimuth, elevation] pair; {allowed}")
+        az, el = checks.as_float(point[0]), checks.as_float(point[1])
         if not (math.isfinite(az) and 0.0 <= az <= 360.0):
             raise ValueError(f"point {i}: azimuth {az:g} is outside 0 to 360 degrees")
-        low, high = HORIZON_EL_RANGE
+        low, high = MASK_ELEVATION_RANGE
         if not (math.isfinite(el) and low <= el <= high):
             raise ValueError(f"point {i}: elevation {el:g} is outside {low} to {high} degrees")
         points.append((az, el))
@@ -904,36 +551,36 @@ def _horizon(value):
 
 
 def _clear_by_month(value):
-    if _is_missing(value):
+    if checks.is_missing(value):
         return None
     value = _json_list(value, "is not a list of 12 fractions")
     if not isinstance(value, list) or len(value) != 12:
         raise ValueError("give 12 fractions 0 to 1, January first")
-    check = _number(0, 1)
+    check = checks.number(0, 1)
     return tuple(check(v) for v in value)
 
 
 def _closed(value):
-    if _is_missing(value):
+    if checks.is_missing(value):
         return False
     if isinstance(value, bool) or value in (0, 1):
         return bool(value)
-    raise ValueError(f"{_quote(value)} is not true or false")
+    raise ValueError(f"{checks.quote(value)} is not true or false")
 
 
 def _notes(value):
-    if _is_missing(value):
+    if checks.is_missing(value):
         return ""
     if not isinstance(value, str):
         raise ValueError("must be text")
-    return _printable(value.replace("\r\n", "\n").replace("\r", "\n"), _CONTROL_IN_NOTES_RE)
+    return checks.printable(value.replace("\r\n", "\n").replace("\r", "\n"), checks.CONTROL_IN_NOTES_RE)
 
 
 SITE_PROPERTIES = {
     # property: checker; name and coordinates are checked separately
-    "drive_min": _number(*SITE_LIMITS["drive_min"]),
-    "capacity": _whole(*SITE_LIMITS["capacity"]),
-    "sky_mag": _number(*SITE_LIMITS["sky_mag"]),
+    "drive_min": checks.number(*SITE_LIMITS["drive_min"]),
+    "capacity": checks.whole(*SITE_LIMITS["capacity"]),
+    "sky_mag": checks.number(*SITE_LIMITS["sky_mag"]),
     "horizon": _horizon,
     "clear_by_month": _clear_by_month,
     "closed": _closed,
@@ -1012,28 +659,28 @@ def _site_from_feature(i, feature, label, problems: ProblemList) -> Site | None:
         problems.add(f"{label} feature {i}: not a Feature with properties")
         return None
     name = props.get("name")
-    where = f"{label} feature {i}" + (f" {_quote(name)}" if isinstance(name, str) else "")
+    where = f"{label} feature {i}" + (f" {checks.quote(name)}" if isinstance(name, str) else "")
     before = len(problems)
-    name = _check_field(problems, where, "name", _text, name)
+    name = _check_field(problems, where, "name", checks.text, name)
     coords = _check_field(problems, where, "geometry", _point, feature.get("geometry"))
     lon = lat = None
     height = 0.0
     if coords is not None:
-        lon = _check_field(problems, where, "longitude", _number(-180, 180, "degrees"), coords[0])
-        lat = _check_field(problems, where, "latitude", _number(-90, 90, "degrees"), coords[1])
+        lon = _check_field(problems, where, "longitude", checks.number(-180, 180, "degrees"), coords[0])
+        lat = _check_field(problems, where, "latitude", checks.number(-90, 90, "degrees"), coords[1])
         if len(coords) == 3:
             height = _check_field(problems, where, "height_m",
-                                  _number(*SITE_LIMITS["height_m"]), coords[2])
+                                  checks.number(*SITE_LIMITS["height_m"]), coords[2])
     values = {}
     for key, checker in SITE_PROPERTIES.items():
         raw = props.get(key)
-        if _is_missing(raw) and key in SITE_DEFAULTS:
+        if checks.is_missing(raw) and key in SITE_DEFAULTS:
             values[key] = SITE_DEFAULTS[key]
             continue
-        if _is_missing(raw) and key == "drive_min":
+        if checks.is_missing(raw) and key == "drive_min":
             values[key] = math.nan  # estimated from the distance once the base is known
             continue
-        if _is_missing(raw) and key == "capacity":
+        if checks.is_missing(raw) and key == "capacity":
             problems.add(f"{where}, capacity: missing; give how many guests the site holds "
                          f"at once (a whole number, 1 to {SITE_LIMITS['capacity'][1]})")
             continue
@@ -1055,7 +702,7 @@ def _sites_near_base(operator, sites, label, problems: ProblemList, warnings: li
                                   np.clip(lon, -90, 90), lat)
     out = []
     for i, site in enumerate(sites):
-        where = f"{label} feature {i + 1} {_quote(site.name)}"
+        where = f"{label} feature {i + 1} {checks.quote(site.name)}"
         if km[i] > MAX_SITE_KM:
             hint = (" latitude and longitude look swapped: GeoJSON gives [longitude, latitude]"
                     if abs(site.lon) <= 90 and swapped_km[i] <= MAX_SITE_KM else
@@ -1106,24 +753,24 @@ def _load_sites(path: Path, label: str, problems: ProblemList) -> list[Site] | N
 
 def _blocked(text):
     parts = [p.strip() for p in str(text).split(";") if p.strip()]
-    return tuple(_date(p) for p in parts)
+    return tuple(checks.date(p) for p in parts)
 
 
 def _trip_from_row(line, row, label, largest, problems: ProblemList) -> Trip | None:
     where = f"{label} line {line}"
     before = len(problems)
-    trip = _check_field(problems, where, "trip", _text, row["trip"])
-    group = _check_field(problems, where, "group", _text, row["group"])
+    trip = _check_field(problems, where, "trip", checks.text, row["trip"])
+    group = _check_field(problems, where, "group", checks.text, row["group"])
     high = largest[0] if largest else 1000
-    guests = _check_field(problems, where, "guests", _csv_whole(1, 1000, "guests"), row["guests"])
+    guests = _check_field(problems, where, "guests", checks.cell_whole(1, 1000, "guests"), row["guests"])
     if guests is not None and largest and guests > largest[0]:
         problems.add(
             f"{where}, guests: {guests} is more than any site holds (largest: {high} at "
             f"{largest[1]}); split the group into smaller trips"
         )
-    arrive = _check_field(problems, where, "arrive", _trip_date, row["arrive"])
-    depart = _check_field(problems, where, "depart", _trip_date, row["depart"])
-    outings = _check_field(problems, where, "outings", _csv_whole(1, 60, "outings"), row["outings"])
+    arrive = _check_field(problems, where, "arrive", _TRIP_DATE, row["arrive"])
+    depart = _check_field(problems, where, "depart", _TRIP_DATE, row["depart"])
+    outings = _check_field(problems, where, "outings", checks.cell_whole(1, 60, "outings"), row["outings"])
     blocked = _check_field(problems, where, "blocked", _blocked, row.get("blocked", ""))
     if arrive and depart and depart <= arrive:
         problems.add(f"{where}, depart: {depart} is not after arrive {arrive}; give a later date")
@@ -1185,14 +832,14 @@ def _load_trips(path, label, sites, problems: ProblemList, warnings: list) -> li
 def _kp_sd(text):
     if not str(text).strip():
         return math.nan
-    return _csv_number(*KP_SD_RANGE, "Kp")(text)
+    return checks.cell_number(*KP_SD_RANGE, "Kp")(text)
 
 
 def _block_start(text):
-    start = _file_time(text)
+    start = checks.file_time(text)
     if start.minute or start.second or start.microsecond or start.hour % BLOCK_HOURS:
         raise ValueError(
-            f"{_quote(str(text).strip())} is not the start of a 3-hour Kp block; "
+            f"{checks.quote(str(text).strip())} is not the start of a 3-hour Kp block; "
             "give 00, 03, 06, ... 21 h UTC"
         )
     return start
@@ -1264,7 +911,7 @@ CLOUD_UNITS = {"%": "percent", "percent": "percent", "pct": "percent", "fraction
 def _cloud_unit(text):
     word = str(text).strip().lower()
     if word not in CLOUD_UNITS:
-        raise ValueError(f"{_quote(str(text).strip())} is not known; give percent (or %) or "
+        raise ValueError(f"{checks.quote(str(text).strip())} is not known; give percent (or %) or "
                          "fraction")
     return CLOUD_UNITS[word]
 
@@ -1272,9 +919,9 @@ def _cloud_unit(text):
 def _cloud_value(unit):
     """Checker of one cloud cell in ``unit``: returns percent."""
     if unit == "fraction":
-        fraction = _csv_number(0, 1, "(a fraction)")
+        fraction = checks.cell_number(0, 1, "(a fraction)")
         return lambda text: 100.0 * fraction(text)
-    return _csv_number(0, 100, "%")
+    return checks.cell_number(0, 100, "%")
 
 
 def _load_clouds(path, label, site_names, problems: ProblemList, default_unit="percent"):
@@ -1295,8 +942,8 @@ def _load_clouds(path, label, site_names, problems: ProblemList, default_unit="p
     for line, row in _read_csv_rows(text, label, "clouds", problems):
         where = f"{label} line {line}"
         before = len(problems)
-        name = _check_field(problems, where, "site", _text, row["site"])
-        when = _check_field(problems, where, "time_utc", _file_time, row["time_utc"])
+        name = _check_field(problems, where, "site", checks.text, row["site"])
+        when = _check_field(problems, where, "time_utc", checks.file_time, row["time_utc"])
         unit = default_unit
         if str(row.get("unit", "")).strip():
             unit = _check_field(problems, where, "unit", _cloud_unit, row["unit"])
@@ -1324,7 +971,7 @@ def _load_clouds(path, label, site_names, problems: ProblemList, default_unit="p
         listed = sorted(site_names)
         shown = ", ".join(listed[:12]) + (", ..." if len(listed) > 12 else "")
         problems.add(
-            f"{label} line {first}, site: {_quote(name)} is not a site in {FILE_NAMES['sites']} "
+            f"{label} line {first}, site: {checks.quote(name)} is not a site in {FILE_NAMES['sites']} "
             f"({count} row{'s' if count > 1 else ''}); known sites: {shown}"
         )
     if clouds and not unit_said and 0.0 < largest <= 1.0 and not problems:
@@ -1397,9 +1044,8 @@ def load_workspace(path) -> Workspace:
     Returns
     -------
     Workspace
-        ``operator.settings`` is the whole operator.toml as a dict (later stages read their
-        own tables, e.g. ["activity"], ["chance"]); the checked values stand in it in
-        their normal form (``issued_utc`` an aware UTC datetime, outing hours "HH:MM"). ``activity`` and ``clouds`` are pandas
+        ``settings`` holds every stage's settings record (auroraplan.settings.Settings)
+        filled from operator.toml, defaults where a key is not written. ``activity`` and ``clouds`` are pandas
         DataFrames with aware UTC times; a missing optional file gives an empty frame and a
         line in ``warnings``.
 
@@ -1415,9 +1061,8 @@ def load_workspace(path) -> Workspace:
     -----
     Times in the files are ISO 8601; "Z" or an offset is honoured and a time without a
     zone is taken as UTC; they must fall in the years FILE_YEARS. Trip dates lie within
-    TRIP_DATES and a stay lasts at most MAX_STAY_NIGHTS. The [chance] and [planner] tables
-    hold only the keys of chance.DEFAULT_SETTINGS (and drive_cost_per_min in [planner]),
-    each once, within the ranges of CHANCE_CHECKS and PLANNER_CHECKS. Text fields may not
+    TRIP_DATES and a stay lasts at most MAX_STAY_NIGHTS. Each key of the stage tables is
+    checked by its settings field's checker (auroraplan.checks), each key once. Text fields may not
     hold control characters or lone surrogates, which could not be written as UTF-8.
     Dates in trips.csv are local calendar dates; ``blocked`` dates outside the stay are
     errors (a typo there would leave the intended night unblocked).
@@ -1438,7 +1083,7 @@ def load_workspace(path) -> Workspace:
             lines.extend(exc.problems)
         return result
 
-    operator = step("operator", _load_operator)
+    operator, settings = step("operator", _load_operator) or (None, None)
     sites = step("sites", _load_sites)
     if operator is not None and sites is not None:
         sites = step("sites", lambda p, label, probs: _sites_near_base(
@@ -1452,8 +1097,7 @@ def load_workspace(path) -> Workspace:
         warnings.append(f"{folder / FILE_NAMES['activity']}: not found; no Kp forecast, "
                         "chances come from climatology")
     if "clouds" in found:
-        unit = ((operator.settings.get("weather") or {}).get("clouds_unit", "percent")
-                if operator is not None else "percent")
+        unit = settings.weather.clouds_unit if settings is not None else "percent"
         clouds = step("clouds", lambda p, label, probs: _load_clouds(p, label, site_names,
                                                                      probs, unit))
     else:
@@ -1474,6 +1118,7 @@ def load_workspace(path) -> Workspace:
         clouds=_clouds_frame(*clouds) if clouds is not None else _empty_clouds(),
         files=dict(found),
         warnings=warnings,
+        settings=settings,
     )
 
 
@@ -1524,9 +1169,9 @@ def _measured(text) -> float:
     try:
         value = float(raw)
     except ValueError:
-        raise ValueError(f"{_quote(raw)} is not a number; leave the cell empty for a gap") from None
+        raise ValueError(f"{checks.quote(raw)} is not a number; leave the cell empty for a gap") from None
     if math.isinf(value):
-        raise ValueError(f"{_quote(raw)} is not a finite number; leave the cell empty for a gap")
+        raise ValueError(f"{checks.quote(raw)} is not a finite number; leave the cell empty for a gap")
     return value
 
 
@@ -1567,7 +1212,7 @@ def load_solarwind(path) -> SolarWindFile:
     for line, row in rows:
         where = f"{label} line {line}"
         before = len(problems)
-        when = _check_field(problems, where, "time_utc", _file_time, row["time_utc"])
+        when = _check_field(problems, where, "time_utc", checks.file_time, row["time_utc"])
         cells = {name: _check_field(problems, where, name, _measured, row.get(name, ""))
                  for name in names}
         if len(problems) > before:

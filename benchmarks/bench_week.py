@@ -34,13 +34,13 @@ def _stages(folder: Path) -> dict:
     from auroraplan.workspace import load_workspace
 
     climatology._load_history_cached.cache_clear()
-    climatology.default_climatology.cache_clear()
+    climatology.bundled_climatology.cache_clear()
     times = {}
     start = time.perf_counter()
     ws = load_workspace(folder)
     times["read workspace"] = time.perf_counter() - start
     start = time.perf_counter()
-    clim = report.default_climatology()
+    clim = report.bundled_climatology()
     times["Kp climatology"] = time.perf_counter() - start
     start = time.perf_counter()
     result = report.week_report(ws, FIRST, NIGHTS, climatology=clim)

@@ -1,5 +1,6 @@
 """Reading a Kp forecast and turning it into the chance that Kp reaches what a site needs."""
 
+import datetime as dt
 import warnings
 
 import numpy as np
@@ -8,7 +9,7 @@ import pytest
 from scipy.stats import truncnorm
 
 from auroraplan.activity import (
-    ForecastSpread,
+    ActivitySettings,
     forecast_at,
     forecast_p_kp_at_least,
     kp_spread,
@@ -127,12 +128,10 @@ def test_spread_grows_with_lead_time_from_the_first_block():
 
 def test_spread_counts_from_the_issue_time_in_the_settings():
     forecast = blocks(["2027-01-12T18:00Z"], [6.0])
-    table = {"issued_utc": "2027-01-11T18:00Z", "sd0": 0.3, "rate_per_day": 0.5, "sd_max": 2.0}
-    _, sd, _ = forecast_at(forecast, utc("2027-01-12T19:00"), table)
+    issued = dt.datetime(2027, 1, 11, 18, tzinfo=dt.UTC)
+    settings = ActivitySettings(issued_utc=issued, sd0=0.3, rate_per_day=0.5, sd_max=2.0)
+    _, sd, _ = forecast_at(forecast, utc("2027-01-12T19:00"), settings)
     assert sd[0] == pytest.approx(0.3 + 0.5 * 1.0)
-    # the whole operator.toml works as well as its [activity] table
-    _, sd_whole, _ = forecast_at(forecast, utc("2027-01-12T19:00"), {"activity": table})
-    assert sd_whole[0] == pytest.approx(sd[0])
 
 
 def test_an_explicit_kp_sd_wins_over_the_rule():
@@ -142,7 +141,7 @@ def test_an_explicit_kp_sd_wins_over_the_rule():
 
 
 def test_kp_spread_is_capped_and_never_below_sd0():
-    spread = ForecastSpread(sd0=0.5, rate_per_day=0.4, sd_max=2.0)
+    spread = ActivitySettings(sd0=0.5, rate_per_day=0.4, sd_max=2.0)
     np.testing.assert_allclose(kp_spread([-1.0, 0.0, 1.0, 3.75, 10.0], spread),
                                [0.5, 0.5, 0.9, 2.0, 2.0])
 
@@ -152,7 +151,7 @@ def test_demo_forecast_storm_block_and_spread(demo_dir):
 
     ws = load_workspace(demo_dir)
     kp, sd, covered = forecast_at(ws.activity, utc("2027-01-12T22:30", "2027-01-13T07:00"),
-                                  ws.operator.settings)
+                                  ws.settings.activity)
     assert covered.all()
     np.testing.assert_allclose(kp, [20 / 3, 5.0])  # "7-" and "5"
     # explicit 1.2 on the 21Z block; rule at 2 days 6 h after the 11 Jan 00Z issue

@@ -165,13 +165,14 @@ def test_arrival_command_with_a_workspace_lists_dark_hours(monkeypatch, capsys):
     import auroraplan.sky
     import auroraplan.workspace
     from auroraplan.cli import main
+    from auroraplan.settings import Settings
 
     operator = types.SimpleNamespace(
         base_name="Base", base_lat=69.6, base_lon=18.9, timezone="Europe/Oslo",
-        darkness="nautical",
     )
     monkeypatch.setattr(
-        auroraplan.workspace, "load_workspace", lambda path: types.SimpleNamespace(operator=operator)
+        auroraplan.workspace, "load_workspace",
+        lambda path: types.SimpleNamespace(operator=operator, settings=Settings()),
     )
     asked = {}
 

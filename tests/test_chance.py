@@ -92,8 +92,8 @@ def test_clear_night_chance_is_at_least_the_best_hour(values):
 def test_display_probability_rises_with_activity():
     quiet = chance.display_probability(1.0, 0.0)
     active = chance.display_probability(1.0, 1.0)
-    assert quiet == chance.DEFAULT_SETTINGS["display_quiet"]
-    assert active == chance.DEFAULT_SETTINGS["display_active"]
+    assert quiet == chance.ChanceSettings().display_quiet == 0.3
+    assert active == chance.ChanceSettings().display_active == 0.8
     assert chance.display_probability(0.0, 0.0) == 0.0
 
 

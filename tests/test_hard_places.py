@@ -142,7 +142,8 @@ def southern_ws():
 def southern_table(southern_ws):
     from auroraplan import chance
 
-    return chance.kp_table(southern_ws, southern_ws.sites, np.datetime64("2027-06-08T12:00"))
+    return chance.kp_table(southern_ws.sites, np.datetime64("2027-06-08T12:00"),
+                           southern_ws.settings.viewing)
 
 
 def test_southern_sites_have_southern_magnetic_latitudes(southern_ws, southern_table):
@@ -365,7 +366,8 @@ def test_date_line_sites_agree(date_line_ws):
     # must be nearly equal. Longitudes of AACGM are compared on the circle.
     from auroraplan import chance
 
-    table = chance.kp_table(date_line_ws, date_line_ws.sites, np.datetime64("2027-01-12T12:00"))
+    table = chance.kp_table(date_line_ws.sites, np.datetime64("2027-01-12T12:00"),
+                            date_line_ws.settings.viewing)
     assert table.mlat[0] == pytest.approx(table.mlat[1], abs=0.05)
     assert abs((table.mlon[0] - table.mlon[1] + 180.0) % 360.0 - 180.0) < 0.3
     assert table.mlat[0] == pytest.approx(igrf_dip_latitude(65.5, 179.9, dt.datetime(2027, 1, 12)),

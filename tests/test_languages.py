@@ -1,8 +1,8 @@
 """Guests' and guides' words in English and German: catalogues, Babel formats, printed text."""
 
+import dataclasses
 import datetime as dt
 import io
-import json
 import re
 import shutil
 from pathlib import Path
@@ -58,7 +58,7 @@ def demo_de(tmp_path_factory):
     toml.write_text(toml.read_text(encoding="utf-8").replace('language = "en"', 'language = "de"'),
                     encoding="utf-8")
     ws = load_workspace(folder)
-    assert runsheet.language(ws.operator.settings) == "de"
+    assert runsheet.language(ws.settings) == "de"
     return ws, report.bookings_report(ws)
 
 
@@ -76,10 +76,10 @@ def test_every_text_of_the_german_outputs_has_a_translation(demo_de, monkeypatch
     monkeypatch.setattr(Words, "__call__", record)
     tonight = report.tonight_report(ws, dt.date(2027, 1, 12))
     for trip in ("T01", "T02", "T03"):
-        sheet = runsheet.run_sheet(tonight, plan, trip, ws.operator.settings)
+        sheet = runsheet.run_sheet(tonight, plan, trip, ws.settings)
         run_sheet_html(sheet, tonight, "de")
     phone_page_html(tonight, "de")
-    itinerary_pdf(plan, "T01", operator_settings=ws.operator.settings)
+    itinerary_pdf(plan, "T01", operator_settings=ws.settings)
     plan_ics(plan, "de")
     missing = sorted(t for t in asked if not Words("de").has(t))
     assert len(asked) > 60
@@ -88,7 +88,7 @@ def test_every_text_of_the_german_outputs_has_a_translation(demo_de, monkeypatch
 
 def test_german_itinerary_prints_its_letters_and_the_operator_entries(demo_de):
     ws, plan = demo_de
-    pdf = itinerary_pdf(plan, "T01", operator_settings=ws.operator.settings)
+    pdf = itinerary_pdf(plan, "T01", operator_settings=ws.settings)
     text = _flat(" ".join(p.extract_text() for p in PdfReader(io.BytesIO(pdf)).pages))
     assert "Polarlicht-Abende für Riverbend camera club" in text
     assert "Treffpunkt: Harbour office, front steps · Kaiveien 3, Tromsø" in text
@@ -107,9 +107,10 @@ def test_german_itinerary_prints_its_letters_and_the_operator_entries(demo_de):
 
 def test_missing_contact_entries_are_left_out(demo_de):
     ws, plan = demo_de
-    settings = json.loads(json.dumps(ws.operator.settings, default=str))
-    settings["contact"] = {"phone": "+47 1"}
-    settings["print"] = {"language": "en"}
+    from auroraplan.runsheet import ContactSettings, PrintSettings
+
+    settings = dataclasses.replace(ws.settings, contact=ContactSettings(phone="+47 1"),
+                                   print=PrintSettings(language="en"))
     pdf = itinerary_pdf(plan, "T01", operator_settings=settings)
     text = _flat(" ".join(p.extract_text() for p in PdfReader(io.BytesIO(pdf)).pages))
     assert "Operator phone: +47 1" in text

@@ -83,7 +83,7 @@ def test_contrast_formula_matches_wcag():
 def sheet_page(tmp_path_factory):
     ws = load_workspace(DEMO)
     tonight = report.tonight_report(ws, NIGHT)
-    sheet = runsheet.run_sheet(tonight, report.bookings_report(ws), "T01", ws.operator.settings)
+    sheet = runsheet.run_sheet(tonight, report.bookings_report(ws), "T01", ws.settings)
     path = tmp_path_factory.mktemp("sheet") / "run-sheet-T01.html"
     path.write_text(run_sheet_html(sheet, tonight), encoding="utf-8")
     return path, sheet, tonight

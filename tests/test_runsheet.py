@@ -94,7 +94,7 @@ def demo():
 
 def test_run_sheet_is_the_planned_outing_of_the_group(demo):
     ws, tonight, plan = demo
-    sheet = runsheet.run_sheet(tonight, plan, "T01", ws.operator.settings)
+    sheet = runsheet.run_sheet(tonight, plan, "T01", ws.settings)
     outing = next(p for p in plan["plan"] if p["trip"] == "T01" and p["date"] == tonight["date"])
     assert sheet["site_name"] == outing["site"] and sheet["pickup"] == outing["pickup"]
     assert sheet["backup_name"] == outing["backup"]
@@ -111,10 +111,10 @@ def test_group_without_outing_says_why(demo):
     # T01 has 2027-01-10 blocked in trips.csv; T04 arrives 2027-01-12 but is not staying
     # on 2027-01-15.
     blocked = dict(tonight, date="2027-01-10")
-    sheet = runsheet.run_sheet(blocked, plan, "T01", ws.operator.settings)
+    sheet = runsheet.run_sheet(blocked, plan, "T01", ws.settings)
     assert sheet["decision"] is None and sheet["no_outing"] == "blocked"
     gone = dict(tonight, date="2027-01-16")
-    assert runsheet.run_sheet(gone, plan, "T04", {})["no_outing"] == "not staying"
+    assert runsheet.run_sheet(gone, plan, "T04", None)["no_outing"] == "not staying"
     page = run_sheet_html(sheet, blocked)
     assert "No outing tonight" in page and "not available" in page
 
@@ -122,14 +122,14 @@ def test_group_without_outing_says_why(demo):
 def test_unknown_trip_names_the_known_ones(demo):
     ws, tonight, plan = demo
     with pytest.raises(InputError, match="'T99' is not in this plan; known trips: T01, T02, T03, T04"):
-        runsheet.run_sheet(tonight, plan, "T99", {})
+        runsheet.run_sheet(tonight, plan, "T99", None)
 
 
 def test_run_sheet_escapes_group_names(demo):
     ws, tonight, plan = demo
     nasty = copy.deepcopy(plan)
     nasty["trips"][0]["group"] = "<b>Club</b> & co"
-    page = run_sheet_html(runsheet.run_sheet(tonight, nasty, "T01", {}), tonight)
+    page = run_sheet_html(runsheet.run_sheet(tonight, nasty, "T01", None), tonight)
     assert "<b>Club" not in page and "&lt;b&gt;Club&lt;/b&gt; &amp; co" in page
 
 
@@ -170,3 +170,9 @@ def test_tonight_at_60_columns_from_the_command_line():
     ws = load_workspace(DEMO)
     for site in (s for s in ws.sites if not s.closed):
         assert re.search(rf"{re.escape(site.name)}\s+\d+%", done.stdout), site.name
+
+
+def test_the_print_languages_are_the_ones_with_a_catalogue():
+    from auroraplan import i18n
+
+    assert runsheet.PRINT_LANGUAGES == tuple(i18n.LANGUAGES)

@@ -10,7 +10,7 @@ import numpy as np
 import pytest
 from ephem_reference import pyephem_dark_window
 
-from auroraplan import sky
+from auroraplan import nights, sky
 
 # High-latitude places where tours run: (name, lat, lon, height m, IANA zone).
 PLACES = [
@@ -190,7 +190,7 @@ def test_nights_run_local_noon_to_noon_across_clock_changes():
         (dt.date(2027, 3, 27), 23),
         (dt.date(2027, 1, 5), 24),
     ):
-        times, index = sky.night_times(first, 1, "Europe/Oslo", step_min=10)
+        times, index = nights.night_times(first, 1, "Europe/Oslo", step_min=10)
         assert times.size == hours * 6
         assert set(index) == {0}
         start = times[0].astype(dt.datetime).replace(tzinfo=dt.UTC).astimezone(tz)
@@ -198,7 +198,7 @@ def test_nights_run_local_noon_to_noon_across_clock_changes():
 
 
 def test_night_index_counts_nights():
-    times, index = sky.night_times(dt.date(2027, 1, 1), 3, "America/Anchorage", step_min=30)
+    times, index = nights.night_times(dt.date(2027, 1, 1), 3, "America/Anchorage", step_min=30)
     assert times.size == 3 * 48
     assert list(np.bincount(index)) == [48, 48, 48]
     assert np.all(np.diff(times) == np.timedelta64(30 * 60, "s"))

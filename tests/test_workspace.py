@@ -90,8 +90,8 @@ def test_demo_loads_with_expected_counts_and_types(demo):
     assert demo.operator.name == "Polar Lantern Excursions"
     assert demo.operator.timezone == "Europe/Oslo"
     assert demo.operator.vehicles == 2
-    assert demo.operator.darkness == "nautical"
-    assert demo.operator.oval_model == "starkov1994"
+    assert demo.settings.viewing.darkness == "nautical"
+    assert demo.settings.viewing.oval_model == "starkov1994"
     assert len(demo.sites) == 14
     assert len({s.name for s in demo.sites}) == 14
     assert sum(s.closed for s in demo.sites) == 1
@@ -226,7 +226,25 @@ def test_unknown_darkness_lists_the_levels(workspace_copy):
 
 def test_unknown_oval_model_lists_the_models(workspace_copy):
     edit_toml(workspace_copy, 'oval_model = "starkov1994"', 'oval_model = "feldstein"')
-    one_problem(workspace_copy, "[viewing] oval_model", "starkov1994, gussenhoven1983")
+    one_problem(workspace_copy, "[viewing] oval_model", "starkov1994, starkov1994-published")
+
+
+def test_a_model_without_discrete_edges_is_refused_listing_the_ones_that_work(workspace_copy):
+    # Gussenhoven et al. (1983) fit only the diffuse boundary: no band to look at.
+    edit_toml(workspace_copy, 'oval_model = "starkov1994"', 'oval_model = "gussenhoven1983"')
+    line = one_problem(workspace_copy, "[viewing] oval_model", "'gussenhoven1983'")
+    assert line.endswith("allowed: starkov1994, starkov1994-published")
+
+
+@pytest.mark.parametrize("model", ["starkov1994-published"])
+def test_every_model_the_loader_accepts_gives_a_view(workspace_copy, model):
+    from auroraplan import oval, report
+
+    assert set(oval.VIEWING_MODELS) == {"starkov1994", "starkov1994-published"}
+    edit_toml(workspace_copy, 'oval_model = "starkov1994"', f'oval_model = "{model}"')
+    ws = load_workspace(workspace_copy)
+    sheet = report.tonight_report(ws, dt.date(2027, 1, 12), top=2)
+    assert sheet["sites"] and all(0.0 <= s["chance"] <= 1.0 for s in sheet["sites"])
 
 
 def test_misspelt_key_is_reported_not_ignored(workspace_copy):
@@ -488,8 +506,8 @@ def test_tables_of_later_stages_are_kept_in_settings(workspace_copy):
                     + "\n[chance]\nmoon_beta = 0.5\n[planner]\ndrive_cost_per_min = 0.001\n",
                     encoding="utf-8")
     ws = load_workspace(workspace_copy)
-    assert ws.operator.settings["planner"]["drive_cost_per_min"] == 0.001
-    assert ws.operator.settings["chance"]["moon_beta"] == 0.5
+    assert ws.settings.planner.drive_cost_per_min == 0.001
+    assert ws.settings.chance.moon_beta == 0.5
 
 
 # One edit to one CSV cell, one problem naming file, line and field (and what is allowed).

@@ -5,8 +5,6 @@ import datetime as dt
 import json
 import sys
 
-DARKNESS_LEVELS = ("civil", "nautical", "astronomical")
-
 FIRST_DATE = dt.date(1900, 1, 1)
 LAST_DATE = dt.date(2052, 12, 31)
 """Dates the commands can compute: auroraplan.sky.FIRST_NIGHT to LAST_NIGHT, the span of the
@@ -60,21 +58,13 @@ def iso_date(text: str) -> dt.date:
 
 
 def utc_time(text: str) -> dt.datetime:
-    """An ISO 8601 time; without a zone it is taken as UTC."""
+    """An ISO 8601 time read by auroraplan.checks.parse_utc; without a zone it is UTC."""
+    from auroraplan.checks import parse_utc
+
     try:
-        value = dt.datetime.fromisoformat(text.replace("Z", "+00:00").replace("z", "+00:00"))
-    except ValueError:
-        raise argparse.ArgumentTypeError(
-            f"{quoted(text)} is not an ISO 8601 time; give for example 2027-01-10T12:00Z"
-        ) from None
-    if value.tzinfo is None:
-        value = value.replace(tzinfo=dt.UTC)
-    try:
-        return value.astimezone(dt.UTC)
-    except OverflowError:  # 0001-01-01T00:00+01:00 or 9999-12-31T23:59-01:00
-        raise argparse.ArgumentTypeError(
-            f"{quoted(text)} lies outside the calendar in UTC; give for example 2027-01-10T12:00Z"
-        ) from None
+        return parse_utc(text)
+    except ValueError as exc:
+        raise argparse.ArgumentTypeError(str(exc)) from None
 
 
 def int_range(low: int, high: int):

@@ -69,25 +69,23 @@ def run(args) -> int:
 def _base(folder) -> dict:
     from auroraplan.workspace import load_workspace
 
-    operator = load_workspace(folder).operator
+    ws = load_workspace(folder)
+    operator = ws.operator
     return {
         "name": operator.base_name,
         "lat": operator.base_lat,
         "lon": operator.base_lon,
         "timezone": operator.timezone,
-        "darkness": operator.darkness,
+        "darkness": ws.settings.viewing.darkness,
     }
 
 
 def _darkness(base, window):
-    import datetime as dt
-    import zoneinfo
-
+    from auroraplan.nights import night_of
     from auroraplan.sky import darkness_windows
 
-    zone = zoneinfo.ZoneInfo(base["timezone"])
-    first = (window["earliest"].astimezone(zone) - dt.timedelta(hours=12)).date()
-    last = (window["latest"].astimezone(zone) - dt.timedelta(hours=12)).date()
+    first = night_of(window["earliest"], base["timezone"])
+    last = night_of(window["latest"], base["timezone"])
     return darkness_windows(
         base["lat"], base["lon"], first, (last - first).days + 1, base["timezone"],
         level=base["darkness"],

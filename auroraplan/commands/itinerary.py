@@ -106,5 +106,5 @@ def _render_all(ws, trips, paper, args):
     pdfs = {}
     for trip in trips:
         pdfs[trip.trip] = itinerary_pdf(report, trip.trip, paper=paper,
-                                       operator_settings=ws.operator.settings)
+                                       operator_settings=ws.settings)
     return pdfs

@@ -3,19 +3,16 @@
 
 from auroraplan.commands._common import console, number_range, print_json
 
-# Model names, repeated here so that --help stays light (auroraplan.oval needs only numpy,
-# but the command module keeps its imports to the standard library).
-MODEL_NAMES = ("starkov1994", "starkov1994-published", "gussenhoven1983")
-
-
 kp_value = number_range(0.0, 9.0, "a Kp")
 
 
 def add_arguments(parser):
+    from auroraplan import oval  # numpy only
+
     parser.add_argument("--kp", type=kp_value, required=True,
                         help="planetary K index, 0 to 9 (decimals allowed, e.g. 4.33)")
     parser.add_argument("--model", default="starkov1994",
-                        help=f"oval model: {', '.join(MODEL_NAMES)} (default starkov1994, "
+                        help=f"oval model: {', '.join(oval.MODELS)} (default {oval.DEFAULT_MODEL}, "
                         "which keeps moving equatorward above Kp 6)")
     parser.add_argument("--json", action="store_true", help="print the result as JSON")
     parser.add_argument("--png", metavar="FILE", help="also draw the oval around the magnetic pole")

@@ -129,7 +129,7 @@ class OutputSet:
                      "ranked nights and sites per trip and the excursion plan")
             self.add("week.csv", week_csv(week), "Week plan (CSV)",
                      "one row per trip, night and ranked site")
-            self.add("excursions.ics", plan_ics(week, language(ws.operator.settings)),
+            self.add("excursions.ics", plan_ics(week, language(ws.settings)),
                      "Calendar of the planned outings", "iCalendar file for the office calendar")
 
         def pages():
@@ -144,7 +144,7 @@ class OutputSet:
                          f"Guide's phone page for the night of {date}",
                          "every site ranked; works offline once saved on the phone")
                 for outing in (p for p in week["plan"] if p["date"] == date.isoformat()):
-                    sheet = runsheet.run_sheet(night, week, outing["trip"], ws.operator.settings)
+                    sheet = runsheet.run_sheet(night, week, outing["trip"], ws.settings)
                     self.add(run_sheet_file_name(outing["trip"], outing["date"]),
                              page_for(ws, night, sheet),
                              f"Run sheet {outing['date']} {outing['trip']}: {outing['group']}",
@@ -157,7 +157,7 @@ class OutputSet:
             week = self.state["week"]
             for trip in (t for t in week["trips"] if t["nights"]):
                 self.add(itinerary_file_name(trip["trip"]),
-                         itinerary_pdf(week, trip["trip"], operator_settings=ws.operator.settings),
+                         itinerary_pdf(week, trip["trip"], operator_settings=ws.settings),
                          f"Itinerary {trip['trip']}: {trip['group']}",
                          f"{trip['guests']} guests, {trip['arrive']} to {trip['depart']}")
 

@@ -39,8 +39,9 @@ def sites_report(ws, date=None) -> dict:
     sites = ws.sites
     table = view.kp_needed_table(
         [s.lat for s in sites], [s.lon for s in sites], [s.height_m for s in sites],
-        [s.horizon for s in sites], min_elevation_deg=op.min_elevation_deg,
-        emission_height_km=op.emission_height_km, model=op.oval_model, when=evening,
+        [s.horizon for s in sites], min_elevation_deg=ws.settings.viewing.min_elevation_deg,
+        emission_height_km=ws.settings.viewing.emission_height_km,
+        model=ws.settings.viewing.oval_model, when=evening,
         names=[s.name for s in sites],
     )
     best_mlt, best_kp = view.best_night_mlt(table)
@@ -76,8 +77,8 @@ def sites_report(ws, date=None) -> dict:
         "workspace": str(ws.path),
         "date": date.isoformat(),
         "model": table.model,
-        "min_elevation_deg": op.min_elevation_deg,
-        "emission_height_km": op.emission_height_km,
+        "min_elevation_deg": ws.settings.viewing.min_elevation_deg,
+        "emission_height_km": ws.settings.viewing.emission_height_km,
         "note": "Kp needed at magnetic midnight (MLT 0); null = not reached by Kp 9. "
         "best_mlt is the night-side magnetic local time needing the least Kp. "
         "kp_lost_horizon: the Kp at which a storm has carried the band out of view again "

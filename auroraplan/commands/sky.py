@@ -3,7 +3,6 @@
 import sys
 
 from auroraplan.commands._common import (
-    DARKNESS_LEVELS,
     console,
     int_range,
     iso_date,
@@ -17,6 +16,8 @@ MAX_NIGHTS = 366
 
 
 def add_arguments(parser):
+    from auroraplan.sky import DARKNESS_DEG
+
     parser.add_argument("--lat", type=latitude, required=True, help="latitude, degrees north")
     parser.add_argument("--lon", type=longitude, required=True, help="longitude, degrees east")
     parser.add_argument(
@@ -30,10 +31,11 @@ def add_arguments(parser):
     )
     parser.add_argument(
         "--darkness",
-        choices=DARKNESS_LEVELS,
+        choices=tuple(DARKNESS_DEG),
         default="nautical",
-        help="how far below the horizon the sun must be: civil -6°, nautical -12°, "
-        "astronomical -18° (default nautical)",
+        help="how far below the horizon the sun must be: "
+        + ", ".join(f"{name} {deg:g}°" for name, deg in DARKNESS_DEG.items())
+        + " (default nautical)",
     )
     parser.add_argument(
         "--tz",

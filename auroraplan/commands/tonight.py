@@ -46,21 +46,12 @@ def add_arguments(parser):
     whatif.add_arguments(parser, fleet=False)
 
 
-def tonight_date(tz: str):
-    """The evening date of the night in progress or coming at the base: before local noon,
-    the night that began yesterday evening."""
-    import datetime as dt
-    from zoneinfo import ZoneInfo
-
-    now = dt.datetime.now(ZoneInfo(tz))
-    return now.date() - dt.timedelta(days=1) if now.hour < 12 else now.date()
-
-
 def run(args):
     from auroraplan import report
     from auroraplan.archive import recorder
     from auroraplan.commands._common import open_record, print_json
     from auroraplan.commands._progress import working
+    from auroraplan.nights import tonight
     from auroraplan.outfiles import check_output_path, write_bytes_atomic
     from auroraplan.store import protected_inputs
     from auroraplan.weatherfiles import read_for_workspace
@@ -74,7 +65,7 @@ def run(args):
                  + ([solar_wind.path] if solar_wind else []))
     outputs = {k: check_output_path(v, protected)
                for k, v in (("html", args.html), ("png", args.png)) if v}
-    date = args.date or tonight_date(ws.operator.timezone)
+    date = args.date or tonight(ws.operator.timezone)
     ws, what_if = whatif.apply(ws, whatif.from_args(args), date, date)
     ws.sky_reports = sky_reports(ws, date, args.sky)
     sheet = None
@@ -96,7 +87,7 @@ def run(args):
             finally:
                 if db is not None:
                     db.close()
-            sheet = runsheet.run_sheet(result, plan, args.trip, ws.operator.settings)
+            sheet = runsheet.run_sheet(result, plan, args.trip, ws.settings)
         else:
             result = report.tonight_report(ws, date, top=args.top, solar_wind=solar_wind,
                                           keep_chances=keep)
@@ -129,6 +120,7 @@ def sky_reports(ws, date, given, now=None) -> list:
     import numpy as np
 
     from auroraplan.errors import InputError
+    from auroraplan.nights import tonight
     from auroraplan.weather import SkyReport
 
     sites = {s.name: s for s in ws.sites}
@@ -141,7 +133,7 @@ def sky_reports(ws, date, given, now=None) -> list:
                             f"sites: {', '.join(sorted(sites)[:12])}")
             continue
         if clock is None:
-            if date != tonight_date(ws.operator.timezone):
+            if date != tonight(ws.operator.timezone):
                 problems.append(f"--sky {name!r}: a sky seen now is for tonight only; drop "
                                 "--date, or give the local time as SITE=PCT@HH:MM")
                 continue
@@ -164,7 +156,7 @@ def page_for(ws, result, sheet=None) -> str:
     from auroraplan.render.phone import phone_page_html, run_sheet_html
     from auroraplan.runsheet import language
 
-    lang = language(ws.operator.settings)
+    lang = language(ws.settings)
     return run_sheet_html(sheet, result, lang) if sheet else phone_page_html(result, lang)
 
 

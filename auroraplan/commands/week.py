@@ -74,7 +74,7 @@ def run(args):
         from auroraplan.render.calendar import plan_ics
         from auroraplan.runsheet import language
 
-        payloads["ics"] = plan_ics(result, language(ws.operator.settings))
+        payloads["ics"] = plan_ics(result, language(ws.settings))
     if "png" in outputs:
         from auroraplan.render.charts import week_heatmap_png
 

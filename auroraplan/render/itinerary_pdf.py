@@ -159,22 +159,21 @@ CHANCE_MEANING = (
 )
 
 
-def _contact_lines(settings: dict, w: Words) -> list[tuple[str, str]]:
+def _contact_lines(contact, w: Words) -> list[tuple[str, str]]:
     """(label, text) for each [contact] entry that is given; missing entries are left out."""
-    contact = (settings or {}).get("contact") or {}
     rows = []
-    place = [contact.get("meeting_point"), contact.get("meeting_address")]
-    if contact.get("meeting_lat") is not None and contact.get("meeting_lon") is not None:
-        lat, lon = float(contact["meeting_lat"]), float(contact["meeting_lon"])
+    place = [contact.meeting_point, contact.meeting_address]
+    if contact.meeting_lat is not None and contact.meeting_lon is not None:
+        lat, lon = float(contact.meeting_lat), float(contact.meeting_lon)
         place.append(f"{w.number(abs(lat), 4)}° {w('N') if lat >= 0 else w('S')}, "
                      f"{w.number(abs(lon), 4)}° {w('E') if lon >= 0 else w('W')}")
     place = [p for p in place if p]
     if place:
         rows.append((w("Meeting point"), " · ".join(place)))
-    if contact.get("phone"):
-        rows.append((w("Operator phone"), contact["phone"]))
-    if contact.get("emergency"):
-        rows.append((w("Emergency"), contact["emergency"]))
+    if contact.phone:
+        rows.append((w("Operator phone"), contact.phone))
+    if contact.emergency:
+        rows.append((w("Emergency"), contact.emergency))
     return rows
 
 
@@ -195,7 +194,7 @@ def _footer(report: dict, trip: dict, w: Words):
 
 
 def itinerary_pdf(report: dict, trip_id: str, paper: str = "A4",
-                  operator_settings: dict | None = None) -> bytes:
+                  operator_settings=None) -> bytes:
     """Render one trip of a ``week`` report as a printable PDF itinerary.
 
     Parameters
@@ -206,8 +205,8 @@ def itinerary_pdf(report: dict, trip_id: str, paper: str = "A4",
         The ``trip`` identifier from trips.csv.
     paper : {"A4", "Letter"}
         Paper size: ISO 216 A4 (210 × 297 mm) or US Letter (8.5 × 11 in).
-    operator_settings : dict, optional
-        operator.toml as read: ``[contact]`` (meeting point, phone, emergency) and
+    operator_settings : auroraplan.settings.Settings, optional
+        The workspace's settings: ``contact`` (meeting point, phone, emergency) and
         ``[print]`` (language, cloudy-night policy, chance meaning). Entries not given are
         left out.
 
@@ -227,10 +226,11 @@ def itinerary_pdf(report: dict, trip_id: str, paper: str = "A4",
 
     from auroraplan.cautions import CAUTIONS, FORECAST_NOT_PROMISE
     from auroraplan.errors import InputError
+    from auroraplan.runsheet import ContactSettings, PrintSettings
 
-    settings = operator_settings or {}
-    printing = settings.get("print") or {}
-    w = Words(printing.get("language", "en"))
+    contact = operator_settings.contact if operator_settings is not None else ContactSettings()
+    printing = operator_settings.print if operator_settings is not None else PrintSettings()
+    w = Words(printing.language)
     size = PAPER_PT.get(str(paper).lower())
     if size is None:
         raise InputError(f"paper {paper!r} is not known; choose A4 or Letter")
@@ -247,7 +247,7 @@ def itinerary_pdf(report: dict, trip_id: str, paper: str = "A4",
     )
     base = (report.get("base") or {}).get("name", "")
     n_out = sum(1 for p in report.get("plan", []) if str(p["trip"]) == str(trip["trip"]))
-    contacts = _contact_lines(settings, w)
+    contacts = _contact_lines(contact, w)
     story = [
         Paragraph(_p(w("Aurora evenings for {group}", group=trip["group"])), st["title"]),
         Paragraph(_p(w("{operator} · from {base} · trip {trip} · {guests} guests",
@@ -272,10 +272,10 @@ def itinerary_pdf(report: dict, trip_id: str, paper: str = "A4",
         Paragraph(_p(w("If the main site is clouded over or unsafe on the night, the guide "
                        "takes the group to the backup site, or changes the plan.")), st["small"]),
     ]
-    if printing.get("cloudy_night_policy"):
+    if printing.cloudy_night_policy:
         story += [Paragraph(_p(w("If the night is cloudy or cancelled")), st["h2"]),
                   *[Paragraph(_p(part), st["body"])
-                    for part in str(printing["cloudy_night_policy"]).split("\n\n")]]
+                    for part in str(printing.cloudy_night_policy).split("\n\n")]]
     story += [
         Paragraph(_p(w("What to wear and bring")), st["h2"]),
         *[Paragraph(_p(w(item)), st["bullet"], bulletText="•") for item in KIT_LIST],
@@ -283,7 +283,7 @@ def itinerary_pdf(report: dict, trip_id: str, paper: str = "A4",
         *[Paragraph(_p(w(c)), st["bullet"], bulletText="•")
           for c in (report.get("cautions") or CAUTIONS)],
         Paragraph(_p(w("About the chances")), st["h2"]),
-        Paragraph(_p(printing.get("chance_meaning") or w(CHANCE_MEANING)), st["body"]),
+        Paragraph(_p(printing.chance_meaning or w(CHANCE_MEANING)), st["body"]),
         Spacer(1, 3),
         Paragraph(_p(w(report.get("notice") or FORECAST_NOT_PROMISE)), st["body"]),
         Spacer(1, 3),
