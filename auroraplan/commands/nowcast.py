@@ -6,7 +6,7 @@ until when it says it, whether activity is rising, and the chance in each of the
 hours at every open site with where to look.
 """
 
-from auroraplan.commands._common import int_range
+from auroraplan.commands._common import int_range, utc_time
 
 
 def add_arguments(parser):
@@ -14,24 +14,13 @@ def add_arguments(parser):
     parser.add_argument("--solarwind", metavar="FILE",
                         help="solar-wind measurements (CSV; default: the workspace's "
                              "solarwind.csv)")
-    parser.add_argument("--at", metavar="TIME", type=_moment,
+    parser.add_argument("--at", metavar="TIME", type=utc_time,
                         help="count the hours from this time, ISO 8601 (UTC unless an "
                              "offset is given; default: now, or the file's last measurement "
                              "when the file is older than 3 hours)")
     parser.add_argument("--hours", type=int_range(1, 6), default=2,
                         help="how many hours ahead, 1 to 6 (default 2)")
     parser.add_argument("--json", action="store_true", help="print the result as JSON")
-
-
-def _moment(text):
-    import argparse
-
-    from auroraplan.workspace import parse_utc
-
-    try:
-        return parse_utc(text)
-    except ValueError as exc:
-        raise argparse.ArgumentTypeError(str(exc)) from None
 
 
 def run(args):
