@@ -209,7 +209,10 @@ def base_info(ws) -> dict:
     return {"name": op.base_name, "lat": op.base_lat, "lon": op.base_lon, "timezone": op.timezone}
 
 
-def _grid_for_nights(ws, sites, first_night, nights, step_min, climatology, nowcast=None):
+def _grid_for_nights(ws, sites, first_night, nights, step_min, climatology, nowcast=None,
+                     outlook_only=False):
+    """The chance grid and night summaries; ``outlook_only`` leaves out the Kp and cloud
+    forecasts (climatology alone, as the season outlook)."""
     from auroraplan import chance
     from auroraplan import nights as nights_mod
 
@@ -217,8 +220,8 @@ def _grid_for_nights(ws, sites, first_night, nights, step_min, climatology, nowc
                                                 step_min)
     grid = chance.compute_grid(
         sites, times, night_index, step_min, tz=ws.operator.timezone, settings=ws.settings,
-        activity=ws.activity, climatology=climatology, nowcast=nowcast,
-        cloud=cloud_for(ws, sites, times),
+        activity=None if outlook_only else ws.activity, climatology=climatology,
+        nowcast=nowcast, cloud=None if outlook_only else cloud_for(ws, sites, times),
     )
     summary = chance.summarise_nights(grid, nights, ws.settings.chance)
     return grid, summary

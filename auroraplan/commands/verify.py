@@ -133,8 +133,7 @@ def outlook_chances(ws, pairs) -> dict:
     first, count = nights[0], (nights[-1] - nights[0]).days + 1
     sites = [by_name[n] for n in names]
     _, summary = report._grid_for_nights(ws, sites, first, count, report.DEFAULT_STEP_MIN,
-                                         report.default_climatology(ws), use_forecast=False,
-                                         use_clouds=False)
+                                         report.workspace_climatology(ws), outlook_only=True)
     out = {}
     for i, name in enumerate(names):
         for d in range(count):
