@@ -416,9 +416,10 @@ def test_moonlight_extinction_follows_the_operators_setting(ws):
     times, night = sky.night_times(dt.date(2027, 1, 18), 1, ws.operator.timezone, 30)
 
     def grid(k):
-        op = dataclasses.replace(ws.operator, extinction_k=k)
-        return chance.compute_grid(dataclasses.replace(ws, operator=op), ws.sites, times, night,
-                                   30, climatology=False)
+        viewing = dataclasses.replace(ws.settings.viewing, extinction_k=k)
+        return chance.compute_grid(ws.sites, times, night, 30, tz=ws.operator.timezone,
+                                   settings=dataclasses.replace(ws.settings, viewing=viewing),
+                                   activity=ws.activity, clouds=ws.clouds, climatology=False)
 
     clear_air, hazy = grid(0.12), grid(0.4)
     high = clear_air.moon_alt > 30.0
