@@ -36,7 +36,7 @@ def run(args):
     import numpy as np
 
     from auroraplan import calibrate
-    from auroraplan.chance import settings_for
+    from auroraplan.archive import chance_settings_of
     from auroraplan.commands._common import print_json
     from auroraplan.commands._progress import working
     from auroraplan.commands.verify import logged_pairs
@@ -48,7 +48,7 @@ def run(args):
     out_path = check_output_path(args.out, list(ws.files.values())
                                  + protected_files(database_path(ws.path)))
     found, logged, unpaired = logged_pairs(ws, args)
-    current = settings_for(ws)
+    current = chance_settings_of(ws)
     nights = [g.night for g, _, _ in found]
     with working(f"Fitting the chance settings to {len(found)} logged outcomes",
                  quiet=args.json):
