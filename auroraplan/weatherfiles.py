@@ -194,12 +194,17 @@ def _open_datasets(path: Path, kind: str) -> list:
         if kind == "grib":
             import cfgrib
 
-            return cfgrib.open_datasets(str(path), cache=False, backend_kwargs={
+            options = {
                 "indexpath": "",  # never write an index file beside the user's file
                 "read_keys": ["discipline", "parameterCategory", "parameterNumber",
                               "generatingProcessIdentifier"],
                 "errors": "raise",
-            })
+            }
+            try:  # one pass over the messages when they form one dataset (the usual file)
+                return [xr.open_dataset(path, engine="cfgrib", cache=False,
+                                        backend_kwargs=options, decode_timedelta=True)]
+            except cfgrib.dataset.DatasetBuildError:  # mixed levels or steps: split it
+                return cfgrib.open_datasets(str(path), cache=False, backend_kwargs=options)
         engine = "h5netcdf" if kind == "netcdf4" else "scipy"
         return [xr.open_dataset(path, engine=engine, cache=False, decode_timedelta=True)]
     except InputError:

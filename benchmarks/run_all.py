@@ -26,7 +26,7 @@ from pathlib import Path
 HERE = Path(__file__).resolve().parent
 OUT = HERE / "_out"
 MODULES = ("bench_sky", "bench_view", "bench_planner", "bench_climatology", "bench_week",
-           "bench_commands", "bench_nowcast")
+           "bench_commands", "bench_nowcast", "bench_weather")
 
 FAIRNESS = ("Fairness: each baseline gets the same inputs and must reach the same accuracy "
             "(sky: within 0.01 deg sun, 0.02 deg moon of per-site Skyfield; planner: greedy "
