@@ -189,3 +189,78 @@ def test_run_sheet_first_screen_legible_in_both_modes_and_offline(sheet_page, tm
         finally:
             browser.close()
     assert requests == []
+
+
+def test_logbook_form_keeps_entries_offline_and_exports_the_import_format(sheet_page, tmp_path):
+    """Fill the form with the network off, reload, export: the file is the logbook CSV
+    format, read back by the logbook's own reader as the one entry typed."""
+    from auroraplan.logbook import read_logbook_csv
+
+    sync_api = browser_or_skip()
+    path, sheet, tonight = sheet_page
+    requests = []
+    with sync_api.sync_playwright() as pw:
+        browser = pw.chromium.launch(executable_path=CHROMIUM, args=ARGS)
+        try:
+            context = browser.new_context(viewport=PHONE, accept_downloads=True)
+            context.set_offline(True)
+
+            # blob: is the export's own file in the page's memory; anything else is refused.
+            def local(url):
+                return url.startswith(("file://", "blob:"))
+
+            def refuse(route):
+                requests.append(route.request.url)
+                route.abort()
+
+            context.route(lambda url: not local(url), refuse)
+            page = context.new_page()
+            page.on("request", lambda r: None if local(r.url) else requests.append(r.url))
+            page.clock.set_fixed_time(dt.datetime.fromisoformat(tonight["date"] + "T12:00+01:00"))
+            page.goto(path.as_uri())
+            page.evaluate("localStorage.clear()")
+            page.reload()
+            assert page.locator("details#logbook").get_attribute("open") is None
+            assert not page.locator("#log-form").is_visible()
+            page.click("details#logbook > summary")
+            assert page.input_value("select[name=site]") == sheet["site_name"]
+            assert page.input_value("input[name=night]") == tonight["date"]
+
+            # Saving without a level is refused in words, and nothing is kept.
+            page.click("#log-save")
+            assert "Choose what was seen" in page.inner_text("#log-status")
+            assert page.evaluate("localStorage.getItem('auroraplan-logbook')") is None
+
+            page.click("form.log .levels label:has(input[value=clear])")
+            page.fill("input[name=cloud_seen]", "25")
+            page.fill("input[name=out_from]", "21:15")
+            page.fill("input[name=out_until]", "23:40")
+            page.fill("textarea[name=note]", 'Corona at 22:10, "green, then pink"')
+            page.click("#log-save")
+            assert "Saved" in page.inner_text("#log-status")
+            _check_legible(page, "day, logbook open")
+            page.click("#night")
+            _check_legible(page, "night, logbook open")
+
+            # Closing the page with no signal loses nothing.
+            page.reload()
+            page.click("details#logbook > summary")
+            assert "1 entries kept" in page.inner_text("#log-count")
+            kept = page.inner_text("#log-saved")
+            assert sheet["site_name"] in kept and "21:15-23:40" in kept
+            with page.expect_download() as info:
+                page.click("#log-export")
+            exported = tmp_path / info.value.suggested_filename
+            info.value.save_as(exported)
+        finally:
+            browser.close()
+    assert requests == []
+    assert exported.name == f"logbook-T01-{tonight['date']}.csv"
+    ws = load_workspace(DEMO)
+    entries = read_logbook_csv(exported, {s.name for s in ws.sites})
+    assert len(entries) == 1
+    e = entries[0]
+    assert (e.site, e.night, e.aurora) == (sheet["site_name"], tonight["date"], "clear")
+    assert (e.out_from, e.out_until, e.cloud_pct) == ("21:15", "23:40", 25.0)
+    assert e.note == 'Corona at 22:10, "green, then pink"'
+    assert e.source == "run sheet T01"

@@ -14,6 +14,8 @@ import math
 from auroraplan import runsheet
 from auroraplan.i18n import Words
 from auroraplan.render import style
+from auroraplan.render.logbook_form import CSS as LOGBOOK_CSS
+from auroraplan.render.logbook_form import logbook_form_html
 
 NIGHT_KEY = "auroraplan-night"  # localStorage key that remembers night colours on the device
 
@@ -396,7 +398,7 @@ def _css() -> str:
         "warn": style.AMBER, "compass": COMPASS_PX,
         "night_text": style.NIGHT_TEXT, "night_bg": style.NIGHT_BG, "night_dim": style.NIGHT_DIM,
         "night_fg": style.NIGHT_FG, "font": style.FONT_STACK, "mono": style.MONO_STACK,
-    }
+    } + LOGBOOK_CSS
 
 
 def _document(title: str, lang: str, report: dict, body: str, words: Words) -> str:
@@ -518,8 +520,8 @@ def run_sheet_html(sheet: dict, report: dict, language: str = "en") -> str:
 
     The first screen of a phone (390 × 844 CSS px) holds the group, guests, pick-up time
     and place, site, backup, drive, window, where to look and the go / wait / swap line
-    with its reason, and any old or missing data in large words; the whole site list
-    follows, collapsed.
+    with its reason, and any old or missing data in large words; the logbook form
+    (:mod:`auroraplan.render.logbook_form`) and the whole site list follow, collapsed.
 
     Parameters
     ----------
@@ -548,6 +550,7 @@ def run_sheet_html(sheet: dict, report: dict, language: str = "en") -> str:
         f"{_outing_facts(sheet, w)}{nowcast}"
         f'<div class="bar">{_toggle(w)}{maps}'
         f'<a class="tap" href="#cautions">{_e(w("Safety notes"))}</a></div>'
+        f"{logbook_form_html(sheet, report, w)}"
         f'<details class="all"><summary>{_e(w("All {n} sites tonight", n=n_sites))}</summary>'
         f'<p class="facts">{_e(_night_facts(report, w))}</p>'
         f"{_shortlist(report, w)}</details>"
