@@ -12,11 +12,11 @@ the contrast of the rest of the page hold here too.
 
 from __future__ import annotations
 
-import html
 import json
 
 from auroraplan.i18n import Words
 from auroraplan.logbook import AURORA_LEVELS, COLUMNS, MAX_TEXT
+from auroraplan.render.style import html_escape as _e
 
 STORE_KEY = "auroraplan-logbook"
 """localStorage key: a JSON list of entries, each a dict keyed by the logbook's columns.
@@ -84,10 +84,6 @@ SCRIPT = (
     "setTimeout(function(){URL.revokeObjectURL(u);},6e4);"
     "st.textContent=msg('exported');});show();})();</script>"
 )
-
-
-def _e(value) -> str:
-    return html.escape(str(value), quote=True)
 
 
 def _site_options(sheet: dict, report: dict) -> str:

@@ -8,7 +8,6 @@ links are ``geo:`` URIs (RFC 5870) that open the phone's maps app, and in-page a
 from __future__ import annotations
 
 import datetime as dt
-import html
 import math
 
 from auroraplan import runsheet
@@ -105,9 +104,7 @@ details.all>summary::-webkit-details-marker{display:none}
 """
 
 
-def _e(value) -> str:
-    """Escape any value for HTML text or an attribute."""
-    return html.escape("" if value is None else str(value), quote=True)
+_e = style.html_escape
 
 
 def _number(x: float, digits: int = 6) -> str:

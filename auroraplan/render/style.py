@@ -36,6 +36,13 @@ CHANCE_WORDS = [
 ]
 
 
+def html_escape(value) -> str:
+    """Any value as HTML text or an attribute value (None is empty)."""
+    import html
+
+    return html.escape("" if value is None else str(value), quote=True)
+
+
 def chance_in_words(chance: float) -> str:
     """Plain words for a chance from 0 to 1 (our own bands, common practice, no source)."""
     for upper, word in CHANCE_WORDS:
