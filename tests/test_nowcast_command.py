@@ -154,3 +154,13 @@ def test_demo_run_sheet_and_phone_page_show_the_nowcast():
     page = phone_page_html(tonight)
     assert 'id="nowcast"' in page
     assert "From solar wind measured at 20:10, valid until 20:52" in page
+
+
+def test_an_assumed_kp_sets_the_solar_wind_aside(turning):
+    # A what-if Kp is meant to hold for every hour; the measured solar wind would overrule
+    # it for the hours it covers, so it is set aside and the run says so.
+    got = _run("tonight", str(turning["south"]), "--date", "2027-02-09", "--json",
+               "--assume-kp", "3")
+    assert got["nowcast"] is None
+    assert "solar-wind estimate set aside for the assumed Kp" in got["what_if"]
+    assert all(h["kp_from"] != "solar wind" for s in got["sites"] for h in s["hourly"])

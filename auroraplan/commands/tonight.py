@@ -66,7 +66,12 @@ def run(args):
     outputs = {k: check_output_path(v, protected)
                for k, v in (("html", args.html), ("png", args.png)) if v}
     date = args.date or tonight(ws.operator.timezone)
-    ws, what_if = whatif.apply(ws, whatif.from_args(args), date, date)
+    assumed = whatif.from_args(args)
+    ws, what_if = whatif.apply(ws, assumed, date, date)
+    if solar_wind is not None and (assumed.kp is not None or assumed.kp_shift is not None):
+        # An assumed Kp stands for every hour; measured solar wind would overrule it.
+        solar_wind = None
+        what_if = [*what_if, "solar-wind estimate set aside for the assumed Kp"]
     ws.sky_reports = sky_reports(ws, date, args.sky)
     sheet = None
     # A what-if run's chances rest on assumptions, not on the forecast: they are not kept.
