@@ -2,6 +2,8 @@
 
 import argparse
 import importlib
+import os
+import signal
 import sys
 
 from auroraplan.errors import InputError
@@ -51,9 +53,20 @@ def build_parser() -> argparse.ArgumentParser:
     return parser
 
 
+class Terminated(KeyboardInterrupt):
+    """SIGTERM, handled as Ctrl-C: the same clean-up, one line, exit code 143."""
+
+
 def main(argv=None) -> int:
-    """Run one command; return its exit code (0 done, 1 internal error, 2 bad input, 130 Ctrl-C)."""
+    """Run one command; return its exit code (0 done, 1 internal error, 2 bad input,
+    130 Ctrl-C, 143 SIGTERM)."""
+    from auroraplan import outfiles
+
     command = None
+    outfiles.reset()
+    _plain_streams()
+    _matplotlib_config_dir()
+    previous = _on_sigterm()
     try:
         parser = build_parser()
         args = parser.parse_args(argv)
@@ -62,20 +75,41 @@ def main(argv=None) -> int:
             parser.print_help()
             return 2
         return _run(args)
-    except KeyboardInterrupt:
-        # Outputs are written to a temporary file and renamed (outfiles.py), so an
-        # interrupted run leaves either the whole file or none of it.
-        sys.stderr.write(f"auroraplan{' ' + command if command else ''}: interrupted; "
-                         "no partly written file was left\n")
-        return 130
+    except KeyboardInterrupt as exc:
+        # Outputs are written whole to temporary files and renamed as a set (outfiles.py),
+        # so an interrupted run leaves every output whole or untouched.
+        done = outfiles.written
+        what = (f"; written whole before that: {', '.join(str(p) for p in done)}; "
+                "no other output was touched" if done else "; no output was written")
+        how = "stopped (SIGTERM)" if isinstance(exc, Terminated) else "interrupted"
+        sys.stderr.write(f"auroraplan{' ' + command if command else ''}: {how}{what}\n")
+        return 143 if isinstance(exc, Terminated) else 130
     except BrokenPipeError:
         # The reader of our output went away (e.g. `| head`): stop quietly.
         _silence_stdout()
         return 0
+    finally:
+        _restore_sigterm(previous)
+
+
+def _on_sigterm():
+    def stop(signum, frame):
+        raise Terminated()
+
+    try:
+        return signal.signal(signal.SIGTERM, stop)
+    except ValueError:  # not the main thread: leave signals alone
+        return None
+
+
+def _restore_sigterm(previous) -> None:
+    if previous is not None:
+        signal.signal(signal.SIGTERM, previous)
 
 
 def _run(args) -> int:
     try:
+        check_paths(args)
         return int(args._run(args) or 0)
     except InputError as exc:
         for problem in exc.problems:
@@ -93,10 +127,92 @@ def _run(args) -> int:
         return 1
 
 
+def check_paths(args) -> None:
+    """Before any work: every input a command names is registered as protected, and every
+    output option is checked (not empty, not an input, not twice, a writable place).
+
+    Output options are those whose type is ``_common.output_file`` or ``output_folder``;
+    every other option naming an existing file or folder is an input (a workspace folder
+    brings every file it reads, see ``outfiles.workspace_inputs``).
+    """
+    from auroraplan import outfiles
+    from auroraplan.commands._common import OutputFile, OutputFolder
+
+    files, folders = [], []
+    for dest, value in vars(args).items():
+        if isinstance(value, OutputFile):
+            files.append((_option(dest), value))
+        elif isinstance(value, OutputFolder):
+            folders.append((_option(dest), value))
+        elif isinstance(value, str) and value and dest not in ("command",) and _exists(value):
+            outfiles.protect(value)
+    outfiles.check_distinct(files)
+    for option, value in files:
+        _with_option(option, value, outfiles.check_output_path)
+    for option, value in folders:
+        _with_option(option, value, outfiles.check_output_folder)
+
+
+def _option(dest: str) -> str:
+    return "--" + dest.replace("_", "-")
+
+
+def _exists(value: str) -> bool:
+    try:
+        return os.path.lexists(os.path.expanduser(value))
+    except (ValueError, OSError):
+        return False
+
+
+def _with_option(option, value, check) -> None:
+    """Run a path check; name the option in its error line when the line does not."""
+    try:
+        check(value)
+    except InputError as exc:
+        raise InputError([p if p.startswith("--") else f"{option} {p}" for p in exc.problems]) from None
+
+
+def _plain_streams() -> None:
+    """Standard output and error that never fail on a character the terminal's encoding
+    lacks (PYTHONIOENCODING=ascii, a C locale): such characters are written as their
+    nearest plain letters (see auroraplan.plaintext)."""
+    from auroraplan.plaintext import ERROR_HANDLER, register
+
+    register()
+    for stream in (sys.stdout, sys.stderr):
+        try:
+            if stream.errors == "strict":
+                stream.reconfigure(errors=ERROR_HANDLER)
+        except (AttributeError, ValueError, OSError):
+            pass
+
+
+def _matplotlib_config_dir() -> None:
+    """Point matplotlib at a private, writable cache folder when the home folder's is not
+    writable (a read-only HOME): otherwise it warns on every run that it made a temporary one."""
+    if os.environ.get("MPLCONFIGDIR"):
+        return
+    home = os.path.expanduser("~")
+    config = os.path.join(os.environ.get("XDG_CONFIG_HOME") or os.path.join(home, ".config"),
+                          "matplotlib")
+    try:
+        os.makedirs(config, exist_ok=True)
+        if os.access(config, os.W_OK):
+            return
+    except OSError:
+        pass
+    import tempfile
+
+    private = os.path.join(tempfile.gettempdir(), f"auroraplan-matplotlib-{os.getuid()}")
+    try:
+        os.makedirs(private, mode=0o700, exist_ok=True)
+    except OSError:
+        return
+    os.environ["MPLCONFIGDIR"] = private
+
+
 def _silence_stdout() -> None:
     """Point stdout at /dev/null so that Python's flush at exit does not fail again."""
-    import os
-
     try:
         devnull = os.open(os.devnull, os.O_WRONLY)
         os.dup2(devnull, sys.stdout.fileno())

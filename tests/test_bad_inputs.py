@@ -9,6 +9,10 @@ any file in the case folder, then changed by the directives of its case.txt:
     append: FILE | TEXT           text added at the end
     write: FILE | TEXT            the whole file
     remove: FILE
+    mkdir: FOLDER                 a folder (also where a file is expected)
+    link: PATH | TARGET           a symbolic link at PATH pointing to TARGET (as written)
+    fifo: PATH                    a named pipe
+    chmod: PATH | MODE            octal permission bits, e.g. 444
     encode: FILE | CODEC          the file's text saved in another encoding (latin-1, utf-16)
     bom: FILE or *                a UTF-8 byte-order mark in front
     crlf: FILE or *               Windows line endings
@@ -19,6 +23,11 @@ any file in the case folder, then changed by the directives of its case.txt:
     accept: yes                   odd but valid: exit 0 and sensible output instead
     lists: T1 T2                  (accepted) trips the JSON result must list
     stdout: TEXT                  (accepted) text standard output must hold
+    file_has: PATH | TEXT         (accepted) an output file that must exist and hold TEXT
+    file_lacks: PATH | TEXT       (accepted) text an output file must not hold
+
+PATH and FILE are relative to the workspace ("../x" is beside it). Every `--json` output is
+parsed by a strict parser (no NaN or Infinity, which are not JSON).
 
 The command runs as a subprocess in a temporary copy; the folder's files must be byte for byte
 the same afterwards (the user's files are never changed, no half-written output).
@@ -63,7 +72,8 @@ def read_case(name: str) -> dict:
             key, rest = raw.rstrip(":"), ""
         if rest.endswith(" |"):  # an editor may have dropped the space after a final bar
             rest += " "
-        if key in ("replace", "append", "write", "remove", "encode", "bom", "crlf"):
+        if key in ("replace", "append", "write", "remove", "encode", "bom", "crlf", "mkdir", "link",
+                   "fifo", "chmod"):
             case["steps"].append((key, rest.split(" | ")))
         else:
             case.setdefault(key, []).append(rest)
@@ -88,6 +98,18 @@ def apply_step(ws: Path, key: str, parts: list[str]) -> None:
     if key == "remove":
         path.unlink()
         return
+    if key == "mkdir":
+        path.mkdir(parents=True, exist_ok=True)
+        return
+    if key == "link":
+        path.symlink_to(parts[1].strip())
+        return
+    if key == "fifo":
+        os.mkfifo(path)
+        return
+    if key == "chmod":
+        path.chmod(int(parts[1].strip(), 8))
+        return
     if key == "encode":
         path.write_bytes(path.read_text(encoding="utf-8").encode(parts[1].strip()))
         return
@@ -101,6 +123,7 @@ def apply_step(ws: Path, key: str, parts: list[str]) -> None:
         text += args[0]
     elif key == "write":
         text = args[0]
+    path.parent.mkdir(parents=True, exist_ok=True)
     path.write_bytes(text.encode("utf-8", "surrogatepass"))
 
 
@@ -109,9 +132,26 @@ RECORD_NAME = "auroraplan.sqlite"
 
 
 def snapshot(folder: Path) -> dict:
-    """Relative path -> bytes of every file under ``folder``."""
-    return {str(p.relative_to(folder)): p.read_bytes() for p in sorted(folder.rglob("*"))
-            if p.is_file()}
+    """Relative path -> what it is of everything under ``folder``: a file's bytes and mode,
+    a link's target, a folder or pipe by kind (so a replaced link or pipe shows too)."""
+    state = {}
+    for p in sorted(folder.rglob("*")):
+        key = str(p.relative_to(folder))
+        if p.is_symlink():
+            state[key] = ("link", os.readlink(p))
+        elif p.is_file():
+            state[key] = ("file", p.read_bytes(), p.stat().st_mode)
+        else:
+            state[key] = ("other", p.stat().st_mode)
+    return state
+
+
+def strict_json(text: str):
+    """JSON as RFC 8259 has it: NaN and Infinity are refused."""
+    def refuse(name):
+        raise ValueError(f"{name} is not JSON")
+
+    return json.loads(text, parse_constant=refuse)
 
 
 def run_case(name: str, root: Path) -> dict:
@@ -150,10 +190,24 @@ def _run_case(name: str, root: Path) -> dict:
         after = {k: v for k, v in after.items() if not Path(k).name.startswith(RECORD_NAME)}
     return {
         "case": case, "argv": argv, "returncode": proc.returncode, "stdout": proc.stdout,
-        "stderr": proc.stderr, "unchanged": after == before,
+        "stderr": proc.stderr, "ws": ws,
+        "unchanged": _unchanged(before, after, case),
         "outputs_unchanged": all((p.read_bytes() if p.exists() else None) == outputs_before[p]
                                  for p in outputs),
     }
+
+
+def _unchanged(before: dict, after: dict, case: dict) -> bool:
+    """Nothing under the case's folder changed, except the outputs an accepted case names
+    (created or replaced by its command)."""
+    allowed = set()
+    for spec in case.get("file_has", []) + case.get("file_lacks", []):
+        rel = os.path.normpath("workspace/" + spec.split(" | ", 1)[0])
+        allowed.update({rel, *(str(p) for p in Path(rel).parents)})
+    keys = (set(before) | set(after)) - {k for k in set(before) | set(after)
+                                          if any(k == a or k.startswith(a + os.sep)
+                                                 for a in allowed if a != ".")}
+    return all(before.get(k) == after.get(k) for k in keys)
 
 
 @pytest.fixture(scope="module")
@@ -196,12 +250,19 @@ def test_case(results, name):
     assert got["outputs_unchanged"], f"{name}: an output path was created or changed"
     if "accept" in case:
         assert got["returncode"] == 0, got["stderr"]
-        result = json.loads(got["stdout"])
-        listed = {trip["trip"] for trip in result.get("trips", [])}
-        for wanted in case.get("lists", [""])[0].split():
-            assert wanted in listed, (wanted, listed)
+        assert got["stderr"] == "", got["stderr"]
+        if "--json" in got["argv"]:
+            result = strict_json(got["stdout"])
+            listed = {trip["trip"] for trip in result.get("trips", [])}
+            for wanted in case.get("lists", [""])[0].split():
+                assert wanted in listed, (wanted, listed)
         for fragment in case.get("stdout", []):
-            assert fragment in got["stdout"], fragment
+            assert unescape(fragment) in got["stdout"], fragment
+        for spec in case.get("file_has", []) + case.get("file_lacks", []):
+            rel, text = spec.split(" | ", 1)
+            data = (got["ws"] / rel).read_bytes().decode("utf-8", "replace")
+            wanted = spec in case.get("file_has", [])
+            assert (unescape(text) in data) == wanted, (rel, text, data[:2000])
         return
     assert got["returncode"] == 2, (got["returncode"], got["stderr"])
     lines = got["stderr"].splitlines()

@@ -66,8 +66,9 @@ def test_events_carry_tzid_and_the_calendar_its_vtimezone(ics):
 
 
 def test_event_fields_for_the_guide(week, events):
-    first = next(e for e in events if str(e["UID"]).startswith("t-0325-2027-03-25"))
     plan = week["plan"][0]
+    first = next(e for e in events if "(trip T-0325)" in str(e["DESCRIPTION"])
+                 and str(e["UID"]).startswith("2027-03-25-"))
     # RFC 5545 section 3.8.1.6: GEO is latitude;longitude.
     assert "GEO:69.81;19.42" in first.to_ical().decode("utf-8")
     assert tuple(first.decoded("GEO")) == pytest.approx((plan["lat"], plan["lon"]))
@@ -86,8 +87,18 @@ def test_uids_are_unique_and_stable(week, events):
     assert len(set(uids)) == len(uids)
     again = [str(e["UID"]) for e in Calendar.from_ical(plan_ics(week)).walk("VEVENT")]
     assert again == uids
-    assert outing_uid("T-0325", "2027-03-25", "Gåsvika lay-by") == \
-        "t-0325-2027-03-25-gåsvika-lay-by@auroraplan"
+    uid = outing_uid("T-0325", "2027-03-25", "Gåsvika lay-by", "Op")
+    assert uid == outing_uid("T-0325", "2027-03-25", "Gåsvika lay-by", "Op")
+    assert uid.startswith("2027-03-25-") and uid.endswith("@auroraplan")
+
+
+def test_trips_that_differ_only_in_punctuation_get_different_uids():
+    # A slug of "A.1" and "A-1" would be the same; a calendar app would merge the outings.
+    assert outing_uid("A.1", "2027-03-25", "Ridge") != outing_uid("A-1", "2027-03-25", "Ridge")
+    assert outing_uid("A", "1-2027", "Ridge") != outing_uid("A-1", "2027", "Ridge")
+    # Two workspaces planning the same trip id at the same site stay apart too.
+    assert outing_uid("T1", "2027-03-25", "Ridge", "Op A") != \
+        outing_uid("T1", "2027-03-25", "Ridge", "Op B")
 
 
 def test_an_empty_plan_is_still_a_valid_calendar(week):

@@ -12,7 +12,7 @@ from pypdf import PdfReader
 
 from auroraplan.cautions import CAUTIONS
 from auroraplan.cli import main
-from auroraplan.commands.itinerary import itinerary_file_name
+from auroraplan.commands.itinerary import itinerary_file_names
 from auroraplan.errors import InputError
 from auroraplan.render.itinerary_pdf import KIT_LIST, itinerary_pdf, printable
 from auroraplan.workspace import Operator, Trip, Workspace
@@ -200,6 +200,12 @@ def test_command_trip_without_pdf_is_one_line(fake_workspace, capsys):
     ("../../etc/passwd", "itinerary-etc-passwd.pdf"),
     ("Smith & Co / week 3", "itinerary-Smith-Co-week-3.pdf"),
     ("///", "itinerary-trip.pdf"),
+    ("x/../../escaped", "itinerary-x-escaped.pdf"),
+    ("T/02", "itinerary-T-02.pdf"),
+    ("a#b?c:d", "itinerary-a-b-c-d.pdf"),
+    ("..", "itinerary-trip.pdf"),
+    ("CON", "itinerary-CON-.pdf"),
+    ("Группа 7", "itinerary-Группа-7.pdf"),
 ])
 def test_file_names_are_safe(trip, name):
-    assert itinerary_file_name(trip) == name
+    assert itinerary_file_names([trip]) == {trip: name}

@@ -3,6 +3,7 @@
 import argparse
 import datetime as dt
 import json
+import math
 import sys
 
 FIRST_DATE = dt.date(1900, 1, 1)
@@ -124,17 +125,70 @@ def add_weather_option(parser) -> None:
                              "files in WORKSPACE/weather/ are always read")
 
 
+class OutputFile(str):
+    """An option value naming a file this command writes (checked by the CLI before the work)."""
+
+
+class OutputFolder(str):
+    """An option value naming a folder this command writes files into."""
+
+
+def output_file(text: str) -> OutputFile:
+    """An option type for an output file: not empty (see auroraplan.outfiles for the rest)."""
+    if not text.strip():
+        raise argparse.ArgumentTypeError("is empty; give the path of the file to write")
+    return OutputFile(text)
+
+
+def output_folder(text: str) -> OutputFolder:
+    """An option type for an output folder: not empty."""
+    if not text.strip():
+        raise argparse.ArgumentTypeError("is empty; give the folder to write into")
+    return OutputFolder(text)
+
+
 def print_json(obj) -> None:
-    """Print a result as JSON on standard output."""
-    json.dump(obj, sys.stdout, indent=2, ensure_ascii=False, default=_json_default)
-    sys.stdout.write("\n")
+    """Print a result as strict JSON (RFC 8259) on standard output.
+
+    Non-finite numbers (NaN, infinity), which JSON cannot hold, are written as null.
+    Where standard output cannot encode every character (PYTHONIOENCODING=ascii), text
+    is written with \\u escapes, which is the same JSON.
+    """
+    sys.stdout.write(json_text(obj, ascii_only=not _can_encode(sys.stdout, "\u00e9\u2014\u0416")))
+
+
+def json_text(obj, ascii_only: bool = False) -> str:
+    """``obj`` as strict JSON text with a final line break (see :func:`print_json`)."""
+    return json.dumps(_finite(obj), indent=2, ensure_ascii=ascii_only, allow_nan=False,
+                      default=_json_default) + "\n"
+
+
+def _finite(value):
+    """``value`` with every non-finite float (and numpy float) replaced by None."""
+    if isinstance(value, float):
+        return value if math.isfinite(value) else None
+    if isinstance(value, dict):
+        return {k: _finite(v) for k, v in value.items()}
+    if isinstance(value, list | tuple):
+        return [_finite(v) for v in value]
+    if hasattr(value, "item") and hasattr(value, "dtype"):  # numpy scalars and 0-d arrays
+        return _finite(value.item()) if getattr(value, "ndim", 0) == 0 else _finite(value.tolist())
+    return value
+
+
+def _can_encode(stream, sample: str) -> bool:
+    try:
+        sample.encode(getattr(stream, "encoding", None) or "utf-8")
+    except (UnicodeEncodeError, LookupError):
+        return False
+    return True
 
 
 def _json_default(value):
     if isinstance(value, dt.datetime | dt.date):
         return value.isoformat()
     if hasattr(value, "item"):  # numpy scalars
-        return value.item()
+        return _finite(value.item())
     raise TypeError(f"cannot write {type(value).__name__} as JSON")
 
 

@@ -6,9 +6,7 @@ around the record first and its proposal saved. Lays out, for the group: each ev
 chance in words, the backup site, what to wear and bring, and the safety cautions.
 """
 
-import re
-
-from auroraplan.commands._common import add_record_options
+from auroraplan.commands._common import add_record_options, output_file, output_folder
 
 PAPERS = {"a4": "A4", "letter": "Letter"}
 
@@ -17,19 +15,30 @@ def add_arguments(parser):
     parser.add_argument("workspace", help="folder with operator.toml, sites.geojson, trips.csv ...")
     which = parser.add_mutually_exclusive_group(required=True)
     which.add_argument("--trip", metavar="ID", help="the trip to print (its id in trips.csv)")
-    which.add_argument("--all", metavar="DIR",
+    which.add_argument("--all", metavar="DIR", type=output_folder,
                        help="write one PDF per trip into this existing folder "
                             "(named itinerary-<trip>.pdf)")
-    parser.add_argument("--pdf", metavar="FILE", help="where to write the PDF (with --trip)")
+    parser.add_argument("--pdf", metavar="FILE", type=output_file, help="where to write the PDF (with --trip)")
     parser.add_argument("--paper", type=str.lower, choices=sorted(PAPERS), default="a4",
                         help="paper size: a4 (default) or letter")
     add_record_options(parser)
 
 
+ITINERARY_FILE = "itinerary-{}.pdf"
+
+
 def itinerary_file_name(trip_id: str) -> str:
-    """A safe file name for a trip's itinerary: itinerary-<trip>.pdf with only [A-Za-z0-9._-]."""
-    safe = re.sub(r"[^A-Za-z0-9._-]+", "-", str(trip_id)).strip("-.") or "trip"
-    return f"itinerary-{safe}.pdf"
+    """The itinerary file name of one trip (``auroraplan.names.safe_name``)."""
+    from auroraplan.names import safe_name
+
+    return ITINERARY_FILE.format(safe_name(trip_id, "trip"))
+
+
+def itinerary_file_names(trip_ids) -> dict:
+    """trip id -> its itinerary's file name inside a folder (``auroraplan.names.file_names``)."""
+    from auroraplan.names import file_names
+
+    return file_names(trip_ids, ITINERARY_FILE)
 
 
 def run(args):
@@ -37,7 +46,7 @@ def run(args):
 
     from auroraplan.commands._progress import working
     from auroraplan.errors import InputError
-    from auroraplan.outfiles import check_output_path, write_bytes_atomic
+    from auroraplan.outfiles import check_output_path, write_files
     from auroraplan.store import protected_inputs
     from auroraplan.workspace import load_workspace
 
@@ -59,8 +68,8 @@ def run(args):
 
     with working(f"Planning and laying out {len(trips)} itinerar{'y' if len(trips) == 1 else 'ies'}"):
         pdfs = _render_all(ws, trips, PAPERS[args.paper], args)
-    for trip_id, path in targets.items():  # written only once every PDF is made
-        write_bytes_atomic(path, pdfs[trip_id])
+    # Written as a set once every PDF is made: all of them or none.
+    for path in write_files({path: pdfs[trip_id] for trip_id, path in targets.items()}):
         print(f"wrote {path}")
     return 0
 
@@ -80,18 +89,10 @@ def _chosen_trips(ws, trip_id):
 
 
 def _all_targets(folder, trips, protected):
-    from auroraplan.errors import InputError
     from auroraplan.outfiles import check_output_path
 
-    targets, seen = {}, {}
-    for trip in trips:
-        name = itinerary_file_name(trip.trip)
-        if name in seen:
-            raise InputError(f"trips.csv: trips {seen[name]!r} and {trip.trip!r} would both be "
-                             f"written to {name}; give them ids that differ in letters or digits")
-        seen[name] = trip.trip
-        targets[trip.trip] = check_output_path(folder / name, protected)
-    return targets
+    names = itinerary_file_names([trip.trip for trip in trips])
+    return {trip_id: check_output_path(folder / name, protected) for trip_id, name in names.items()}
 
 
 def _render_all(ws, trips, paper, args):

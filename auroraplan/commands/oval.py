@@ -1,7 +1,7 @@
 """Auroral oval boundary latitudes by magnetic local time for one Kp, as a table, JSON or a chart."""
 
 
-from auroraplan.commands._common import console, number_range, print_json
+from auroraplan.commands._common import console, number_range, output_file, print_json
 
 kp_value = number_range(0.0, 9.0, "a Kp")
 
@@ -15,7 +15,7 @@ def add_arguments(parser):
                         help=f"oval model: {', '.join(oval.MODELS)} (default {oval.DEFAULT_MODEL}, "
                         "which keeps moving equatorward above Kp 6)")
     parser.add_argument("--json", action="store_true", help="print the result as JSON")
-    parser.add_argument("--png", metavar="FILE", help="also draw the oval around the magnetic pole")
+    parser.add_argument("--png", metavar="FILE", type=output_file, help="also draw the oval around the magnetic pole")
 
 
 def oval_report(kp: float, model: str) -> dict:

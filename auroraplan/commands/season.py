@@ -5,7 +5,7 @@ climatology of the month and the solar-cycle phase, and each site's
 clear-sky climatology. Every night is an outlook, never a forecast.
 """
 
-from auroraplan.commands._common import int_range, iso_date
+from auroraplan.commands._common import int_range, iso_date, output_file
 
 MAX_SEASON_DAYS = 731
 
@@ -18,7 +18,8 @@ def add_arguments(parser):
                         help="last night, YYYY-MM-DD (at most 2 years after --from)")
     parser.add_argument("--trip-nights", type=int_range(1, 30), default=5,
                         help="length of the trip to find the best start dates for (default 5)")
-    parser.add_argument("--png", metavar="FILE", help="also write the season chart (PNG): a strip per month, a column per night with its dark hours, chance and the moon")
+    parser.add_argument("--png", metavar="FILE", type=output_file,
+                        help="also write the season chart (PNG): a strip per month, a column per night with its dark hours, chance and the moon")
     parser.add_argument("--json", action="store_true", help="print the result as JSON")
 
 

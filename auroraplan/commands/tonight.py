@@ -13,6 +13,7 @@ from auroraplan.commands._common import (
     add_weather_option,
     int_range,
     iso_date,
+    output_file,
     sky_report,
 )
 
@@ -35,8 +36,8 @@ def add_arguments(parser):
     parser.add_argument("--no-record", action="store_true",
                         help="do not keep these chances in the workspace database (they are "
                              "kept by default once it exists, for `verify` and `calibrate`)")
-    parser.add_argument("--html", metavar="FILE", help="also write the phone page to FILE")
-    parser.add_argument("--png", metavar="FILE",
+    parser.add_argument("--html", metavar="FILE", type=output_file, help="also write the phone page to FILE")
+    parser.add_argument("--png", metavar="FILE", type=output_file,
                         help="also write the night timeline chart of the best site (or, with "
                              "--trip, of the group's site) to FILE")
     add_record_options(parser)
@@ -52,7 +53,7 @@ def run(args):
     from auroraplan.commands._common import open_record, print_json
     from auroraplan.commands._progress import working
     from auroraplan.nights import tonight
-    from auroraplan.outfiles import check_output_path, write_bytes_atomic
+    from auroraplan.outfiles import check_output_path, write_files
     from auroraplan.store import protected_inputs
     from auroraplan.weatherfiles import read_for_workspace
     from auroraplan.workspace import load_workspace, solar_wind_for
@@ -103,8 +104,7 @@ def run(args):
             payloads["html"] = page_for(ws, result, sheet).encode("utf-8")
         if "png" in outputs:
             payloads["png"] = timeline_png(ws, result, date, sheet)
-    for key, path in outputs.items():
-        write_bytes_atomic(path, payloads[key])
+    write_files({path: payloads[key] for key, path in outputs.items()})  # all or none
     if args.json:
         print_json(dict(result, run_sheet=sheet) if sheet else result)
     else:

@@ -10,7 +10,13 @@ was added or dropped, and why). Confirm outings with `auroraplan confirm`.
 """
 
 from auroraplan import whatif
-from auroraplan.commands._common import add_record_options, add_weather_option, int_range, iso_date
+from auroraplan.commands._common import (
+    add_record_options,
+    add_weather_option,
+    int_range,
+    iso_date,
+    output_file,
+)
 
 
 def add_week_arguments(parser):
@@ -29,8 +35,8 @@ def add_arguments(parser):
     parser.add_argument("--no-record", action="store_true",
                         help="do not keep these chances in the workspace database "
                              "(they are kept by default, for `verify` and `calibrate`)")
-    parser.add_argument("--csv", metavar="FILE", help="also write ranked nights × sites as CSV")
-    parser.add_argument("--ics", metavar="FILE",
+    parser.add_argument("--csv", metavar="FILE", type=output_file, help="also write ranked nights × sites as CSV")
+    parser.add_argument("--ics", metavar="FILE", type=output_file,
                         help="also write the planned outings as an iCalendar file")
     parser.add_argument("--png", metavar="FILE",
                         help="also write the chart of the chance per night and site (PNG)")
@@ -100,11 +106,10 @@ def _evenings(ws, start, nights):
 
 
 def _write_all(outputs, payloads):
-    """Write every output only after all of them were made, so a failure writes nothing."""
-    from auroraplan.outfiles import write_bytes_atomic
+    """Write the outputs as a set once all of them are made: all of them or none."""
+    from auroraplan.outfiles import write_files
 
-    for key, path in outputs.items():
-        write_bytes_atomic(path, payloads[key])
+    write_files({path: payloads[key] for key, path in outputs.items()})
 
 
 def week_csv(result) -> str:

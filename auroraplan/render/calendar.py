@@ -3,7 +3,7 @@
 from __future__ import annotations
 
 import datetime as dt
-import re
+import hashlib
 from zoneinfo import ZoneInfo
 
 from auroraplan.i18n import Words
@@ -12,10 +12,24 @@ from auroraplan.render import style
 PRODID = "-//auroraplan//excursion plan//EN"
 
 
-def outing_uid(trip: str, date: str, site: str) -> str:
-    """A stable UID for one outing (RFC 5545 section 3.8.4.7): same plan, same UID."""
-    slug = re.sub(r"\W+", "-", f"{trip}-{date}-{site}").strip("-").lower()
-    return f"{slug}@auroraplan"
+def outing_uid(trip: str, date: str, site: str, workspace: str = "") -> str:
+    """A UID for one outing (RFC 5545 section 3.8.4.7), unique and the same on every run.
+
+    A SHA-256 digest of the workspace's identity (operator and base), the trip id, the
+    night and the site, each kept whole and apart (trips "A.1" and "A-1" differ), so two
+    outings never share a UID and a calendar app that imports the file again updates
+    the same events instead of adding copies.
+    """
+    key = "\x1f".join(str(part) for part in (workspace, trip, date, site))
+    digest = hashlib.sha256(key.encode("utf-8", "surrogatepass")).hexdigest()[:32]
+    return f"{date}-{digest}@auroraplan"
+
+
+def workspace_identity(report: dict) -> str:
+    """The operator and base of a report: what makes one workspace's outings its own."""
+    base = report.get("base") or {}
+    return "\x1f".join(str(v) for v in (report.get("operator", ""), base.get("name", ""),
+                                         base.get("lat", ""), base.get("lon", "")))
 
 
 def _local(iso_text: str, zone: ZoneInfo) -> dt.datetime:
@@ -87,7 +101,8 @@ def plan_ics(report: dict, language: str = "en") -> bytes:
     for outing in outings:
         start, end = _local(outing["pickup"], zone), _local(outing["return"], zone)
         ev = Event()
-        ev.add("uid", outing_uid(outing["trip"], outing["date"], outing["site"]))
+        ev.add("uid", outing_uid(outing["trip"], outing["date"], outing["site"],
+                                 workspace_identity(report)))
         ev.add("dtstamp", made)
         ev.add("dtstart", start)
         ev.add("dtend", end)

@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+from urllib.parse import quote
+
 from auroraplan.render.phone import EARLY_SCRIPT, TOGGLE_SCRIPT, _css, _e, _stamp
 
 EXTRA_CSS = """
@@ -22,7 +24,8 @@ def index_html(title: str, made_at: str, entries: list[dict]) -> str:
     made_at : str
         Local ISO 8601 time the outputs were made.
     entries : list of dict
-        Each with ``title``, ``href`` (a file name relative to the page) and ``description``.
+        Each with ``title``, ``href`` (a file name relative to the page, percent-encoded here
+        so that ``#``, ``?`` and ``:`` in it stay part of the name) and ``description``.
 
     Returns
     -------
@@ -30,7 +33,7 @@ def index_html(title: str, made_at: str, entries: list[dict]) -> str:
         One HTML5 document with inline CSS, no outside requests.
     """
     items = "".join(
-        f'<li><a href="{_e(e["href"])}">{_e(e["title"])}</a>'
+        f'<li><a href="{_e(quote(e["href"]))}">{_e(e["title"])}</a>'
         f"<p>{_e(e.get('description', ''))}</p></li>"
         for e in entries
     )

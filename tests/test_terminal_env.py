@@ -1,0 +1,65 @@
+"""Odd terminals and homes: an ASCII-only stream, a home folder that cannot be written."""
+
+import json
+import os
+import subprocess
+import sys
+from pathlib import Path
+
+import pytest
+
+from auroraplan.plaintext import ERROR_HANDLER, plain, register
+
+ROOT = Path(__file__).resolve().parents[1]
+BASE = ROOT / "tests" / "bad_inputs" / "base"
+
+
+def _run(args, **env):
+    full = dict(os.environ, NO_COLOR="1", COLUMNS="100", **env)
+    full["PYTHONPATH"] = str(ROOT) + os.pathsep + full.get("PYTHONPATH", "")
+    for key in [k for k, v in env.items() if v is None]:
+        full.pop(key, None)
+    return subprocess.run([sys.executable, "-m", "auroraplan.cli", *args], env=full,
+                          capture_output=True, timeout=180)
+
+
+@pytest.mark.parametrize("command", [
+    ["tonight", str(BASE), "--date", "2027-01-12"],
+    ["week", str(BASE), "--start", "2027-01-11", "--nights", "2"],
+])
+def test_an_ascii_terminal_gets_plain_text_not_a_crash(command):
+    proc = _run(command, PYTHONIOENCODING="ascii")
+    assert proc.returncode == 0, proc.stderr.decode("ascii", "replace")
+    assert proc.stderr == b""
+    text = proc.stdout.decode("ascii")  # every byte is ASCII
+    assert "Gullwing Point" in text
+
+
+def test_json_on_an_ascii_terminal_is_the_same_json_with_escapes():
+    plain_run = _run(["week", str(BASE), "--start", "2027-01-11", "--nights", "1", "--json"],
+                     PYTHONIOENCODING="ascii")
+    utf8_run = _run(["week", str(BASE), "--start", "2027-01-11", "--nights", "1", "--json"],
+                    PYTHONIOENCODING="utf-8")
+    assert plain_run.returncode == 0 and utf8_run.returncode == 0
+    a, b = json.loads(plain_run.stdout.decode("ascii")), json.loads(utf8_run.stdout)
+    a.pop("made_at", None), b.pop("made_at", None)
+    assert a == b
+
+
+def test_plain_stand_ins():
+    register()
+    assert "Ærøy — 12°".encode("ascii", ERROR_HANDLER) == b"AEroy - 12d"
+    assert plain("é") == "e" and plain("Ж") == "?"
+    assert "Ærøy".encode("latin-1", ERROR_HANDLER) == "Ærøy".encode("latin-1")
+
+
+def test_a_home_that_cannot_be_written_gives_no_plotting_warnings(tmp_path):
+    # As root any folder can be written, so the home lies under a file (mkdir fails).
+    blocker = tmp_path / "file"
+    blocker.write_text("not a folder")
+    out = tmp_path / "oval.png"
+    proc = _run(["oval", "--kp", "5", "--png", str(out)], HOME=str(blocker / "home"),
+                MPLCONFIGDIR=None, XDG_CONFIG_HOME=None, XDG_CACHE_HOME=None)
+    assert proc.returncode == 0
+    assert proc.stderr == b"", proc.stderr.decode()
+    assert out.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
