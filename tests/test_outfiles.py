@@ -83,7 +83,7 @@ def test_a_device_is_refused():
         outfiles.check_output_path("/dev/null")
 
 
-def test_an_unwritable_folder_is_found_before_the_work(tmp_path, monkeypatch):
+def test_an_unwritable_folder_is_found_before_the_work(ws, tmp_path, monkeypatch):
     # As root every folder is writable, so the refusal of the probe file is simulated.
     def refused(**kwargs):
         raise PermissionError(errno.EACCES, "Permission denied")
@@ -91,13 +91,15 @@ def test_an_unwritable_folder_is_found_before_the_work(tmp_path, monkeypatch):
     monkeypatch.setattr(outfiles.tempfile, "mkstemp", refused)
     calls = []
     monkeypatch.setattr("auroraplan.report.week_report", lambda *a, **k: calls.append(a))
-    code = cli.main(["week", str(BASE), "--start", "2027-01-11", "--nights", "1",
+    code = cli.main(["week", str(ws), "--start", "2027-01-11", "--nights", "1",
                      "--csv", str(tmp_path / "w.csv")])
     assert code == 2 and calls == []
 
 
-def test_disk_full_on_the_second_output_leaves_both_untouched(tmp_path, monkeypatch, capsys):
-    first, second = tmp_path / "ranked.csv", tmp_path / "outings.ics"
+def test_disk_full_on_the_second_output_leaves_both_untouched(ws, tmp_path, monkeypatch, capsys):
+    out = tmp_path / "out"
+    out.mkdir()
+    first, second = out / "ranked.csv", out / "outings.ics"
     first.write_text("last week's ranking\n")
     real_fdopen = os.fdopen
     opened = []
@@ -121,14 +123,14 @@ def test_disk_full_on_the_second_output_leaves_both_untouched(tmp_path, monkeypa
         return real_fdopen(fd, mode) if len(opened) == 1 else Full(real_fdopen(fd, mode))
 
     monkeypatch.setattr(outfiles.os, "fdopen", fdopen)
-    code = cli.main(["week", str(BASE), "--start", "2027-01-11", "--nights", "1",
+    code = cli.main(["week", str(ws), "--start", "2027-01-11", "--nights", "1",
                      "--csv", str(first), "--ics", str(second)])
     err = capsys.readouterr().err
     assert code == 2
     assert err.count("\n") == 1 and "the disk is full" in err
     assert "none of the outputs was written" in err
     assert first.read_text() == "last week's ranking\n" and not second.exists()
-    assert sorted(p.name for p in tmp_path.iterdir()) == ["ranked.csv"]
+    assert sorted(p.name for p in out.iterdir()) == ["ranked.csv"]
 
 
 def test_a_set_interrupted_while_being_made_changes_no_file(tmp_path, monkeypatch):
