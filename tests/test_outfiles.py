@@ -175,24 +175,7 @@ def test_interrupted_message_names_what_was_written_whole(tmp_path, monkeypatch,
 
 
 def test_an_output_folder_may_not_be_the_workspace_or_inside_it(ws, tmp_path, capsys):
-    code = cli.main(["demo", "--workspace", str(ws), "--out", str(ws / "out")])
-    assert code == 2 and "inside the workspace" in capsys.readouterr().err
+    code = cli.main(["publish", str(ws), "--start", "2027-01-11", "--nights", "1",
+                     "--out", str(ws / "out")])
+    assert code == 2 and "inside it" in capsys.readouterr().err
     assert not (ws / "out").exists()
-
-
-def test_demo_interrupted_leaves_the_earlier_outputs_as_they_were(ws, tmp_path, monkeypatch,
-                                                                   capsys):
-    out = tmp_path / "out"
-    out.mkdir()
-    earlier = {"index.html": "earlier index", "week.csv": "earlier week", "mine.txt": "mine"}
-    for name, text in earlier.items():
-        (out / name).write_text(text)
-
-    def interrupted(*args, **kwargs):
-        raise KeyboardInterrupt
-
-    monkeypatch.setattr("auroraplan.render.charts.oval_map_png", interrupted)
-    code = cli.main(["demo", "--workspace", str(ws), "--out", str(out)])
-    assert code == 130
-    assert capsys.readouterr().err.endswith("interrupted; no output was written\n")
-    assert {p.name: p.read_text() for p in out.iterdir()} == earlier
