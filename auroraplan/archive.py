@@ -5,7 +5,7 @@ row to ``issue_runs`` (when, which command, digests of the input files, the
 chance settings) and, per site, the chance of a sighting during the outing
 window for each night (``issued_nights``) and the chance in each dark hour
 (``issued_hours``), with the kind (forecast, outlook, nowcast) and the lead
-time. The night rows also keep, per dark step of the outing hours, the parts
+time, and each weather model's cloud at the start of those hours (``issued_cloud``). The night rows also keep, per dark step of the outing hours, the parts
 of the chance that the settings act on (`FACTOR_ROWS`), so that
 ``calibrate`` can refit the settings to what the guides saw without computing
 the sky again.
@@ -150,7 +150,9 @@ def record_issue(store, *, command: str, site_names, grid, summary, dates, setti
     factors = np.stack([np.nan_to_num(getattr(grid, name), nan=0.0) for name in FACTOR_ROWS]) \
         if grid.p_reach is not None else None
 
-    night_rows, hour_rows = [], []
+    model_pct = getattr(grid, "cloud_model_pct", None)
+    models = list(getattr(grid, "cloud_models", None) or []) if model_pct is not None else []
+    night_rows, hour_rows, cloud_rows = [], [], []
     for d, date in enumerate(dates):
         kind = summary.kind[d]
         cols = np.flatnonzero(grid.night_index == d)
@@ -177,6 +179,11 @@ def record_issue(store, *, command: str, site_names, grid, summary, dates, setti
             for i in np.flatnonzero(hour_dark[:, j] & np.isfinite(hour_chance[:, j])):
                 hour_rows.append((site_names[i], date.isoformat(), _utc_text(hour_start[j]),
                                   hour_kind[j], float(hour_lead[j]), float(hour_chance[i, j])))
+                for m, model in enumerate(models):
+                    pct = model_pct[m, i, first_step[j]]
+                    if np.isfinite(pct):
+                        cloud_rows.append((site_names[i], date.isoformat(),
+                                           _utc_text(hour_start[j]), str(model), float(pct)))
     with store.transaction() as con:
         cur = con.execute(
             "INSERT INTO issue_runs (made_at, command, inputs, inputs_digest, settings, "
@@ -193,6 +200,9 @@ def record_issue(store, *, command: str, site_names, grid, summary, dates, setti
             "INSERT INTO issued_hours (run_id, site, night, hour_start, kind, lead_hours, "
             "chance) VALUES (?,?,?,?,?,?,?)",
             [(run_id, *row) for row in hour_rows])
+        con.executemany(
+            "INSERT INTO issued_cloud (run_id, site, night, hour_start, model, cloud_pct) "
+            "VALUES (?,?,?,?,?,?)", [(run_id, *row) for row in cloud_rows])
     return run_id
 
 

@@ -152,6 +152,17 @@ MIGRATIONS: list[Migration] = [
         )""",
         "CREATE INDEX logbook_site_night ON logbook(site, night)",
     )),
+    Migration(3, "each weather model's forecast cloud per site and hour, as issued", (
+        """CREATE TABLE issued_cloud (
+            run_id INTEGER NOT NULL REFERENCES issue_runs(id),
+            site TEXT NOT NULL,
+            night TEXT NOT NULL,            -- local date of the evening
+            hour_start TEXT NOT NULL,       -- UTC ISO 8601, as in issued_hours
+            model TEXT NOT NULL,            -- weather-model name from its file
+            cloud_pct REAL NOT NULL         -- that model's cloud cover at the hour's start
+        )""",
+        "CREATE INDEX issued_cloud_site_night ON issued_cloud(site, night)",
+    )),
 ]
 """The schema, step by step. Append a `Migration` with the next version to change it;
 never edit or reorder a step that has been released."""

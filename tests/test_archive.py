@@ -57,6 +57,27 @@ def test_tonight_keeps_the_chance_in_each_hour_it_printed(recorded):
             assert kept[utc.strftime("%Y-%m-%dT%H:%M:%SZ")] == pytest.approx(h["chance_in_hour"], abs=5e-4)
 
 
+def test_tonight_keeps_each_models_cloud_in_each_hour_it_printed(recorded):
+    ws, result = recorded
+    rows = _rows(ws, "SELECT * FROM issued_cloud")
+    assert rows
+    checked = 0
+    for s in result["sites"]:
+        kept = {(r["hour_start"], r["model"]): r["cloud_pct"] for r in rows
+                if r["site"] == s["name"]}
+        for h in s["hourly"]:
+            utc = dt.datetime.fromisoformat(h["time"]).astimezone(dt.UTC)
+            stamp = utc.strftime("%Y-%m-%dT%H:%M:%SZ")
+            for model, pct in (h.get("cloud_models") or {}).items():
+                if pct is not None:
+                    assert kept[(stamp, model)] == pytest.approx(pct, abs=0.51)
+                    checked += 1
+        assert {k[0] for k in kept} <= {
+            dt.datetime.fromisoformat(h["time"]).astimezone(dt.UTC).strftime("%Y-%m-%dT%H:%M:%SZ")
+            for h in s["hourly"]}
+    assert checked == len(rows)
+
+
 def test_the_run_keeps_its_inputs_settings_and_lead_time(recorded):
     ws, _ = recorded
     run = _rows(ws, "SELECT * FROM issue_runs")[0]
