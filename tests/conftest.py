@@ -18,6 +18,22 @@ CHECKED_IN_WORKSPACES = (DEMO_SITES, Path(__file__).resolve().parent / "southern
 
 
 @pytest.fixture(scope="session", autouse=True)
+def private_cache(tmp_path_factory):
+    """Site values kept between runs go to a folder of this test run, not the user's cache
+    (commands run as subprocesses inherit it)."""
+    import os
+
+    folder = tmp_path_factory.mktemp("cache")
+    before = os.environ.get("AURORAPLAN_CACHE")
+    os.environ["AURORAPLAN_CACHE"] = str(folder)
+    yield folder
+    if before is None:
+        os.environ.pop("AURORAPLAN_CACHE", None)
+    else:
+        os.environ["AURORAPLAN_CACHE"] = before
+
+
+@pytest.fixture(scope="session", autouse=True)
 def no_database_in_checked_in_workspaces():
     """Commands that plan keep a database in the workspace: tests must run them on copies."""
     before = {p for folder in CHECKED_IN_WORKSPACES for p in folder.glob("auroraplan.sqlite*")}
