@@ -229,6 +229,7 @@ class Issued:
     settings: dict
     step_min: float
     factors: dict | None
+    run_id: int | None = None
 
 
 def went_out_utc(night: str, out_from: str | None, outing_start: str, tz: str) -> dt.datetime:
@@ -253,7 +254,7 @@ def issued_for(store, site: str, night: str, out_from: str | None, tz: str,
     holds no chance for that site and night.
     """
     rows = store.query(
-        "SELECT n.kind, n.chance, n.lead_hours, n.outing_start, n.factors, r.made_at, "
+        "SELECT n.run_id, n.kind, n.chance, n.lead_hours, n.outing_start, n.factors, r.made_at, "
         "r.command, r.settings, r.step_min FROM issued_nights n JOIN issue_runs r "
         "ON r.id = n.run_id WHERE n.site = ? AND n.night = ? ORDER BY r.made_at, r.id",
         (site, night))
@@ -268,7 +269,32 @@ def issued_for(store, site: str, night: str, out_from: str | None, tz: str,
         made_at=row["made_at"], lead_hours=float(row["lead_hours"]), after_start=not before,
         command=row["command"], settings=json.loads(row["settings"]),
         step_min=float(row["step_min"]), factors=factors_of(row["factors"]),
+        run_id=int(row["run_id"]),
     )
+
+
+def model_cloud_for(store, issued: Issued, out_from: str | None, out_until: str | None,
+                    tz: str) -> dict:
+    """Each weather model's cloud, percent, kept with the run ``issued`` came from: the mean
+    over the kept hours that overlap the logged hours out, or over all the night's kept
+    hours when no hours out were logged (or none overlap). Empty when the run kept none."""
+    rows = store.query(
+        "SELECT hour_start, model, cloud_pct FROM issued_cloud WHERE run_id = ? AND site = ? "
+        "AND night = ?", (issued.run_id, issued.site, issued.night))
+    if not rows:
+        return {}
+    chosen = rows
+    if out_from and out_until:
+        start = went_out_utc(issued.night, out_from, "", tz)
+        end = went_out_utc(issued.night, out_until, "", tz)
+        hour = dt.timedelta(hours=1)
+        inside = [r for r in rows if start - hour < dt.datetime.fromisoformat(
+            r["hour_start"].replace("Z", "+00:00")) < end]
+        chosen = inside or rows
+    by_model: dict[str, list[float]] = {}
+    for r in chosen:
+        by_model.setdefault(r["model"], []).append(float(r["cloud_pct"]))
+    return {m: sum(v) / len(v) for m, v in sorted(by_model.items())}
 
 
 def recorder(ws, command: str, db=None, open_db=None, warn=None):

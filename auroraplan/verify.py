@@ -259,5 +259,43 @@ def scores(p, o, p_reference=None, bins=RELIABILITY_BINS) -> dict:
     }
 
 
+def cloud_scores(seen_pct, forecasts) -> dict:
+    """Each weather model's cloud forecasts against the cloud the guides saw.
+
+    Parameters
+    ----------
+    seen_pct : sequence of float
+        Cloud cover seen per site-night, percent 0-100.
+    forecasts : sequence of dict
+        Per site-night, weather-model name -> its forecast cloud cover in percent (the
+        mean over the hours out); a model missing from a night is not scored there.
+
+    Returns
+    -------
+    dict
+        Model -> ``count`` (site-nights), ``mae_pct`` (mean absolute error), ``bias_pct``
+        (mean of forecast minus seen: above 0 the model forecast too much cloud) and
+        ``closest_share`` (share of its site-nights on which it was nearest the cloud seen
+        among the models forecast for that night; a tie counts as a share for each tied
+        model, common practice, no source). Mean absolute error and mean error (bias) are
+        the usual scores of a continuous forecast (Wilks 2011, chapter 8).
+    """
+    errors: dict[str, list[float]] = {}
+    wins: dict[str, float] = {}
+    for seen, models in zip(seen_pct, forecasts, strict=True):
+        gaps = {m: float(f) - float(seen) for m, f in models.items()}
+        if not gaps:
+            continue
+        best = min(abs(g) for g in gaps.values())
+        nearest = [m for m, g in gaps.items() if abs(g) == best]
+        for m, g in gaps.items():
+            errors.setdefault(m, []).append(g)
+            wins[m] = wins.get(m, 0.0) + (1.0 / len(nearest) if m in nearest else 0.0)
+    return {m: {"count": len(e), "mae_pct": _json_float(float(np.mean(np.abs(e)))),
+                "bias_pct": _json_float(float(np.mean(e))),
+                "closest_share": _json_float(wins[m] / len(e))}
+            for m, e in sorted(errors.items())}
+
+
 def _json_float(x):
     return float(x) if x is not None and math.isfinite(x) else None

@@ -208,3 +208,35 @@ def test_calibrate_never_writes_operator_toml(recorded, tmp_path):
     assert done.returncode == 0, done.stderr
     assert json.loads(done.stdout)["outcomes"] >= 0
     assert (ws / "operator.toml").read_bytes() == before
+
+
+def test_verify_scores_each_weather_model_against_the_cloud_seen(recorded, tmp_path):
+    ws, result = recorded
+    seen = {s["name"]: 10 * (i % 9) for i, s in enumerate(result["sites"])}
+    rows = ["site,night,aurora,cloud_seen"] + [f"{name},2027-01-12,none,{pct}"
+                                               for name, pct in seen.items()]
+    path = tmp_path / "cloud-logbook.csv"
+    path.write_text("\n".join(rows) + "\n", encoding="utf-8")
+    run = [sys.executable, "-m", "auroraplan.cli"]
+    assert subprocess.run([*run, "logbook", "import", str(ws), str(path)]).returncode == 0
+    out = subprocess.run([*run, "verify", str(ws), "--json"], capture_output=True, text=True)
+    assert out.returncode == 0, out.stderr
+    cloud = json.loads(out.stdout)["cloud"]
+    # By hand from the archive: without hours out, each model's cloud is its mean over the
+    # night's kept hours; the error is that minus the cloud seen.
+    kept = _rows(ws, "SELECT site, model, AVG(cloud_pct) AS pct FROM issued_cloud "
+                     "GROUP BY site, model")
+    errors = {}
+    for r in kept:
+        errors.setdefault(r["model"], []).append(r["pct"] - seen[r["site"]])
+    assert errors and set(cloud["by_model"]) == set(errors)
+    for model, e in errors.items():
+        got = cloud["by_model"][model]
+        assert got["count"] == len(e)
+        assert got["mae_pct"] == pytest.approx(np.mean(np.abs(e)), abs=1e-9)
+        assert got["bias_pct"] == pytest.approx(np.mean(e), abs=1e-9)
+    assert sum(s["closest_share"] * s["count"] for s in cloud["by_model"].values()) \
+        == pytest.approx(len(cloud["pairs"]))
+    text = subprocess.run([*run, "verify", str(ws)], capture_output=True, text=True)
+    assert text.returncode == 0, text.stderr
+    assert "each weather model against the cloud seen" in text.stdout

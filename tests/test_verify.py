@@ -117,3 +117,15 @@ def test_bad_pairs_are_refused():
         verify.brier_score([0.2, 1.2], [0, 1])
     with pytest.raises(ValueError):
         verify.brier_score([0.2], [0, 1])
+
+
+def test_cloud_scores_by_hand():
+    # Worked by hand: model a misses by +10, -20, 0 (MAE 10, bias -10/3) and is nearest on
+    # nights 1 and 3 and tied on night 2 (2.5 of 3); model b misses by -20, +20 (MAE 20,
+    # bias 0), tied on night 2 (0.5 of 2) and has no forecast on night 3.
+    got = verify.cloud_scores([20, 80, 50], [{"a": 30, "b": 0}, {"a": 60, "b": 100}, {"a": 50}])
+    assert got["a"] == {"count": 3, "mae_pct": pytest.approx(10.0),
+                        "bias_pct": pytest.approx(-10 / 3), "closest_share": pytest.approx(2.5 / 3)}
+    assert got["b"] == {"count": 2, "mae_pct": pytest.approx(20.0), "bias_pct": pytest.approx(0.0),
+                        "closest_share": pytest.approx(0.25)}
+    assert verify.cloud_scores([], []) == {}

@@ -5,7 +5,8 @@ count once: aurora seen if any entry saw it) is paired with the chance of a
 sighting during the outing window that was issued last before the group went
 out (see auroraplan.archive). Scores per kind (forecast, outlook, nowcast)
 and overall: Brier score, reliability table with Wilson intervals, the Brier
-decomposition and the ROC area (auroraplan.verify).
+decomposition and the ROC area (auroraplan.verify). Where the logbook gives the
+cloud seen, each weather model's cloud kept with the same run is scored against it.
 """
 
 from auroraplan.commands._common import iso_date
@@ -65,6 +66,7 @@ def run(args):
         "by_kind": {k: scored([p for p in pairs if p["kind"] == k])
                     for k in archive.KINDS if any(p["kind"] == k for p in pairs)},
         "pairs": pairs,
+        "cloud": cloud_verification(ws, args),
     }
     if png_path:
         from auroraplan.outfiles import write_bytes_atomic
@@ -116,6 +118,44 @@ def logged_pairs(ws, args):
             seen = int(AURORA_LEVELS.index(level) >= AURORA_LEVELS.index(args.seen_from))
             found.append((got, level, seen))
     return found, len(outcomes), unpaired
+
+
+def cloud_verification(ws, args) -> dict:
+    """Each weather model's forecast cloud against the cloud seen, per logged site-night.
+
+    Site-nights whose entries give ``cloud_seen`` (several entries: their mean) are paired
+    with the same run as the chance (archive.issued_for); each model's cloud is its mean
+    over the logged hours out (archive.model_cloud_for). Scores from verify.cloud_scores.
+    """
+    from auroraplan import archive, verify
+    from auroraplan.logbook import stored_entries
+    from auroraplan.store import database_path, open_store
+
+    db = open_store(database_path(ws.path), create=False)
+    nights: dict[tuple[str, str], dict] = {}
+    pairs = []
+    with db:
+        for e in stored_entries(db, args.first and args.first.isoformat(),
+                                args.last and args.last.isoformat()):
+            if e.cloud_pct is None:
+                continue
+            got = nights.setdefault((e.site, e.night), {"seen": [], "from": e.out_from,
+                                                         "until": e.out_until})
+            got["seen"].append(e.cloud_pct)
+        for (site, night), got in sorted(nights.items(), key=lambda kv: kv[0][::-1]):
+            issued = archive.issued_for(db, site, night, got["from"], ws.operator.timezone)
+            models = ({} if issued is None else archive.model_cloud_for(
+                db, issued, got["from"], got["until"], ws.operator.timezone))
+            if models:
+                pairs.append({"site": site, "night": night,
+                              "cloud_seen_pct": sum(got["seen"]) / len(got["seen"]),
+                              "models": models, "made_at": issued.made_at})
+    return {
+        "logged_site_nights": len(nights),
+        "pairs": pairs,
+        "by_model": verify.cloud_scores([p["cloud_seen_pct"] for p in pairs],
+                                        [p["models"] for p in pairs]),
+    }
 
 
 def outlook_chances(ws, pairs) -> dict:
@@ -184,6 +224,21 @@ def print_verify(result):
     if result["overall"]["more_needed"]:
         out.print(f"[yellow]note:[/] about {result['overall']['more_needed']} more logged outcomes "
                   "are needed before these figures mean much.")
+    cloud = result["cloud"]
+    if cloud["by_model"]:
+        models = new_table(title=f"Cloud: each weather model against the cloud seen, "
+                                 f"{len(cloud['pairs'])} site-nights")
+        for col in ("model", "site-nights", "mean abs. error", "bias", "closest"):
+            models.add_column(col, justify="left" if col == "model" else "right", no_wrap=True)
+        for name, s in cloud["by_model"].items():
+            models.add_row(name, str(s["count"]), f"{s['mae_pct']:.0f} %",
+                           f"{s['bias_pct']:+.0f} %", f"{100 * s['closest_share']:.0f} %")
+        out.print(models)
+        out.print("[dim]bias above 0: the model forecast more cloud than was seen; closest: share "
+                  "of its site-nights on which it was nearest the cloud seen.[/]")
+    elif cloud["logged_site_nights"]:
+        out.print(f"[yellow]note:[/] {cloud['logged_site_nights']} logged site-nights give the "
+                  "cloud seen, but no weather model's cloud was kept for them.")
     if result["after_start"]:
         out.print(f"[yellow]note:[/] {result['after_start']} pairs use a chance made after the "
                   "group went out (a re-run for a past night), not a true forecast.")
