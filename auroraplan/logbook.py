@@ -17,9 +17,6 @@ import hashlib
 import math
 import re
 from dataclasses import astuple, dataclass
-from pathlib import Path
-
-from auroraplan.errors import InputError, ProblemList
 
 AURORA_LEVELS = ("none", "faint", "clear", "strong")
 """What was seen, weakest first: none; faint (seen by eye as a pale arc or glow, often
@@ -203,18 +200,13 @@ def read_logbook_csv(path, site_names=None) -> list[Entry]:
         One line per bad row naming the file, the line (the header is line 1), the
         column and what is allowed; nothing is imported when any row is bad.
     """
-    from auroraplan.workspace import _read_csv_rows, _read_text
+    from auroraplan.workspace import read_command_csv
 
-    path = Path(path)
-    label = str(path)
-    if not path.is_file():
-        raise InputError(f"{label}: not found; give a logbook CSV file with the columns "
-                         f"{', '.join(COLUMNS)}")
-    problems = ProblemList()
-    text = _read_text(path, label, problems)
+    label, rows, problems = read_command_csv(
+        path, "logbook", f"give a logbook CSV file with the columns {', '.join(COLUMNS)}")
     problems.raise_if_any()
     entries = []
-    for line, row in _read_csv_rows(text, label, "logbook", problems):
+    for line, row in rows:
         entry, bad = make_entry(row, site_names)
         if bad:
             problems.add(f"{label} line {line}: " + "; ".join(f"{f}: {msg}" for f, msg in bad))

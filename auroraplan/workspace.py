@@ -1175,6 +1175,24 @@ def _measured(text) -> float:
     return value
 
 
+def read_command_csv(path, role: str, what: str):
+    """A CSV file read only by the commands that use it (the logbook, solar wind).
+
+    Returns ``(label, rows, problems)``: the file's name for error lines, its data rows
+    as ``_read_csv_rows`` gives them, and the problems met so far (unreadable text, a bad
+    header), for the caller to add its own and raise. A missing file is one line saying
+    ``what`` to give.
+    """
+    path = Path(path).expanduser()
+    label = str(path)
+    if not path.is_file():
+        raise InputError(f"{label}: not found or not a file; {what}")
+    problems = ProblemList()
+    text = _read_text(path, label, problems)
+    rows = [] if text is None else _read_csv_rows(text, label, role, problems)
+    return label, rows, problems
+
+
 def load_solarwind(path) -> SolarWindFile:
     """Read a solar-wind file of upstream measurements.
 
@@ -1198,14 +1216,9 @@ def load_solarwind(path) -> SolarWindFile:
     """
     from auroraplan import solarwind
 
-    path = Path(path).expanduser()
-    label = str(path)
-    if not path.is_file():
-        raise InputError(f"{label}: not found or not a file; give a CSV file of solar-wind "
-                         f"measurements with the columns {', '.join(SOLARWIND_COLUMNS[0])}")
-    problems = ProblemList()
-    text = _read_text(path, label, problems)
-    rows = [] if text is None else _read_csv_rows(text, label, "solarwind", problems)
+    label, rows, problems = read_command_csv(
+        path, "solarwind", "give a CSV file of solar-wind measurements with the columns "
+        + ", ".join(SOLARWIND_COLUMNS[0]))
     names = SOLARWIND_COLUMNS[0][1:] + SOLARWIND_COLUMNS[1]
     lines, times, values = [], [], {name: [] for name in names}
     first_line = {}

@@ -9,17 +9,13 @@ issued chance is fitted instead, and the output says so. The suggested
 [chance] block goes to a file of its own; operator.toml is never changed.
 """
 
-from auroraplan.commands._common import int_range, iso_date
+from auroraplan.commands._common import int_range
 
 
 def add_arguments(parser):
-    from auroraplan.logbook import AURORA_LEVELS
+    from auroraplan.commands.verify import add_outcome_arguments
 
-    parser.add_argument("workspace", help="the workspace folder")
-    parser.add_argument("--from", dest="first", type=iso_date, help="first night, YYYY-MM-DD")
-    parser.add_argument("--to", dest="last", type=iso_date, help="last night, YYYY-MM-DD")
-    parser.add_argument("--seen-from", choices=AURORA_LEVELS[1:], default="faint",
-                        help="the weakest aurora that counts as a sighting (default faint)")
+    add_outcome_arguments(parser)
     parser.add_argument("--out", metavar="FILE", default="chance-suggestion.toml",
                         help="where to write the suggested [chance] block "
                              "(default chance-suggestion.toml; never operator.toml)")

@@ -12,7 +12,8 @@ cloud seen, each weather model's cloud kept with the same run is scored against 
 from auroraplan.commands._common import iso_date
 
 
-def add_arguments(parser):
+def add_outcome_arguments(parser):
+    """The workspace, the nights and what counts as a sighting: shared with `calibrate`."""
     from auroraplan.logbook import AURORA_LEVELS
 
     parser.add_argument("workspace", help="the workspace folder")
@@ -20,6 +21,10 @@ def add_arguments(parser):
     parser.add_argument("--to", dest="last", type=iso_date, help="last night, YYYY-MM-DD")
     parser.add_argument("--seen-from", choices=AURORA_LEVELS[1:], default="faint",
                         help="the weakest aurora that counts as a sighting (default faint)")
+
+
+def add_arguments(parser):
+    add_outcome_arguments(parser)
     parser.add_argument("--json", action="store_true", help="print everything as JSON")
     parser.add_argument("--png", metavar="FILE", help="also write the reliability diagram to FILE")
 
