@@ -292,7 +292,7 @@ def tonight_report(ws, date: dt.date, top: int | None = None, now=None, climatol
     closed_note = all_closed_note(ws)
     if climatology is None:
         climatology = workspace_climatology(ws)
-    cast = solar_wind_estimate(solar_wind)
+    cast = solar_wind_estimate(solar_wind, ws.settings.nowcast)
     # With every site closed the night is still described, at the base.
     grid, summary = _grid_for_nights(ws, sites or [_base_site(ws)], date, 1, DEFAULT_STEP_MIN,
                                      climatology, nowcast=cast)
@@ -1260,7 +1260,7 @@ def nowcast_report(ws, solar_wind, hours: int = 2, at: dt.datetime | None = None
     from auroraplan import chance
 
     tz = ws.operator.timezone
-    cast = solar_wind_estimate(solar_wind)
+    cast = solar_wind_estimate(solar_wind, ws.settings.nowcast)
     clock = now or dt.datetime.now(dt.UTC)
     if at is not None:
         start, from_clock = np.datetime64(at.astimezone(dt.UTC).replace(tzinfo=None), "s"), False

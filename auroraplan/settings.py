@@ -14,6 +14,7 @@ table          record                        declared in
 [contact]      ``ContactSettings``           auroraplan/runsheet.py
 [print]        ``PrintSettings``             auroraplan/runsheet.py
 [weather]      ``WeatherSettings``           auroraplan/weather.py
+[nowcast]      ``NowcastSettings``           auroraplan/solarwind.py
 =============  ============================  ==========================================
 
 The outing hours may also be written in [chance], and the keys of [chance] in [planner]
@@ -29,6 +30,7 @@ from auroraplan.chance import ChanceSettings
 from auroraplan.nights import OutingHours
 from auroraplan.planner import PlannerSettings
 from auroraplan.runsheet import ContactSettings, PrintSettings
+from auroraplan.solarwind import NowcastSettings
 from auroraplan.view import ViewingSettings
 from auroraplan.weather import WeatherSettings
 
@@ -45,6 +47,7 @@ class Settings:
     contact: ContactSettings = field(default_factory=ContactSettings)
     print: PrintSettings = field(default_factory=PrintSettings)
     weather: WeatherSettings = field(default_factory=WeatherSettings)
+    nowcast: NowcastSettings = field(default_factory=NowcastSettings)
 
 
 TABLES = {
@@ -56,4 +59,5 @@ TABLES = {
     "contact": ("contact",),
     "print": ("print",),
     "weather": ("weather",),
+    "nowcast": ("nowcast",),
 }

@@ -31,6 +31,9 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from auroraplan import checks
+from auroraplan.checks import setting
+
 EARTH_RADIUS_KM = 6371.0
 """Mean Earth radius (IUGG), the unit R_E of magnetospheric distances."""
 
@@ -72,47 +75,38 @@ storms (from memory; the limits leave a wide margin). Density must be above 0.""
 
 @dataclass(frozen=True)
 class NowcastSettings:
-    """How solar wind measured upstream becomes a Kp estimate, and how long it is trusted.
+    """operator.toml [nowcast]: how solar wind measured upstream becomes a Kp estimate,
+    and how long it is trusted. The ranges are common practice, no source."""
 
-    Read from the ``[nowcast]`` table of operator.toml. Each field's metadata gives its
-    unit and allowed range.
-    """
-
-    average_min: float = 60.0
-    """Trailing window over which the coupling is averaged, minutes. Newell et al. (2008)
-    fitted 3-hourly Kp; a 60-minute window lets the estimate follow the last hour at the
-    cost of more scatter (assumption; set 180 for the 3-hour window of the index)."""
-
-    model_kp_sd: float = 0.8
-    """Spread of Kp about the Newell et al. (2008) relation, Kp units. Fits of Kp to a
-    coupling function leave residuals of roughly 0.7-0.9 Kp (from memory); neural-network
-    models reach about 0.55-0.7 (Wintoft et al. 2017, from memory)."""
-
-    delay_sd_min: float = 15.0
-    """Uncertainty of the flat delay, minutes: errors of 15 min are common (Cash et al.
-    2016); the flat delay is statistically as good as the OMNI delay (Case & Wild 2012)."""
-
-    hand_back_min: float = 60.0
-    """After the last measurement has arrived, the estimate's weight against the day-old
-    forecast falls as exp(-age / hand_back_min) (assumption: activity forgets its driver
-    within about an hour once the driver is unknown)."""
-
-    spacecraft_km: float = L1_DISTANCE_KM
-    """Spacecraft distance upstream when the file has no distance column, km."""
-
-    step_min: float = 10.0
-    """Step of the estimate at the Earth, minutes."""
+    average_min: float = setting(
+        60.0, checks.number(10, 360, "minutes"), "minutes",
+        "trailing window over which the coupling is averaged. Newell et al. (2008) fitted "
+        "3-hourly Kp; a 60-minute window lets the estimate follow the last hour at the cost "
+        "of more scatter (assumption; 180 gives the 3-hour window of the index)")
+    model_kp_sd: float = setting(
+        0.8, checks.number(0, 3, "Kp"), "Kp",
+        "spread of Kp about the Newell et al. (2008) relation: fits of Kp to a coupling "
+        "function leave residuals of roughly 0.7-0.9 Kp (from memory)")
+    delay_sd_min: float = setting(
+        15.0, checks.number(0, 120, "minutes"), "minutes",
+        "uncertainty of the flat delay: errors of 15 min are common (Cash et al. 2016); the "
+        "flat delay is statistically as good as the OMNI delay (Case & Wild 2012)")
+    hand_back_min: float = setting(
+        60.0, checks.number(5, 720, "minutes"), "minutes",
+        "after the last measurement has arrived, the estimate's weight against the forecast "
+        "falls as exp(-age / hand_back_min) (assumption: activity forgets its driver within "
+        "about an hour once the driver is unknown)")
+    spacecraft_km: float = setting(
+        L1_DISTANCE_KM, checks.number(1.0e5, 3.0e6, "km"), "km",
+        "spacecraft distance upstream of the Earth when the file has no distance column "
+        "(L1, about 1.5 million km)")
+    step_min: float = setting(10.0, checks.number(1, 60, "minutes"), "minutes",
+                              "step of the estimate at the Earth")
 
 
-SETTING_LIMITS = {
-    "average_min": (10.0, 360.0, "min"),
-    "model_kp_sd": (0.0, 3.0, "Kp"),
-    "delay_sd_min": (0.0, 120.0, "min"),
-    "hand_back_min": (5.0, 720.0, "min"),
-    "spacecraft_km": (1.0e5, 3.0e6, "km"),
-    "step_min": (1.0, 60.0, "min"),
-}
-"""Allowed range and unit of each NowcastSettings field (common practice, no source)."""
+SPACECRAFT_KM_RANGE = (1.0e5, 3.0e6)
+"""Distances upstream accepted in a solar-wind file's distance column, km (the range of
+``NowcastSettings.spacecraft_km``)."""
 
 
 def clock_angle_deg(by_nt, bz_nt):

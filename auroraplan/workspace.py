@@ -1253,7 +1253,7 @@ def load_solarwind(path) -> SolarWindFile:
     has_distance = "distance_km" in header
     distance = arr["distance_km"] if has_distance else None
     if distance is not None:
-        low, high, _unit = solarwind.SETTING_LIMITS["spacecraft_km"]
+        low, high = solarwind.SPACECRAFT_KM_RANGE
         bad = ~np.isnan(distance) & ((distance < low) | (distance > high))
         for i in np.flatnonzero(bad & good):
             reasons[i] = "spike in distance_km"
