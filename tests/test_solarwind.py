@@ -213,3 +213,77 @@ def test_operator_toml_nowcast_table_reaches_the_estimate(tmp_path):
     default = report.solar_wind_estimate(solar_wind_for(ws))
     assert cast.settings.average_min == 180
     assert cast.latest_kp < default.latest_kp  # the longer window still holds quiet hours
+
+
+
+# --- the file -------------------------------------------------------------------------------
+
+
+def _write(tmp_path, text):
+    path = tmp_path / "solarwind.csv"
+    path.write_text(text, encoding="utf-8")
+    return path
+
+
+HEADER = "time_utc,by_gsm_nt,bz_gsm_nt,speed_km_s,density_cm3\n"
+
+
+def test_file_rows_are_sorted_and_gaps_and_spikes_reported(tmp_path):
+    from auroraplan.workspace import load_solarwind
+
+    path = _write(tmp_path, HEADER + "2027-02-03T18:02Z,1,-2,450,5\n"
+                  "2027-02-03T18:00Z,1,-2,450,5\n"
+                  "2027-02-03T18:01Z,1,-9999.9,450,5\n"
+                  "2027-02-03T18:03Z,1,-2,,5\n"
+                  "2027-02-03T18:04Z,1,-2,99,5\n")
+    got = load_solarwind(path)
+    assert got.rows == 5
+    assert got.times_utc.astype(str).tolist() == ["2027-02-03T18:00:00", "2027-02-03T18:02:00"]
+    assert [line.split(": not used ")[1] for line in got.left_out] == [
+        "(gap in bz_gsm_nt)", "(gap in speed_km_s)", "(spike in speed_km_s)"]
+    assert "line 4" in got.left_out[0]
+
+
+@pytest.mark.parametrize("row, fragment", [
+    ("2027-02-03 six pm,1,-2,450,5", "line 2, time_utc"),
+    ("2027-02-03T18:00Z,one,-2,450,5", "line 2, by_gsm_nt: 'one' is not a number"),
+    ("2027-02-03T18:00Z,1,-2,inf,5", "line 2, speed_km_s"),
+])
+def test_a_bad_row_is_one_line_naming_the_row_and_column(tmp_path, row, fragment):
+    from auroraplan.errors import InputError
+    from auroraplan.workspace import load_solarwind
+
+    with pytest.raises(InputError) as caught:
+        load_solarwind(_write(tmp_path, HEADER + row + "\n"))
+    assert len(caught.value.problems) == 1
+    assert fragment in caught.value.problems[0]
+
+
+def test_a_repeated_time_is_named_with_both_lines(tmp_path):
+    from auroraplan.errors import InputError
+    from auroraplan.workspace import load_solarwind
+
+    text = HEADER + "2027-02-03T18:00Z,1,-2,450,5\n2027-02-03T18:00Z,1,-2,450,5\n"
+    with pytest.raises(InputError, match="line 3, time_utc: .* also on line 2"):
+        load_solarwind(_write(tmp_path, text))
+
+
+def test_a_pause_in_the_measurements_is_reported(tmp_path):
+    from auroraplan.workspace import load_solarwind
+
+    rows = [f"2027-02-03T18:{m:02d}Z,1,-2,450,5" for m in (0, 1, 2, 3, 40, 41)]
+    got = load_solarwind(_write(tmp_path, HEADER + "\n".join(rows) + "\n"))
+    assert any("no usable measurement from 2027-02-03T18:03:00Z to 2027-02-03T18:40:00Z" in line
+               for line in got.left_out)
+
+
+def test_distance_column_moves_the_arrival(tmp_path):
+    from auroraplan.workspace import load_solarwind
+
+    text = ("time_utc,by_gsm_nt,bz_gsm_nt,speed_km_s,density_cm3,distance_km\n"
+            "2027-02-03T18:00Z,0,-5,500,5,1200000\n2027-02-03T18:01Z,0,-5,500,5,\n")
+    got = load_solarwind(_write(tmp_path, text))
+    assert got.distance_km.tolist() == [1.2e6, sw.L1_DISTANCE_KM]
+    cast = sw.estimate(got.times_utc, got.speed_km_s, got.density_cm3, got.by_nt, got.bz_nt,
+                       got.distance_km)
+    assert cast.delay_min == pytest.approx(sw.flat_delay_s(500.0, sw.L1_DISTANCE_KM) / 60)
