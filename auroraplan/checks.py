@@ -149,6 +149,34 @@ def paragraph(value):
     return printable(value.strip(), CONTROL_IN_NOTES_RE)
 
 
+MAX_NAME_CHARS = 80
+"""Longest name (operator, base, site, trip id, group): one line of a printed itinerary's
+heading and of a phone screen; a longer one is almost always a paste gone wrong
+(common practice, no source)."""
+
+MAX_NOTES_CHARS = 1000
+"""Longest site note: a paragraph for the guide (common practice, no source)."""
+
+
+def name(value):
+    """Checker: a name, :func:`text` of at most MAX_NAME_CHARS characters."""
+    value = text(value)
+    if len(value) > MAX_NAME_CHARS:
+        raise ValueError(f"is {len(value)} characters long; names may have at most "
+                         f"{MAX_NAME_CHARS}, shorten it")
+    return value
+
+
+def latitude_off_pole(value):
+    """Checker: a latitude from -90 to 90 but not a geographic pole, where every direction
+    is south (or north) and no compass direction to look can be given."""
+    lat = number(-90, 90, "degrees")(value)
+    if abs(lat) == 90:
+        raise ValueError(f"{lat:g} is a geographic pole, where no direction to look can be "
+                         "given; give a latitude between -89.999 and 89.999")
+    return lat
+
+
 def zone(value):
     """Checker: an IANA time-zone name such as Europe/Oslo."""
     text(value)

@@ -95,6 +95,8 @@ def workspace_inputs(folder) -> tuple[set[Path], set[Path]]:
 
 def _toml_texts(path: Path) -> list[str]:
     """Every text value in a TOML file (nested tables and lists too); [] if unreadable."""
+    if not path.is_file():  # never open a pipe or device: reading it could wait for ever
+        return []
     try:
         doc = tomllib.loads(path.read_text(encoding="utf-8-sig"))
     except (OSError, ValueError, UnicodeDecodeError, RecursionError):

@@ -51,6 +51,11 @@ class PrintSettings:
         12.0, checks.positive(240, "hours"), "hours",
         "a Kp forecast issued longer ago than this is called old (forecast centres reissue "
         "the 3-day Kp forecast at least twice a day, from memory)")
+    font: str | None = setting(
+        None, checks.text, "file", "a TrueType font for the printed itinerary, relative to "
+        "the workspace, for scripts the bundled DejaVu Sans lacks (auroraplan.pdffonts)")
+    font_bold: str | None = setting(None, checks.text, "file",
+                                    "its bold face (optional; else the same font)")
 
 
 @dataclass(frozen=True)

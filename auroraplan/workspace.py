@@ -8,6 +8,7 @@ import datetime as dt
 import io
 import json
 import math
+import os
 import tomllib
 import zoneinfo
 from dataclasses import dataclass, field
@@ -237,9 +238,11 @@ def _read_csv_rows(text: str, label: str, role: str, problems: ProblemList):
             problems.add(f"{label} line 1: column {col} appears twice; keep one")
         seen.add(col)
     rows = []
+    line = end = reader.line_num
     try:
         for fields in reader:
-            line = reader.line_num
+            # A quoted value may span lines: a record is named by the line it starts on.
+            line, end = end + 1, reader.line_num
             if not any(f.strip() for f in fields):
                 continue
             if len(fields) > len(header):
@@ -251,7 +254,7 @@ def _read_csv_rows(text: str, label: str, role: str, problems: ProblemList):
             fields = fields + [""] * (len(header) - len(fields))
             rows.append((line, dict(zip(header, fields, strict=True))))
     except csv.Error as exc:
-        problems.add(f"{label} line {reader.line_num}: cannot be read as CSV ({exc})")
+        problems.add(f"{label} line {end + 1}: cannot be read as CSV ({exc})")
     return rows
 
 
@@ -274,12 +277,12 @@ _TRIP_DATE = checks.date_within(*TRIP_DATES)
 OPERATOR_SCHEMA = {
     # table: {key: (checker, required)}; the stage tables are in auroraplan.settings.TABLES
     "base": {
-        "name": (checks.text, True),
-        "lat": (checks.number(-90, 90, "degrees"), True),
+        "name": (checks.name, True),
+        "lat": (checks.latitude_off_pole, True),
         "lon": (checks.number(-180, 180, "degrees"), True),
         "timezone": (checks.zone, True),
     },
-    "operator": {"name": (checks.text, False)},
+    "operator": {"name": (checks.name, False)},
     # vehicles: a count, or a list of {name, seats, unavailable}; seats: the default seats
     # per vehicle (without it a vehicle takes one group); guides: a count or a list of
     # {name, unavailable}. See _fleet_record.
@@ -573,6 +576,9 @@ def _notes(value):
         return ""
     if not isinstance(value, str):
         raise ValueError("must be text")
+    if len(value) > checks.MAX_NOTES_CHARS:
+        raise ValueError(f"is {len(value)} characters long; notes may have at most "
+                         f"{checks.MAX_NOTES_CHARS}, shorten them")
     return checks.printable(value.replace("\r\n", "\n").replace("\r", "\n"), checks.CONTROL_IN_NOTES_RE)
 
 
@@ -661,13 +667,13 @@ def _site_from_feature(i, feature, label, problems: ProblemList) -> Site | None:
     name = props.get("name")
     where = f"{label} feature {i}" + (f" {checks.quote(name)}" if isinstance(name, str) else "")
     before = len(problems)
-    name = _check_field(problems, where, "name", checks.text, name)
+    name = _check_field(problems, where, "name", checks.name, name)
     coords = _check_field(problems, where, "geometry", _point, feature.get("geometry"))
     lon = lat = None
     height = 0.0
     if coords is not None:
         lon = _check_field(problems, where, "longitude", checks.number(-180, 180, "degrees"), coords[0])
-        lat = _check_field(problems, where, "latitude", checks.number(-90, 90, "degrees"), coords[1])
+        lat = _check_field(problems, where, "latitude", checks.latitude_off_pole, coords[1])
         if len(coords) == 3:
             height = _check_field(problems, where, "height_m",
                                   checks.number(*SITE_LIMITS["height_m"]), coords[2])
@@ -759,8 +765,8 @@ def _blocked(text):
 def _trip_from_row(line, row, label, largest, problems: ProblemList) -> Trip | None:
     where = f"{label} line {line}"
     before = len(problems)
-    trip = _check_field(problems, where, "trip", checks.text, row["trip"])
-    group = _check_field(problems, where, "group", checks.text, row["group"])
+    trip = _check_field(problems, where, "trip", checks.name, row["trip"])
+    group = _check_field(problems, where, "group", checks.name, row["group"])
     high = largest[0] if largest else 1000
     guests = _check_field(problems, where, "guests", checks.cell_whole(1, 1000, "guests"), row["guests"])
     if guests is not None and largest and guests > largest[0]:
@@ -998,6 +1004,15 @@ def _clouds_frame(names, times, clouds):
 
 def _folder(path) -> Path:
     folder = Path(path).expanduser()
+    try:
+        folder.stat()
+        if folder.is_dir():
+            os.listdir(folder)
+    except PermissionError:
+        raise InputError(f"{folder}: the folder cannot be read (permission denied); "
+                         "give yourself read access to it (chmod u+rx)") from None
+    except OSError:
+        pass  # missing: said below
     if not folder.exists():
         raise InputError(
             f"{folder}: folder not found; give the workspace folder that holds "
@@ -1013,6 +1028,13 @@ def _folder(path) -> Path:
 def _find_files(folder: Path) -> tuple[dict, list]:
     """Role -> path of the files present, and the problems for required ones missing."""
     found, missing = {}, []
+    for role in ("operator", "trips", "activity", "clouds", "sites", "sites_gpkg"):
+        candidate = folder / FILE_NAMES[role]
+        if os.path.lexists(candidate) and not candidate.is_file():
+            kind = "a folder" if candidate.is_dir() else "not a regular file (a pipe, device or broken link)"
+            missing.append(f"{candidate}: is {kind}; {FILE_NAMES[role]} must be a file")
+    if missing:
+        return found, missing
     for role in ("operator", "trips", "activity", "clouds"):
         candidate = folder / FILE_NAMES[role]
         if candidate.is_file():

@@ -227,6 +227,14 @@ def test_the_corpus_has_at_least_40_rejecting_cases_and_each_says_where():
         assert case.get("says"), name
 
 
+def test_the_readme_states_the_corpus_size():
+    readme = (REPO / "README.md").read_text(encoding="utf-8")
+    accepting = sum(1 for name in CASES if "accept" in read_case(name))
+    stated = " ".join(readme.split())
+    assert (f"holds {len(CASES)} cases: {len(CASES) - accepting} rejected with one line and "
+            f"{accepting} odd but valid inputs") in stated
+
+
 def test_the_corpus_touches_every_file_and_many_commands():
     touched = set()
     commands = set()

@@ -97,10 +97,44 @@ def test_unknown_trip_or_paper_is_one_clear_line(week):
         itinerary_pdf(week, "T-0325", paper="A3")
 
 
-def test_characters_outside_the_standard_fonts_are_folded():
-    # Sámi letters such as Č, Ŋ, Đ, Ŧ are not in WinAnsi (cp1252); á, ø, å, ä, ° and – are.
-    assert printable("Čázádat − Ŋiŋgu Đ ŧ ø å ä ° –") == "Cázádat - Ningu D t ø å ä ° –"
-    assert printable("北 ★") == "? ?"
+def test_names_are_printed_as_written_never_folded():
+    # Sámi letters (Č, Ŋ, Đ, Ŧ) and a decomposed é are kept, composed (Unicode NFC).
+    assert printable("Čázádat − Ŋiŋgu Đ ŧ ø å ä ° –") == "Čázádat − Ŋiŋgu Đ ŧ ø å ä ° –"
+    assert printable("Cafe\u0301") == "Café"
+
+
+@pytest.mark.parametrize("group", ["Группа Иванова", "Ομάδα Παπαδόπουλου", "Čáhppesjávri ŋ"])
+def test_greek_and_cyrillic_groups_are_printed_in_the_text_and_title(week, group, tmp_path):
+    report = json.loads(json.dumps(week))
+    report["trips"][-1]["group"] = group
+    path = tmp_path / "it.pdf"
+    path.write_bytes(itinerary_pdf(report, report["trips"][-1]["trip"]))
+    reader = PdfReader(path)
+    assert group in _flat(reader.pages[0].extract_text())
+    assert reader.metadata.title == f"Aurora evenings: {group}"
+    embedded = {str(ref.get_object()["/BaseFont"]).split("+")[-1]
+                for page in reader.pages for ref in page["/Resources"]["/Font"].values()}
+    assert {"DejaVuSans", "DejaVuSans-Bold"} <= embedded, embedded
+
+
+def test_a_script_the_font_lacks_is_one_line_naming_the_characters(week):
+    report = json.loads(json.dumps(week))
+    report["trips"][-1]["group"] = "张伟 family"
+    with pytest.raises(InputError) as err:
+        itinerary_pdf(report, report["trips"][-1]["trip"])
+    (line,) = err.value.problems
+    assert "张 (U+5F20), 伟 (U+4F1F)" in line and "group" in line
+    assert '[print] font = "FILE.ttf"' in line
+
+
+def test_the_operator_names_the_font(week):
+    from auroraplan.pdffonts import dejavu_folder, pdf_fonts
+
+    # DejaVu Serif stands in for an operator's own TrueType font.
+    serif = pdf_fonts(dejavu_folder() / "DejaVuSerif.ttf", dejavu_folder() / "DejaVuSerif-Bold.ttf")
+    assert serif.label == "DejaVuSerif.ttf" and serif.missing("Группа Ω") == []
+    pdf = itinerary_pdf(week, "T-0327", fonts=serif)
+    assert b"DejaVuSerif" in pdf or b"auroraplan" in pdf
 
 
 @pytest.mark.skipif(shutil.which("pdftoppm") is None, reason="poppler-utils not installed")

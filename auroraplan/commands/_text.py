@@ -16,17 +16,19 @@ def span(start_iso: str | None, end_iso: str | None) -> str:
 def print_notes(out, result) -> bool:
     """Print a report's notes under its heading; False when every site is closed (nothing
     follows then, only that one line)."""
+    from auroraplan.escape import markup as m
+
     for assumed in result.get("what_if") or []:
-        out.print(f"[bold magenta]what-if:[/] {assumed} (this run only; nothing saved)")
+        out.print(f"[bold magenta]what-if:[/] {m(assumed)} (this run only; nothing saved)")
     if result.get("closed_note"):
-        out.print(f"[bold]{result['closed_note']}[/]", soft_wrap=True)
+        out.print(f"[bold]{m(result['closed_note'])}[/]", soft_wrap=True)
         return False
     if result.get("forecast"):
-        out.print(f"[dim]{result['forecast']['note']}[/]")
+        out.print(f"[dim]{m(result['forecast']['note'])}[/]")
     if result.get("cloud_note"):
-        out.print(f"[dim]{result['cloud_note']}[/]", soft_wrap=True)
+        out.print(f"[dim]{m(result['cloud_note'])}[/]", soft_wrap=True)
     if result.get("darkness_note"):
-        out.print(f"[bold]{result['darkness_note']}[/]", soft_wrap=True)
+        out.print(f"[bold]{m(result['darkness_note'])}[/]", soft_wrap=True)
     return True
 
 

@@ -97,13 +97,15 @@ def _show(report) -> None:
 
     from rich.table import Table
 
+    from auroraplan.escape import markup
+
     zone = zoneinfo.ZoneInfo(report["timezone"])
 
     def local(t):
         return t.astimezone(zone).strftime("%a %Y-%m-%d %H:%M %Z")
 
     out = console()
-    where = f" at {report['base']}" if "base" in report else ""
+    where = f" at {markup(report['base'])}" if "base" in report else ""
     out.print(
         f"CME at 20 solar radii {local(report['launch'])}, {report['speed_km_s']:g} km/s{where}"
     )

@@ -66,8 +66,9 @@ def run(args):
     else:
         targets = {trips[0].trip: check_output_path(args.pdf, protected)}
 
+    fonts = itinerary_fonts(ws, trips)  # before the work: every name can be printed
     with working(f"Planning and laying out {len(trips)} itinerar{'y' if len(trips) == 1 else 'ies'}"):
-        pdfs = _render_all(ws, trips, PAPERS[args.paper], args)
+        pdfs = _render_all(ws, trips, PAPERS[args.paper], args, fonts)
     # Written as a set once every PDF is made: all of them or none.
     for path in write_files({path: pdfs[trip_id] for trip_id, path in targets.items()}):
         print(f"wrote {path}")
@@ -95,7 +96,16 @@ def _all_targets(folder, trips, protected):
     return {trip_id: check_output_path(folder / name, protected) for trip_id, name in names.items()}
 
 
-def _render_all(ws, trips, paper, args):
+def itinerary_fonts(ws, trips):
+    """The fonts for the itineraries of ``trips``, after checking they print every name."""
+    from auroraplan.pdffonts import check_coverage, itinerary_texts, pdf_fonts, workspace_font
+
+    fonts = pdf_fonts(*workspace_font(ws))
+    check_coverage(fonts, itinerary_texts(ws, trips))
+    return fonts
+
+
+def _render_all(ws, trips, paper, args, fonts=None):
     """One PDF per trip, all from the plan of record over every booked stay, so that the
     itineraries agree with each other, with `week` and with the fleet."""
     from auroraplan.commands._common import open_record
@@ -107,5 +117,5 @@ def _render_all(ws, trips, paper, args):
     pdfs = {}
     for trip in trips:
         pdfs[trip.trip] = itinerary_pdf(report, trip.trip, paper=paper,
-                                       operator_settings=ws.settings)
+                                       operator_settings=ws.settings, fonts=fonts)
     return pdfs

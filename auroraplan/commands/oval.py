@@ -55,7 +55,7 @@ def run(args):
     else:
         _print_table(report)
         if png_path is not None:
-            console().print(f"chart written: {png_path}")
+            print(f"chart written: {png_path}")
     return 0
 
 

@@ -74,9 +74,11 @@ def print_season(result):
     from auroraplan.commands._common import console
     from auroraplan.commands._common import table as new_table
     from auroraplan.commands._text import chance_cell, print_notes
+    from auroraplan.escape import markup as m
 
     out = console()
-    out.print(f"[bold]Season outlook[/] · {result['base']['name']} · {result['from']} to {result['to']}")
+    out.print(f"[bold]Season outlook[/] · {m(result['base']['name'])} · "
+              f"{result['from']} to {result['to']}")
     if not print_notes(out, result):
         return
     out.print(f"[dim]{result['method']}[/]")

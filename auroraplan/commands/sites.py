@@ -102,6 +102,8 @@ def run(args):
 def _print_table(report: dict) -> None:
     from rich.table import Table
 
+    from auroraplan.escape import markup
+
     def kp(v):
         return "not by 9" if v is None else f"{v:.1f}"
 
@@ -114,7 +116,7 @@ def _print_table(report: dict) -> None:
     for r in report["sites"]:
         look = "—" if r["look_azimuth"] is None else f"{r['look_compass']} {r['look_azimuth']:.0f}°"
         clock = r["best_local_time"][11:16] if r["best_local_time"] else "—"
-        name = f"{r['name']} (closed)" if r["closed"] else r["name"]
+        name = markup(f"{r['name']} (closed)" if r["closed"] else r["name"])
         horizon = kp(r["kp_needed_horizon"])
         if r.get("kp_lost_horizon") is not None:
             horizon += f" (gone at {r['kp_lost_horizon']:.1f})"

@@ -212,6 +212,7 @@ STACK_BELOW = 60
 
 def _cells(s) -> dict:
     from auroraplan.commands._text import chance_cell, span
+    from auroraplan.escape import markup
 
     look = "—"
     if s.get("overhead"):
@@ -221,7 +222,7 @@ def _cells(s) -> dict:
         if s.get("look_elevation") is not None:
             look += f", {s['look_elevation']:.0f}° up"
     return {
-        "#": str(s["rank"]), "site": s["name"], "chance": chance_cell(s["chance"]),
+        "#": str(s["rank"]), "site": markup(s["name"]), "chance": chance_cell(s["chance"]),
         "window": span(s["window_start"], s["window_end"]) if s["window_start"] else "—",
         "drive": f"{s['drive_min']:.0f}′", "look": look, "limit": s["limiting"] or "—",
         "cloud": cloud_cell(s),
@@ -269,11 +270,12 @@ def print_tonight(result):
     """The shortlist as a terminal table, or one block per site on a narrow terminal."""
     from auroraplan.commands._common import console
     from auroraplan.commands._text import print_notes, span
+    from auroraplan.escape import markup as m
 
     out = console()
     dark = (f"dark {span(result['dark_start'], result['dark_end'])}"
             if result["dark_start"] else "no darkness")
-    out.print(f"[bold]Night of {result['date']}[/] · {result['base']['name']} · {dark} "
+    out.print(f"[bold]Night of {result['date']}[/] · {m(result['base']['name'])} · {dark} "
               f"({result['darkness_level']}) · moon {100 * result['moon_illumination']:.0f}% lit · "
               f"times in {result['base']['timezone']}")
     if not print_notes(out, result):
@@ -291,7 +293,7 @@ def print_tonight(result):
         out.print(_table(columns, rows))
     out.print(f"[dim]{result['notice']}[/]")
     for w in result.get("warnings", []):
-        out.print(f"[yellow]note:[/] {w}")
+        out.print(f"[yellow]note:[/] {m(w)}")
 
 
 def print_nowcast(out, nowcast):

@@ -113,9 +113,16 @@ def _write_all(outputs, payloads):
 
 
 def week_csv(result) -> str:
-    """Ranked nights × sites per trip as CSV (one row per trip, night and ranked site)."""
+    """Ranked nights × sites per trip as CSV (one row per trip, night and ranked site).
+
+    A trip id or site name that a spreadsheet would read as a formula (starting with
+    ``=``, ``+``, ``-``, ``@``) is written with a leading single quote
+    (``auroraplan.escape.spreadsheet_cell``).
+    """
     import csv
     import io
+
+    from auroraplan.escape import spreadsheet_cell as cell
 
     buf = io.StringIO()
     w = csv.writer(buf, lineterminator="\n")
@@ -124,7 +131,7 @@ def week_csv(result) -> str:
     for trip in result["trips"]:
         for night in trip["nights"]:
             for rank, item in enumerate(night["ranked"], start=1):
-                w.writerow([trip["trip"], night["date"], rank, item["site"], item["chance"],
+                w.writerow([cell(trip["trip"]), night["date"], rank, cell(item["site"]), item["chance"],
                             night["kind"], int(night["blocked"]),
                             int((trip["trip"], night["date"], item["site"]) in planned)])
     return buf.getvalue()
@@ -142,9 +149,10 @@ def print_week(result):
         short_date,
         span,
     )
+    from auroraplan.escape import markup as m
 
     out = console()
-    out.print(f"[bold]{result['operator']}[/] · base {result['base']['name']} · "
+    out.print(f"[bold]{m(result['operator'])}[/] · base {m(result['base']['name'])} · "
               f"nights from {result['start']} ({result['nights']}) · "
               f"times in {result['base']['timezone']}")
     if not print_notes(out, result):
@@ -152,7 +160,7 @@ def print_week(result):
     planned = {(p["trip"], p["date"]): p for p in result["plan"]}
     away = [t["trip"] for t in result["trips"] if not t["nights"]]
     for trip in (t for t in result["trips"] if t["nights"]):
-        table = new_table(title=f"{trip['trip']} · {trip['group']} · {trip['guests']} guests · "
+        table = new_table(title=f"{m(trip['trip'])} · {m(trip['group'])} · {trip['guests']} guests · "
                             f"{trip['outings']} outings wanted")
         table.add_column("night", no_wrap=True)
         table.add_column("best site")
@@ -164,24 +172,24 @@ def print_week(result):
             p = planned.get((trip["trip"], night["date"]))
             table.add_row(
                 short_date(night["date"]) + kind_mark(night["kind"]),
-                night["site"] or "—",
+                m(night["site"] or "—"),
                 chance_cell(night["chance"]),
                 span(night['window_start'], night['window_end'])
                 if night["window_start"] else "—",
                 night["limiting"] or "—",
-                "blocked" if night["blocked"] else (f"→ {p['site']}" if p else ""),
+                "blocked" if night["blocked"] else (f"→ {m(p['site'])}" if p else ""),
             )
         out.print(table)
     if away:
-        out.print(f"[dim]No nights of their stay in these dates: {', '.join(away)}[/]")
+        out.print(f"[dim]No nights of their stay in these dates: {m(', '.join(away))}[/]")
     plan = new_table(title="Excursion plan")
     for col in ("night", "trip", "site", "chance", "pick-up", "return", "backup"):
         plan.add_column(col, no_wrap=col in ("night", "chance", "pick-up", "return"))
     plan.add_column("state", no_wrap=True)
     for p in sorted(result["plan"], key=lambda p: (p["date"], p["trip"])):
-        plan.add_row(short_date(p["date"]) + kind_mark(p["kind"]), p["trip"], p["site"], chance_cell(p["chance"]),
-                     clock(p["pickup"]), clock(p["return"]), p["backup"] or "—",
-                     p.get("state") or "proposed")
+        plan.add_row(short_date(p["date"]) + kind_mark(p["kind"]), m(p["trip"]), m(p["site"]),
+                     chance_cell(p["chance"]), clock(p["pickup"]), clock(p["return"]),
+                     m(p["backup"] or "—"), p.get("state") or "proposed")
     out.print(plan if result["plan"] else "[bold]No outings planned[/] for these dates.")
     if result.get("solver"):
         out.print(solver_line(result["solver"]))
@@ -190,27 +198,28 @@ def print_week(result):
     print_record(out, result)
     for w in result.get("warnings", []):
         label = "[bold yellow]short:[/]" if w.get("trip") else "[yellow]note:[/]"
-        out.print(f"{label} {w['message']}")
+        out.print(f"{label} {m(w['message'])}")
 
 
 def print_record(out, result):
     """The what-ifs in force, the changes against the plan of record, and where it is kept."""
     from auroraplan.commands._text import short_date
+    from auroraplan.escape import markup as m
 
     changes = result.get("changes", [])
     if changes:
         out.print("[bold]Changes against the plan of record[/]")
     first = [c["trip"] for c in changes if c["reasons"] == ["first plan for this trip"]]
     if first:
-        out.print(f"  first plan for {', '.join(dict.fromkeys(first))}")
+        out.print(f"  first plan for {m(', '.join(dict.fromkeys(first)))}")
     for c in (c for c in changes if c["trip"] not in first):
         old = f"{short_date(c['from_night'])} {c['from_site']}" if c["from_night"] else ""
         new = f"{short_date(c['to_night'])} {c['to_site']}" if c["to_night"] else ""
         what = {"moved": f"{old} → {new}", "added": new, "dropped": old}[c["change"]]
-        out.print(f"  {c['trip']} {c['change']}: {what} ({'; '.join(c['reasons'])})")
+        out.print(m(f"  {c['trip']} {c['change']}: {what} ({'; '.join(c['reasons'])})"))
     rec = result.get("record") or {}
     if rec.get("saved"):
-        out.print(f"[dim]Saved as proposal {rec['plan_id']} in {rec['database']}; confirm "
+        out.print(f"[dim]Saved as proposal {rec['plan_id']} in {m(rec['database'])}; confirm "
                   "outings with: auroraplan confirm WORKSPACE [--trip ID] [--night DATE][/]")
 
 

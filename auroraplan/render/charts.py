@@ -27,6 +27,7 @@ SIZE_PX = {
 EARTH_RADIUS_KM = 6371.0  # mean radius, IUGG (Moritz 2000, Geodetic Reference System 1980)
 
 RC = {
+    "text.parse_math": False,  # names are user text: "$5 day, $2 night" is not mathematics
     "font.family": "DejaVu Sans",
     "font.size": 12,
     "axes.edgecolor": style.SLATE,

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import dataclasses
 import io
 import unicodedata
 from xml.sax.saxutils import escape
@@ -22,32 +23,21 @@ KIT_LIST = [
     "A thermos with a hot drink, and a snack",
 ]
 
-# Characters the standard PDF fonts (WinAnsi encoding) cannot show, with plain stand-ins:
-# typographic signs, and the Northern Sámi letters that have no Unicode decomposition.
-STAND_INS = {"\u2212": "-", "\u2009": " ", "\u202f": " ", "\u2192": "->", "\u2264": "<=",
-             "\u2265": ">=", "Ŋ": "N", "ŋ": "n", "Đ": "D", "đ": "d", "Ŧ": "T", "ŧ": "t"}
+NOT_PRINTED = ("language", "font", "font_bold")
+"""Settings of [print] that are not text on the page (checked elsewhere, if at all)."""
 
 
 def printable(text) -> str:
-    """Text the standard PDF fonts can show: WinAnsi (cp1252) characters kept, others folded.
+    """Text as it is printed: composed (Unicode NFC), never folded or replaced.
 
-    Letters outside cp1252 (for example Sámi ŋ or ŧ) lose their accents by Unicode
-    decomposition; anything still outside becomes "?".
+    The embedded font (``auroraplan.pdffonts``) is checked to hold every character of
+    the operator's names before the PDF is laid out.
     """
-    out = []
-    for ch in "" if text is None else str(text):
-        ch = STAND_INS.get(ch, ch)
-        try:
-            ch.encode("cp1252")
-        except UnicodeEncodeError:
-            base = unicodedata.normalize("NFKD", ch).encode("cp1252", "ignore").decode("cp1252")
-            ch = base or "?"
-        out.append(ch)
-    return "".join(out)
+    return unicodedata.normalize("NFC", "" if text is None else str(text))
 
 
 def _p(text) -> str:
-    """Escape text for a reportlab Paragraph after folding it to printable characters."""
+    """Escape text for a reportlab Paragraph."""
     return escape(printable(text))
 
 
@@ -55,27 +45,48 @@ def _day(date_text: str, w: Words | None = None) -> str:
     return (w or Words()).short_date(date_text)
 
 
-def _styles():
+def _styles(fonts):
     from reportlab.lib import colors
     from reportlab.lib.styles import ParagraphStyle
 
     ink, slate = colors.HexColor(style.INK), colors.HexColor(style.SLATE)
     amber = colors.HexColor(style.AMBER_INK)
-    body = ParagraphStyle("body", fontName="Helvetica", fontSize=9.5, leading=12.5,
-                          textColor=ink)
+    body = ParagraphStyle("body", fontName=fonts.regular, fontSize=9.5, leading=12.5,
+                          textColor=ink, bulletFontName=fonts.regular)
     return {
-        "title": ParagraphStyle("title", parent=body, fontName="Helvetica-Bold", fontSize=18,
+        "title": ParagraphStyle("title", parent=body, fontName=fonts.bold, fontSize=18,
                                 leading=22, spaceAfter=2),
         "sub": ParagraphStyle("sub", parent=body, textColor=slate, fontSize=10, leading=13),
-        "h2": ParagraphStyle("h2", parent=body, fontName="Helvetica-Bold", fontSize=11.5,
+        "h2": ParagraphStyle("h2", parent=body, fontName=fonts.bold, fontSize=11.5,
                              leading=15, spaceBefore=10, spaceAfter=3, textColor=amber),
         "body": body,
         "cell": ParagraphStyle("cell", parent=body, fontSize=9, leading=11),
-        "cellb": ParagraphStyle("cellb", parent=body, fontName="Helvetica-Bold", fontSize=9,
+        "cellb": ParagraphStyle("cellb", parent=body, fontName=fonts.bold, fontSize=9,
                                 leading=11),
         "small": ParagraphStyle("small", parent=body, fontSize=8, leading=10, textColor=slate),
         "bullet": ParagraphStyle("bullet", parent=body, leftIndent=12, bulletIndent=2),
     }
+
+
+def _names(report: dict, trip: dict, settings=None) -> dict:
+    """The operator's texts this itinerary prints, by where they come from."""
+    where = f"trips.csv trip {trip['trip']!r}"
+    names = {"operator.toml, operator name": report.get("operator", ""),
+             "operator.toml, base name": (report.get("base") or {}).get("name", ""),
+             f"{where}, trip": trip["trip"], f"{where}, group": trip.get("group", "")}
+    for p in report.get("plan", []):
+        if str(p["trip"]) == str(trip["trip"]):
+            for key in ("site", "backup"):
+                if p.get(key):
+                    names[f"sites.geojson, site {p[key]!r}"] = p[key]
+    for table in ("contact", "print"):
+        record = getattr(settings, table, None)
+        if record is None:
+            continue
+        for key, value in dataclasses.asdict(record).items():
+            if isinstance(value, str) and key not in NOT_PRINTED:
+                names[f"operator.toml [{table}] {key}"] = value
+    return names
 
 
 def _night_rows(report: dict, trip: dict, st: dict, w: Words) -> list:
@@ -177,12 +188,12 @@ def _contact_lines(contact, w: Words) -> list[tuple[str, str]]:
     return rows
 
 
-def _footer(report: dict, trip: dict, w: Words):
+def _footer(report: dict, trip: dict, w: Words, fonts):
     def draw(canvas, doc):
         from reportlab.lib import colors
 
         canvas.saveState()
-        canvas.setFont("Helvetica", 7.5)
+        canvas.setFont(fonts.regular, 7.5)
         canvas.setFillColor(colors.HexColor(style.SLATE))
         text = printable(w("{operator} · trip {trip} · page {page} · chances are forecasts, "
                            "not promises", operator=report.get("operator", ""),
@@ -194,7 +205,7 @@ def _footer(report: dict, trip: dict, w: Words):
 
 
 def itinerary_pdf(report: dict, trip_id: str, paper: str = "A4",
-                  operator_settings=None) -> bytes:
+                  operator_settings=None, fonts=None) -> bytes:
     """Render one trip of a ``week`` report as a printable PDF itinerary.
 
     Parameters
@@ -209,17 +220,19 @@ def itinerary_pdf(report: dict, trip_id: str, paper: str = "A4",
         The workspace's settings: ``contact`` (meeting point, phone, emergency) and
         ``[print]`` (language, cloudy-night policy, chance meaning). Entries not given are
         left out.
+    fonts : auroraplan.pdffonts.PdfFonts or None
+        The fonts to embed (``pdffonts.pdf_fonts``); None for DejaVu Sans.
 
     Returns
     -------
     bytes
-        A PDF made with reportlab's standard Helvetica fonts (WinAnsi encoding), so it
-        embeds nothing and prints anywhere.
+        A PDF with the fonts embedded (only the glyphs used), so it prints anywhere.
 
     Raises
     ------
     auroraplan.errors.InputError
-        When the trip is not in the report or the paper size is unknown.
+        When the trip is not in the report, the paper size is unknown, or a name holds
+        characters the fonts cannot print (one line naming them; never "?").
     """
     from reportlab.lib.units import mm
     from reportlab.platypus import Paragraph, SimpleDocTemplate, Spacer
@@ -234,10 +247,13 @@ def itinerary_pdf(report: dict, trip_id: str, paper: str = "A4",
     size = PAPER_PT.get(str(paper).lower())
     if size is None:
         raise InputError(f"paper {paper!r} is not known; choose A4 or Letter")
+    from auroraplan.pdffonts import check_coverage, pdf_fonts
     from auroraplan.runsheet import find_trip
 
     trip = find_trip(report, trip_id)
-    st = _styles()
+    fonts = fonts or pdf_fonts()
+    check_coverage(fonts, _names(report, trip, operator_settings))
+    st = _styles(fonts)
     buf = io.BytesIO()
     doc = SimpleDocTemplate(
         buf, pagesize=size, leftMargin=18 * mm, rightMargin=18 * mm, topMargin=16 * mm,
@@ -289,6 +305,6 @@ def itinerary_pdf(report: dict, trip_id: str, paper: str = "A4",
         Spacer(1, 3),
         Paragraph(_p(_made_line(report, w)), st["small"]),
     ]
-    footer = _footer(report, trip, w)
+    footer = _footer(report, trip, w, fonts)
     doc.build(story, onFirstPage=footer, onLaterPages=footer)
     return buf.getvalue()
