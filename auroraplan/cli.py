@@ -29,6 +29,11 @@ COMMANDS = {
 }
 
 
+INPUT_OPTIONS = ("database", "weather", "logbook", "history")
+"""Options naming a file the command reads or keeps, refused as an output even before it
+exists (every other option naming an existing path is protected when it exists)."""
+
+
 class OneLineParser(argparse.ArgumentParser):
     """An argument parser whose errors are one line and exit code 2."""
 
@@ -146,6 +151,8 @@ def check_paths(args) -> None:
             folders.append((_option(dest), value))
         elif isinstance(value, str) and value and dest not in ("command",) and _exists(value):
             outfiles.protect(value)
+        elif isinstance(value, str) and value and dest in INPUT_OPTIONS:
+            outfiles.protect_missing(value)  # made by this run (a new database): still an input
     outfiles.check_distinct(files)
     for option, value in files:
         _with_option(option, value, outfiles.check_output_path)

@@ -136,6 +136,12 @@ def protect(*paths) -> None:
             _registered.update({_real(path), path.absolute()})
 
 
+def protect_missing(path) -> None:
+    """Register an input that may not exist yet (a database this run creates)."""
+    p = Path(path).expanduser()
+    _registered.update({_real(p), p.absolute()})
+
+
 def reset() -> None:
     """Forget the registered inputs and the written outputs (a new run in the same process)."""
     _registered.clear()
