@@ -29,7 +29,7 @@ COMMANDS = {
 }
 
 
-INPUT_OPTIONS = ("database", "weather", "logbook", "history")
+INPUT_OPTIONS = ("database", "weather", "logbook", "history", "solarwind")
 """Options naming a file the command reads or keeps, refused as an output even before it
 exists (every other option naming an existing path is protected when it exists)."""
 
