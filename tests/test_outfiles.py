@@ -179,3 +179,45 @@ def test_an_output_folder_may_not_be_the_workspace_or_inside_it(ws, tmp_path, ca
                      "--out", str(ws / "out")])
     assert code == 2 and "inside it" in capsys.readouterr().err
     assert not (ws / "out").exists()
+
+
+def test_publish_interrupted_leaves_the_earlier_outputs_as_they_were(ws, tmp_path, monkeypatch,
+                                                                      capsys):
+    out = tmp_path / "out"
+    out.mkdir()
+    earlier = {"index.html": "earlier index", "week.csv": "earlier week", "mine.txt": "mine"}
+    for name, text in earlier.items():
+        (out / name).write_text(text)
+
+    def interrupted(*args, **kwargs):
+        raise KeyboardInterrupt
+
+    monkeypatch.setattr("auroraplan.render.charts.week_heatmap_png", interrupted)
+    code = cli.main(["publish", str(ws), "--start", "2027-01-11", "--nights", "1",
+                     "--out", str(out)])
+    assert code == 130
+    assert capsys.readouterr().err.endswith("interrupted; no output was written\n")
+    assert {p.name: p.read_text() for p in out.iterdir()} == earlier
+
+
+def test_publish_disk_full_on_one_file_leaves_the_folder_as_it_was(ws, tmp_path, monkeypatch,
+                                                                     capsys):
+    out = tmp_path / "out"
+    out.mkdir()
+    (out / "index.html").write_text("earlier index")
+    real = outfiles._stage
+    staged = []
+
+    def stage(target, payload, shown, count):
+        if len(staged) == 3:
+            raise InputError(f"{shown}: cannot be written (the disk is full); none of the "
+                             "outputs was written; free some space or choose another folder")
+        staged.append(target)
+        return real(target, payload, shown, count)
+
+    monkeypatch.setattr(outfiles, "_stage", stage)
+    code = cli.main(["publish", str(ws), "--start", "2027-01-11", "--nights", "1",
+                     "--out", str(out)])
+    err = capsys.readouterr().err
+    assert code == 2 and "none of the outputs was written" in err
+    assert {p.name: p.read_text() for p in out.iterdir()} == {"index.html": "earlier index"}

@@ -20,7 +20,10 @@ def demo_workspace() -> Path:
 
 
 def add_arguments(parser):
-    parser.add_argument("--out", default="demo_out", help="output folder (default demo_out)")
+    from auroraplan.commands._common import output_folder
+
+    parser.add_argument("--out", default="demo_out", type=output_folder,
+                        help="output folder (default demo_out)")
 
 
 def run(args):
@@ -28,12 +31,14 @@ def run(args):
     from auroraplan.commands._progress import progress_bar
     from auroraplan.commands.publish import OutputSet, check_out_folder
     from auroraplan.errors import InputError
+    from auroraplan.outfiles import protect
     from auroraplan.workspace import load_workspace
 
     ws_path = demo_workspace()
     if not ws_path.is_dir():
         raise InputError(f"{ws_path}: the bundled demo workspace is missing; for your own "
                          "workspace use: auroraplan publish WORKSPACE --start DATE --out DIR")
+    protect(ws_path)
     ws = load_workspace(ws_path)
     out = check_out_folder(Path(args.out), ws)
     out.mkdir(parents=True, exist_ok=True)

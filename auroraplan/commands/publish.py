@@ -13,7 +13,7 @@ from __future__ import annotations
 import datetime as dt
 from pathlib import Path
 
-from auroraplan.commands._common import add_record_options
+from auroraplan.commands._common import add_record_options, output_folder
 
 # People first on the index page: pages, itineraries, charts; the data files last.
 KIND_ORDER = {".html": 0, ".pdf": 1, ".png": 2, ".ics": 3, ".csv": 4, ".json": 5}
@@ -23,7 +23,7 @@ def add_arguments(parser):
     from auroraplan.commands.week import add_week_arguments
 
     add_week_arguments(parser)
-    parser.add_argument("--out", required=True, metavar="DIR",
+    parser.add_argument("--out", required=True, metavar="DIR", type=output_folder,
                         help="folder for the outputs (made if missing; not the workspace)")
     add_record_options(parser, who=True)
     parser.add_argument("--no-record", action="store_true",
@@ -69,11 +69,10 @@ def check_out_folder(out: Path, ws) -> Path:
 
 
 def run_sheet_file_name(trip_id: str, date: str) -> str:
-    """run-sheet-<date>-<trip>.html with only [A-Za-z0-9._-] from the trip id."""
-    from auroraplan.commands.itinerary import itinerary_file_name
+    """run-sheet-<date>-<trip>.html, the trip id cleaned by ``auroraplan.names.safe_name``."""
+    from auroraplan.names import safe_name
 
-    safe = itinerary_file_name(trip_id)[len("itinerary-"):-len(".pdf")]
-    return f"run-sheet-{date}-{safe}.html"
+    return f"run-sheet-{date}-{safe_name(trip_id, 'trip')}.html"
 
 
 class OutputSet:
@@ -114,7 +113,13 @@ class OutputSet:
     def steps(self, start: dt.date, nights: int, plan=None) -> list:
         """The steps for a week of nights from ``start``; ``plan`` (a week report) is made
         from the plan of record when not given."""
+        from auroraplan.commands.itinerary import ITINERARY_FILE, itinerary_fonts
+        from auroraplan.names import file_names
+
         ws = self.ws
+        # Before any work: trip ids that would share a file, names no font can print.
+        file_names([t.trip for t in ws.trips], ITINERARY_FILE)
+        fonts = itinerary_fonts(ws, ws.trips)
 
         def week():
             from auroraplan import record
@@ -157,7 +162,8 @@ class OutputSet:
             week = self.state["week"]
             for trip in (t for t in week["trips"] if t["nights"]):
                 self.add(itinerary_file_name(trip["trip"]),
-                         itinerary_pdf(week, trip["trip"], operator_settings=ws.settings),
+                         itinerary_pdf(week, trip["trip"], operator_settings=ws.settings,
+                                       fonts=fonts),
                          f"Itinerary {trip['trip']}: {trip['group']}",
                          f"{trip['guests']} guests, {trip['arrive']} to {trip['depart']}")
 
@@ -178,17 +184,24 @@ class OutputSet:
         return [week, pages, itineraries, charts]
 
     def write(self, out: Path, title: str) -> None:
-        """Write every file, then the index page (each file whole or not at all)."""
-        from auroraplan.outfiles import write_bytes_atomic
+        """Write every file and the index page as one set (``outfiles.write_files``): all of
+        them are made beside their targets before any replaces an earlier file, so an
+        interrupt or a full disk leaves the folder as it was."""
+        from auroraplan.outfiles import write_files
         from auroraplan.render.index_page import index_html
         from auroraplan.report import made_at
 
         self.entries.sort(key=lambda e: KIND_ORDER.get(Path(e["href"]).suffix, 9))
         index = index_html(title, made_at(self.ws.operator.timezone), self.entries)
+        created = not out.exists()
         out.mkdir(parents=True, exist_ok=True)
-        for name, data in self.files.items():
-            write_bytes_atomic(out / name, data)
-        write_bytes_atomic(out / "index.html", index.encode("utf-8"))
+        try:
+            write_files({**{out / name: data for name, data in self.files.items()},
+                         out / "index.html": index})
+        except BaseException:
+            if created and not any(out.iterdir()):
+                out.rmdir()
+            raise
 
     def print_summary(self, out: Path, heading: str) -> None:
         print(f"{heading} written to {out.resolve()}/")
@@ -198,8 +211,6 @@ class OutputSet:
 
 
 def _json(obj) -> str:
-    import json
+    from auroraplan.commands._common import json_text
 
-    from auroraplan.commands._common import _json_default
-
-    return json.dumps(obj, indent=2, ensure_ascii=False, default=_json_default) + "\n"
+    return json_text(obj)
