@@ -29,7 +29,7 @@ def add_arguments(parser):
 def run(args):
     from auroraplan import store
     from auroraplan.commands._progress import progress_bar
-    from auroraplan.commands.publish import OutputSet, check_out_folder
+    from auroraplan.commands.publish import OutputSet, check_names, check_out_folder
     from auroraplan.errors import InputError
     from auroraplan.outfiles import protect
     from auroraplan.workspace import load_workspace
@@ -41,10 +41,12 @@ def run(args):
     protect(ws_path)
     ws = load_workspace(ws_path)
     out = check_out_folder(Path(args.out), ws)
+    fonts = check_names(ws)
     out.mkdir(parents=True, exist_ok=True)
     # The demo's plan of record lives in OUT, so the bundled folder stays as shipped.
     with store.open_store(out / store.DATABASE_NAME) as db:
         builder = OutputSet(ws, db, by="demo")
+        builder.fonts = fonts
         steps = builder.steps(DEMO_WEEK_START, 7) + demo_extras(builder)
         with progress_bar(len(steps), "Demo outputs") as bar:
             for step in steps:

@@ -38,11 +38,13 @@ def run(args):
 
     ws = load_workspace(args.workspace)
     out = check_out_folder(Path(args.out), ws)
+    fonts = check_names(ws)
     with open_record(args, ws, create=True) as db:
         from auroraplan.archive import recorder
 
         builder = OutputSet(ws, db, by=args.by,
                             keep=None if args.no_record else recorder(ws, "publish", db=db))
+        builder.fonts = fonts
         steps = builder.steps(args.start, args.nights)
         with progress_bar(len(steps), "Making the outputs") as bar:
             for step in steps:
@@ -75,6 +77,16 @@ def run_sheet_file_name(trip_id: str, date: str) -> str:
     return f"run-sheet-{date}-{safe_name(trip_id, 'trip')}.html"
 
 
+def check_names(ws):
+    """Before any work (and before the database is opened): refuse trip ids that would
+    share a file once cleaned, and names the itinerary fonts cannot print; return the fonts."""
+    from auroraplan.commands.itinerary import ITINERARY_FILE, itinerary_fonts
+    from auroraplan.names import file_names
+
+    file_names([t.trip for t in ws.trips], ITINERARY_FILE)
+    return itinerary_fonts(ws, ws.trips)
+
+
 class OutputSet:
     """The outputs of one run, made in memory (file name -> bytes) and written at the end.
 
@@ -89,6 +101,7 @@ class OutputSet:
         self.entries: list[dict] = []
         self.state: dict = {}
         self.tonight_reports: dict[str, dict] = {}
+        self.fonts = None
 
     def add(self, name: str, data: bytes | str, title: str, description: str = "") -> None:
         from auroraplan.errors import InputError
@@ -113,13 +126,8 @@ class OutputSet:
     def steps(self, start: dt.date, nights: int, plan=None) -> list:
         """The steps for a week of nights from ``start``; ``plan`` (a week report) is made
         from the plan of record when not given."""
-        from auroraplan.commands.itinerary import ITINERARY_FILE, itinerary_fonts
-        from auroraplan.names import file_names
-
         ws = self.ws
-        # Before any work: trip ids that would share a file, names no font can print.
-        file_names([t.trip for t in ws.trips], ITINERARY_FILE)
-        fonts = itinerary_fonts(ws, ws.trips)
+        fonts = self.fonts or check_names(ws)
 
         def week():
             from auroraplan import record
