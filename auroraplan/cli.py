@@ -144,7 +144,7 @@ def check_paths(args) -> None:
     from auroraplan.commands._common import OutputFile, OutputFolder
 
     files, folders = [], []
-    for dest, value in vars(args).items():
+    for dest, value in _flat_options(vars(args)):
         if isinstance(value, OutputFile):
             files.append((_option(dest), value))
         elif isinstance(value, OutputFolder):
@@ -158,6 +158,13 @@ def check_paths(args) -> None:
         _with_option(option, value, outfiles.check_output_path)
     for option, value in folders:
         _with_option(option, value, outfiles.check_output_folder)
+
+
+def _flat_options(options: dict):
+    """(dest, value) pairs, a repeatable option's values one by one (``--weather A --weather B``)."""
+    for dest, value in options.items():
+        for item in value if isinstance(value, list) else [value]:
+            yield dest, item
 
 
 def _option(dest: str) -> str:
