@@ -10,11 +10,11 @@ $(BIN)/python:
 	$(PYTHON) -m venv $(VENV)
 	$(BIN)/python -m pip install -q --upgrade pip
 
-$(VENV)/.run-installed: pyproject.toml | $(BIN)/python
+$(VENV)/.run-installed: pyproject.toml setup.py | $(BIN)/python
 	$(BIN)/python -m pip install -q -e .
 	touch $@
 
-$(VENV)/.test-installed: pyproject.toml | $(BIN)/python
+$(VENV)/.test-installed: pyproject.toml setup.py | $(BIN)/python
 	$(BIN)/python -m pip install -q -e '.[test]'
 	touch $@ $(VENV)/.run-installed
 
@@ -32,4 +32,4 @@ bench: $(VENV)/.test-installed
 	$(BIN)/python benchmarks/run_all.py
 
 clean:
-	rm -rf $(VENV) $(OUT) .pytest_cache
+	rm -rf $(VENV) $(OUT) .pytest_cache build dist *.egg-info

@@ -15,8 +15,12 @@ DEMO_TONIGHT = dt.date(2027, 1, 12)
 
 
 def demo_workspace() -> Path:
-    """The demo workspace folder shipped beside the package in a checkout."""
-    return Path(__file__).resolve().parents[2] / "demo_sites"
+    """The bundled demo workspace: inside the installed package (the wheel carries the
+    repository's ``demo_sites/`` as ``auroraplan/demo_sites``, see setup.py), else the
+    ``demo_sites/`` folder beside the package in a checkout or an editable install."""
+    package = Path(__file__).resolve().parents[1]
+    installed = package / "demo_sites"
+    return installed if installed.is_dir() else package.parent / "demo_sites"
 
 
 def add_arguments(parser):
