@@ -44,9 +44,21 @@ def _source_files(folder: Path) -> set[str]:
             and not p.name.startswith("auroraplan.sqlite")}
 
 
+def _check_build_tools():
+    """The build uses this environment's setuptools: SPDX licence strings need 77 or newer
+    (pyproject.toml lists it in the test extras)."""
+    from importlib.metadata import version
+
+    found = version("setuptools")
+    if int(found.split(".")[0]) < 77:
+        pytest.fail(f"setuptools {found} in this environment is older than 77, which the "
+                    "wheel build needs; run: .venv/bin/pip install -e '.[test]'")
+
+
 @pytest.fixture(scope="module")
 def installed(tmp_path_factory):
     """(venv folder, wheel path, build output, install output)."""
+    _check_build_tools()
     tmp = tmp_path_factory.mktemp("wheel")
     src = tmp / "src"
     for name in SOURCE:
