@@ -241,7 +241,7 @@ def site_arrays(sites):
 
 def compute_grid(
     sites, times_utc, night_index, step_min, *, tz, settings, activity=None, clouds=None,
-    climatology=None, table=None, nowcast=None, cloud=None,
+    climatology=None, table=None, nowcast=None, cloud=None, all_steps=False,
 ):
     """Chance per site and time step.
 
@@ -273,6 +273,11 @@ def compute_grid(
     nowcast : auroraplan.solarwind.Nowcast, optional
         Kp estimated from upstream solar wind; laid over the forecast for the hours it
         covers (``solarwind.blend``).
+    all_steps : bool
+        Work out the oval, look, moonlit sky and activity at every step. By default only
+        at :func:`working_steps` (dark outing steps and an hour around them); elsewhere
+        the chance is 0 and ``kp_needed`` and the look are NaN, ``moon`` 1 and
+        ``activity`` 0. A timeline over the whole night asks for every step.
     """
     from auroraplan import magnetic, sky, view, weather
     from auroraplan.activity import forecast_at
@@ -291,8 +296,6 @@ def compute_grid(
     if table is None:
         table = kp_table(sites, times_utc[len(times_utc) // 2], viewing)
     mlt = magnetic.mlt(table.mlon, times_utc)
-    kp_needed = view.kp_needed_at(table, mlt)
-    kp_lost = view.kp_lost_at(table, mlt)
 
     has_forecast = activity is not None and len(activity) > 0
     if has_forecast:
@@ -307,7 +310,21 @@ def compute_grid(
 
         kp_mean, kp_sd, covered, nowcast_weight = blend(times_utc, kp_mean, kp_sd, covered,
                                                         nowcast)
-    look = look_for_forecast(table, kp_needed, kp_lost, kp_mean, mlt)
+    kind = np.where(covered, "forecast", "none").astype(object)
+    rest = ~covered if climatology else np.zeros_like(covered)
+    kind[rest] = "outlook"
+    known = None
+    if has_forecast and hasattr(climatology, "p_kp_at_least_with_recurrence"):
+        from auroraplan.nights import utc_datetime64
+
+        known = (utc_datetime64(activity["start_utc"]), activity["kp"].to_numpy(float))
+
+    # The oval, the look and the moonlit sky only where a chance can be shown.
+    work = np.ones(times_utc.shape, bool) if all_steps else working_steps(darkness, step_min)
+    at = _StepsAt(work)
+    kp_needed_w = view.kp_needed_at(table, mlt[:, work])
+    kp_lost_w = view.kp_lost_at(table, mlt[:, work])
+    look = look_for_forecast(table, kp_needed_w, kp_lost_w, kp_mean[work], mlt[:, work])
     look_az, look_el = look["look_azimuth_deg"], look["look_elevation_deg"]
 
     target_alt = np.clip(np.nan_to_num(look_el, nan=viewing.min_elevation_deg),
@@ -316,32 +333,25 @@ def compute_grid(
     k_v = (np.full(len(sites), float(viewing.extinction_k)) if viewing.extinction_k is not None
            else sky.extinction_k_v(arr["height_m"]))
     moonlit = sky.moonlit_sky_mag(
-        arr["sky_mag"][:, None], track.moon_alt, track.moon_az, target_alt, target_az,
-        track.moon_phase_angle_deg[None, :], k_v=k_v[:, None],
+        arr["sky_mag"][:, None], track.moon_alt[:, work], track.moon_az[:, work], target_alt,
+        target_az, track.moon_phase_angle_deg[None, work], k_v=k_v[:, None],
     )
-    moon = moon_factor(arr["sky_mag"][:, None], moonlit, cfg.moon_beta)
-
-    kind = np.where(covered, "forecast", "none").astype(object)
-    rest = ~covered if climatology else np.zeros_like(covered)
-    known = None
-    if has_forecast and hasattr(climatology, "p_kp_at_least_with_recurrence"):
-        from auroraplan.nights import utc_datetime64
-
-        known = (utc_datetime64(activity["start_utc"]), activity["kp"].to_numpy(float))
-    kind[rest] = "outlook"
+    moon_w = moon_factor(arr["sky_mag"][:, None], moonlit, cfg.moon_beta)
+    covered_w, rest_w, times_w = covered[work], rest[work], times_utc[work]
 
     def p_at_least(kp):
-        """P(Kp ≥ kp) (N, T) from the forecast, else the climatology."""
-        p = np.full(kp_needed.shape, np.nan)
-        if covered.any():
-            p[:, covered] = p_aurora_from_forecast(
-                kp[:, covered], kp_mean[covered], kp_sd[covered], cfg.boundary_sd_kp)
-        if rest.any():
-            p[:, rest] = p_aurora_from_climatology(
-                climatology, kp[:, rest], times_utc[rest], cfg.boundary_sd_kp, known)
+        """P(Kp ≥ kp) (N, W) from the forecast, else the climatology."""
+        p = np.full(kp.shape, np.nan)
+        if covered_w.any():
+            p[:, covered_w] = p_aurora_from_forecast(
+                kp[:, covered_w], kp_mean[work][covered_w], kp_sd[work][covered_w],
+                cfg.boundary_sd_kp)
+        if rest_w.any():
+            p[:, rest_w] = p_aurora_from_climatology(
+                climatology, kp[:, rest_w], times_w[rest_w], cfg.boundary_sd_kp, known)
         return p
 
-    p_reach, p_strong = activity_parts(p_at_least, kp_needed, kp_lost, cfg)
+    p_reach, p_strong = activity_parts(p_at_least, kp_needed_w, kp_lost_w, cfg)
     activity = display_probability(p_reach, p_strong, cfg)
 
     if cloud is None:
@@ -351,21 +361,55 @@ def compute_grid(
 
     # Per step: the chance of a visible display in one decorrelation time
     # around it; also the expected share of the step with a display in sight.
+    moon, activity = at.full(moon_w, 1.0), at.full(activity, 0.0)
     chance = darkness * moon * activity * p_clear
     return ChanceGrid(
         times_utc=times_utc, night_index=np.asarray(night_index), step_min=float(step_min),
         darkness=darkness, moon=moon, activity=activity, p_clear=p_clear, chance=chance,
-        kp_needed=kp_needed, look_azimuth_deg=look_az, look_elevation_deg=look_el,
-        overhead=look["overhead"],
+        kp_needed=at.full(kp_needed_w, np.nan), look_azimuth_deg=at.full(look_az, np.nan),
+        look_elevation_deg=at.full(look_el, np.nan), overhead=at.full(look["overhead"], False),
         cloud_pct=cloud_pct, kp_mean=kp_mean, kp_sd=kp_sd, kind=kind,
         mlt=mlt, sun_alt=track.sun_alt, moon_alt=track.moon_alt, dark_sky=dark, outing=outing,
         moon_illumination=track.moon_illumination, warnings=warnings,
         nowcast_weight=nowcast_weight,
-        sky_brightening_mag=np.maximum(arr["sky_mag"][:, None] - moonlit, 0.0),
-        p_reach=p_reach, p_strong=p_strong,
+        sky_brightening_mag=at.full(np.maximum(arr["sky_mag"][:, None] - moonlit, 0.0), 0.0),
+        p_reach=at.full(p_reach, 0.0), p_strong=at.full(p_strong, 0.0),
         cloud_source=cloud.source, cloud_models=cloud.models, cloud_model_pct=cloud.model_pct,
         cloud_spread_pct=cloud.spread_pct, cloud_note=cloud.note,
     )
+
+
+WORKING_MARGIN_MIN = 60.0
+"""Steps this close to a dark outing step are worked out in full too: the hour rows of
+a report take their look and cloud from the start and the middle of each hour."""
+
+
+def working_steps(darkness, step_min) -> np.ndarray:
+    """(T,) bool: the steps at which the oval, the look, the moonlit sky and the activity
+    are worked out: where any site is dark inside the outing hours, widened by
+    ``WORKING_MARGIN_MIN`` on each side. Elsewhere the chance is 0 whatever they are."""
+    active = np.asarray(darkness).any(axis=0)
+    reach = int(np.ceil(WORKING_MARGIN_MIN / float(step_min)))
+    if reach <= 0 or not active.any():
+        return active
+    kernel = np.ones(2 * reach + 1)
+    return np.convolve(active.astype(float), kernel, mode="same") > 0
+
+
+class _StepsAt:
+    """Puts values worked out at some steps (N, W) back on the whole time axis (N, T)."""
+
+    def __init__(self, work):
+        self.work = np.asarray(work, bool)
+        self.every = bool(self.work.all())
+
+    def full(self, values, fill):
+        """``values`` (N, W) on the time axis, ``fill`` at the steps not worked out."""
+        if self.every:
+            return values
+        out = np.full(values.shape[:-1] + self.work.shape, fill, dtype=values.dtype)
+        out[..., self.work] = values
+        return out
 
 
 LOOK_KP_BELOW_LOST = 0.01
@@ -400,7 +444,8 @@ def look_for_forecast(table, kp_needed, kp_lost, kp_mean, mlt):
     kp_look = np.where(np.isfinite(kp_lost), np.minimum(kp_look, kp_lost - LOOK_KP_BELOW_LOST),
                        kp_look)
     reachable = np.isfinite(kp_look)
-    out = view.sightline(table, np.clip(np.nan_to_num(kp_look, posinf=0.0), 0.0, 9.0), mlt)
+    out = view.sightline(table, np.clip(np.nan_to_num(kp_look, posinf=0.0), 0.0, 9.0), mlt,
+                         visible=False)
     for key in ("look_azimuth_deg", "look_elevation_deg"):
         out[key] = np.where(reachable, out[key], np.nan)
     out["overhead"] = out["overhead"] & reachable

@@ -596,7 +596,32 @@ def build_climatology(history: KpHistory | None = None) -> Climatology:
     )
 
 
+CACHE_VERSION = 1
+"""Bumped whenever :func:`build_climatology` or :class:`Climatology` changes, so that a
+climatology kept by an older release is built afresh."""
+
+
+def kept_climatology(path=None) -> Climatology:
+    """:func:`build_climatology` of a history file, kept in the user's cache directory.
+
+    The built tables are kept in the ``climatology`` folder of
+    :func:`auroraplan.usercache.cache_folder` (never in a workspace), keyed by the file's
+    path, size and modification time and by ``CACHE_VERSION``: a changed history file or a
+    new release builds them afresh. Default: the bundled history file.
+    """
+    from auroraplan import usercache
+
+    file = Path(path).expanduser() if path is not None else bundled_history_path()
+    try:
+        stamp = usercache.file_stamp(file)
+    except OSError:
+        raise InputError(f"{file}: cannot read the Kp history file; check the path") from None
+    return usercache.kept("climatology", usercache.digest(stamp), CACHE_VERSION,
+                          lambda: build_climatology(load_history(file)))
+
+
 @functools.lru_cache(maxsize=1)
 def bundled_climatology() -> Climatology:
-    """The climatology of the bundled history, built once per process."""
-    return build_climatology(load_history())
+    """The climatology of the bundled history, built once per process (and kept between
+    runs, :func:`kept_climatology`)."""
+    return kept_climatology()

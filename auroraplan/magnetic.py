@@ -169,14 +169,32 @@ def aacgm_to_geo(mlat, mlon, height_km, when, refine: int = 0):
     return lat, lon
 
 
-def mlt(mlon, times_utc):
+MLT_NODE_S = 3600
+"""Spacing of the nodes from which :func:`mlt` interpolates, seconds (one hour).
+
+The MLT of magnetic longitude 0 advances by about one hour per hour; what it adds to
+that (the subsolar point's drift in magnetic longitude through the day and the year)
+bends so slowly that cubic (four-point Lagrange) interpolation between hourly nodes
+stays within
+``MLT_NODE_ERROR_S`` of the package's value at every time (tests/test_magnetic.py
+checks this against aacgmv2 at every 10-minute step of a season)."""
+
+MLT_NODE_ERROR_S = 15.0
+"""Largest difference allowed between interpolated and directly computed MLT, seconds
+of MLT; far below the 15-minute resolution of the Kp-needed tables."""
+
+
+def mlt(mlon, times_utc, exact=False):
     """Magnetic local time for every place and time, in hours.
 
     AACGM-v2 MLT depends on time only through the magnetic longitude of the
     subsolar point: MLT = 12 + (mlon - mlon_subsolar(t)) / 15 (Shepherd 2014,
     section 4.4; ``aacgmv2.convert_mlt``). We ask the package for the MLT of
-    magnetic longitude 0 once per time and add ``mlon / 15`` per place, so the
-    cost is one package call per time, not per place and time.
+    magnetic longitude 0 and add ``mlon / 15`` per place, so the cost is one
+    package call per time, not per place and time. For a regular time grid with
+    more times than hours, the package is asked at whole UTC hours only and the
+    MLT of longitude 0 is interpolated between them (four-point Lagrange,
+    unwrapped across midnight); the error is within ``MLT_NODE_ERROR_S``.
 
     Parameters
     ----------
@@ -184,6 +202,8 @@ def mlt(mlon, times_utc):
         AACGM-v2 longitude in degrees.
     times_utc : array_like of datetime64 or datetime, shape (T,)
         UTC times (dates outside 1990-2029 are clamped).
+    exact : bool
+        Ask the package at every time (the reference the interpolation is tested against).
 
     Returns
     -------
@@ -196,7 +216,36 @@ def mlt(mlon, times_utc):
     """
     mlon = np.atleast_1d(np.asarray(mlon, dtype=float))
     times = np.atleast_1d(np.asarray(times_utc))
+    zero = None
+    if not exact and times.dtype.kind == "M":
+        zero = _mlt_at_zero_interpolated(times.astype("datetime64[s]"))
+    if zero is None:
+        zero = _mlt_at_zero(times)
+    return np.mod(zero[None, :] + mlon[:, None] / 15.0, 24.0)
+
+
+def _mlt_at_zero(times) -> np.ndarray:
+    """MLT of magnetic longitude 0 at each time, one package call per time (T,)."""
     epochs = np.array([as_utc_datetime(t) for t in times], dtype=object)
+    if not len(epochs):
+        return np.zeros(0)
     with _quiet():
-        mlt_at_zero = np.asarray(aacgmv2.convert_mlt(np.zeros(len(epochs)), epochs), dtype=float)
-    return np.mod(mlt_at_zero[None, :] + mlon[:, None] / 15.0, 24.0)
+        return np.atleast_1d(np.asarray(aacgmv2.convert_mlt(np.zeros(len(epochs)), epochs),
+                                        dtype=float))
+
+
+def _mlt_at_zero_interpolated(times) -> np.ndarray | None:
+    """:func:`_mlt_at_zero` from hourly nodes; None when nodes would not be fewer."""
+    seconds = times.astype(np.int64)
+    if seconds.size < 3:
+        return None
+    first = np.floor(seconds.min() / MLT_NODE_S) * MLT_NODE_S
+    last = np.ceil(seconds.max() / MLT_NODE_S) * MLT_NODE_S
+    if (last - first) / MLT_NODE_S + 4 >= seconds.size:
+        return None
+    from auroraplan.sky import lagrange4
+
+    nodes = np.arange(first - MLT_NODE_S, last + 2 * MLT_NODE_S, MLT_NODE_S, dtype=np.int64)
+    at_nodes = np.unwrap(_mlt_at_zero(nodes.astype("datetime64[s]")), period=24.0)
+    position = (seconds - nodes[0]) / MLT_NODE_S
+    return np.mod(lagrange4(at_nodes[:, None], position)[:, 0], 24.0)

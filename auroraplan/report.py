@@ -210,9 +210,10 @@ def base_info(ws) -> dict:
 
 
 def _grid_for_nights(ws, sites, first_night, nights, step_min, climatology, nowcast=None,
-                     outlook_only=False):
+                     outlook_only=False, all_steps=False):
     """The chance grid and night summaries; ``outlook_only`` leaves out the Kp and cloud
-    forecasts (climatology alone, as the season outlook)."""
+    forecasts (climatology alone, as the season outlook); ``all_steps`` works out the look
+    and the Kp needed at every step, not only around the dark outing hours (a timeline)."""
     from auroraplan import chance
     from auroraplan import nights as nights_mod
 
@@ -222,6 +223,7 @@ def _grid_for_nights(ws, sites, first_night, nights, step_min, climatology, nowc
         sites, times, night_index, step_min, tz=ws.operator.timezone, settings=ws.settings,
         activity=None if outlook_only else ws.activity, climatology=climatology,
         nowcast=nowcast, cloud=None if outlook_only else cloud_for(ws, sites, times),
+        all_steps=all_steps,
     )
     summary = chance.summarise_nights(grid, nights, ws.settings.chance)
     return grid, summary
@@ -270,7 +272,7 @@ def workspace_climatology(ws=None):
     if not path.is_file():
         raise InputError(f"operator.toml: [activity] history_file {name!r}: no such file in "
                          f"{ws.path}; give a file in the CelesTrak space-weather format")
-    return climatology.build_climatology(climatology.load_history(path))
+    return climatology.kept_climatology(path)
 
 
 # ---------------------------------------------------------------------------
@@ -662,7 +664,8 @@ def site_timeline(ws, date: dt.date, site_name: str, climatology=None) -> dict:
     site = next(s for s in ws.sites if s.name == site_name)
     if climatology is None:
         climatology = workspace_climatology(ws)
-    grid, _ = _grid_for_nights(ws, [site], date, 1, DEFAULT_STEP_MIN, climatology)
+    grid, _ = _grid_for_nights(ws, [site], date, 1, DEFAULT_STEP_MIN, climatology,
+                               all_steps=True)
     outing = ws.settings.outing
     return {
         "site": f"{site.name} (outings {outing.outing_from}–{outing.outing_until})",
@@ -1280,7 +1283,7 @@ def nowcast_report(ws, solar_wind, hours: int = 2, at: dt.datetime | None = None
                                np.zeros(times.shape, int), NOWCAST_STEP_MIN,
                                tz=tz, settings=ws.settings, activity=ws.activity,
                                cloud=cloud_for(ws, sites or [_base_site(ws)], times),
-                               climatology=climatology, nowcast=cast)
+                               climatology=climatology, nowcast=cast, all_steps=True)
     shown = grid.darkness * grid.moon * grid.activity
     by_hour = [slice(h * per_hour, (h + 1) * per_hour) for h in range(hours)]
     p = np.stack([chance.p_display_seen(shown[:, sl], grid.p_clear[:, sl], grid.step_min,

@@ -456,7 +456,7 @@ LOOK_CELLS = 4_000_000
 """Most (site, time, latitude) cells :func:`sightline` holds at once (bounds memory)."""
 
 
-def sightline(table: KpNeeded, kp, mlt_h) -> dict:
+def sightline(table: KpNeeded, kp, mlt_h, visible=True) -> dict:
     """Whether, and where, each site of a Kp-needed table sees the band at given Kp and MLT.
 
     Parameters
@@ -467,6 +467,9 @@ def sightline(table: KpNeeded, kp, mlt_h) -> dict:
         Kp at each site and time (broadcast with ``mlt_h``).
     mlt_h : array_like (N, T)
         Magnetic local time of each site at each time, hours.
+    visible : bool
+        Also say whether the band is in view (False leaves ``visible`` out: the look
+        alone, as the chance grid asks for it).
 
     Returns
     -------
@@ -487,16 +490,21 @@ def sightline(table: KpNeeded, kp, mlt_h) -> dict:
     equatorward_deg, poleward_deg = _discrete_edges(kp, mlt_h, table.model)
     out = {"visible": np.zeros(shape, bool), "overhead": np.zeros(shape, bool),
            "look_azimuth_deg": np.full(shape, np.nan), "look_elevation_deg": np.full(shape, np.nan)}
+    if not visible:
+        del out["visible"]
     chunk = max(1, LOOK_CELLS // max(1, shape[1] * clearance.lat_grid_deg.size))
     for start in range(0, n, chunk):
         rows = np.arange(start, min(start + chunk, n))
         eq, pw = equatorward_deg[rows], poleward_deg[rows]
-        out["visible"][rows] = clearance.visible(rows, eq, pw)[0]
+        if visible:
+            out["visible"][rows] = clearance.visible(rows, eq, pw)[0]
         az, el, under = clearance.look(rows, eq, pw)
         out["look_azimuth_deg"][rows], out["look_elevation_deg"][rows] = az, el
         out["overhead"][rows] = under
     bad = ~np.isfinite(table.mlat)
-    out["visible"][bad] = out["overhead"][bad] = False
+    out["overhead"][bad] = False
+    if visible:
+        out["visible"][bad] = False
     out["look_azimuth_deg"][bad] = out["look_elevation_deg"][bad] = np.nan
     return out
 

@@ -628,32 +628,12 @@ DISK_CACHE_VERSION = 1
 
 
 def cache_folder() -> Path | None:
-    """Where site values read from weather files are kept between runs: the user's cache
-    directory (``AURORAPLAN_CACHE``, else ``$XDG_CACHE_HOME/auroraplan``, else
-    ``~/.cache/auroraplan``), never the workspace. None when it cannot be made."""
-    import os
+    """Where site values read from weather files are kept between runs: the ``weather``
+    folder of the user's cache directory (:func:`auroraplan.usercache.cache_folder`),
+    never the workspace. None when it cannot be made."""
+    from auroraplan.usercache import cache_folder as kind_folder
 
-    root = os.environ.get("AURORAPLAN_CACHE")
-    if not root:
-        base = os.environ.get("XDG_CACHE_HOME") or str(Path.home() / ".cache")
-        root = str(Path(base) / "auroraplan")
-    folder = Path(root) / "weather"
-    try:
-        folder.mkdir(parents=True, exist_ok=True)
-    except OSError:
-        return None
-    return folder if os.access(folder, os.W_OK) else None
-
-
-def _disk_key(path: Path, lat, lon, layer_weights) -> str:
-    stat = path.stat()
-    digest = hashlib.sha256()
-    for part in (str(DISK_CACHE_VERSION), str(path.resolve()), str(stat.st_size),
-                 str(stat.st_mtime_ns), repr(tuple(layer_weights))):
-        digest.update(part.encode("utf-8", "surrogatepass") + b"\0")
-    digest.update(np.ascontiguousarray(lat, float).tobytes())
-    digest.update(np.ascontiguousarray(lon, float).tobytes())
-    return digest.hexdigest()
+    return kind_folder("weather")
 
 
 def read_file_kept(path: Path, lat, lon, layer_weights=(1.0, 0.8, 0.5)) -> tuple[list, list]:
@@ -661,28 +641,13 @@ def read_file_kept(path: Path, lat, lon, layer_weights=(1.0, 0.8, 0.5)) -> tuple
     time), sites and layer weights, so that the guide's repeated checks of the next hours
     do not decode the same GRIB or NetCDF file again. A cache that cannot be read or
     written is passed over; a file that changed is read afresh."""
-    import pickle
+    from auroraplan import usercache
 
-    folder = cache_folder()
-    if folder is None:
-        return read_file(path, lat, lon, layer_weights)
-    entry = folder / f"{_disk_key(path, lat, lon, layer_weights)}.pickle"
-    try:
-        with entry.open("rb") as handle:
-            version, series, warnings = pickle.load(handle)
-        if version == DISK_CACHE_VERSION:
-            return [dataclasses_replace(s, file=path) for s in series], warnings
-    except (OSError, EOFError, pickle.UnpicklingError, ValueError, TypeError, AttributeError):
-        pass
-    series, warnings = read_file(path, lat, lon, layer_weights)
-    part = entry.with_suffix(".part")
-    try:
-        with part.open("wb") as handle:
-            pickle.dump((DISK_CACHE_VERSION, series, warnings), handle)
-        part.replace(entry)
-    except OSError:
-        part.unlink(missing_ok=True)
-    return series, warnings
+    key = usercache.digest((*usercache.file_stamp(path), repr(tuple(layer_weights))),
+                           (lat, lon))
+    series, warnings = usercache.kept("weather", key, DISK_CACHE_VERSION,
+                                      lambda: read_file(path, lat, lon, layer_weights))
+    return [dataclasses_replace(s, file=path) for s in series], warnings
 
 
 def dataclasses_replace(series: Series, **changes) -> Series:

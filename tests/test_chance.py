@@ -1,6 +1,7 @@
 """The chance model: each factor moves the chance the way the trade expects."""
 
 import datetime as dt
+from pathlib import Path
 
 import numpy as np
 from hypothesis import given, settings
@@ -8,6 +9,8 @@ from hypothesis import strategies as st
 
 from auroraplan import chance
 from auroraplan.report import best_starts
+
+DEMO = Path(__file__).resolve().parents[1] / "demo_sites"
 
 
 def test_moon_factor_is_one_without_moonlight():
@@ -222,3 +225,43 @@ def test_json_numbers_never_carry_a_minus_zero():
 
     for value in (-0.0, -1e-17, -0.0004):
         assert math.copysign(1.0, _num(value, 3)) == 1.0
+
+
+def test_working_only_the_dark_outing_steps_gives_the_same_nights_as_every_step():
+    # Reference: the same grid with the oval, look, moonlit sky and activity worked out
+    # at every step. Outside the dark outing hours the chance is 0 whatever they are, so
+    # the night summaries are equal and every step that is worked out is equal.
+    from auroraplan import nights, report
+    from auroraplan.workspace import load_workspace
+
+    ws = load_workspace(DEMO)
+    tz = ws.operator.timezone
+    times, night = nights.night_times(dt.date(2027, 1, 11), 4, tz, 10)
+    clim = report.workspace_climatology(ws)
+
+    def grid(all_steps):
+        return chance.compute_grid(ws.sites, times, night, 10, tz=tz, settings=ws.settings,
+                                   activity=ws.activity, clouds=ws.clouds, climatology=clim,
+                                   all_steps=all_steps)
+
+    fast, full = grid(False), grid(True)
+    work = chance.working_steps(full.darkness, 10)
+    assert 0.2 < work.mean() < 0.9, "some steps are left out, every dark outing step kept"
+    assert np.all(work[full.darkness.any(axis=0)])
+    for name in ("chance", "moon", "activity", "kp_needed", "look_azimuth_deg",
+                 "look_elevation_deg", "p_reach", "p_strong"):
+        np.testing.assert_allclose(getattr(fast, name)[:, work], getattr(full, name)[:, work],
+                                   rtol=0, atol=1e-12, err_msg=name)
+    np.testing.assert_array_equal(fast.chance, full.chance)
+    a, b = (chance.summarise_nights(g, 4, ws.settings.chance) for g in (fast, full))
+    for name in ("p_any", "expected_min", "peak", "window_start", "window_end", "limiting"):
+        np.testing.assert_array_equal(getattr(a, name), getattr(b, name), err_msg=name)
+    assert np.isnan(fast.kp_needed[:, ~work]).all()
+
+
+def test_working_steps_reach_an_hour_around_the_dark_outing_steps():
+    darkness = np.zeros((2, 40))
+    darkness[1, 20:23] = 1.0
+    work = chance.working_steps(darkness, 10)
+    assert np.flatnonzero(work).tolist() == list(range(14, 29))
+    assert not chance.working_steps(np.zeros((2, 5)), 10).any()

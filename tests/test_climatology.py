@@ -244,3 +244,40 @@ def test_recurrence_blend_follows_the_rotation_before(climatology):
     k5 = 15
     a = climatology.recurrence_weight[k5]
     assert stormy[0, 0] == pytest.approx(plain[0, 0] + a * (1 - plain[0, 0]))
+
+
+def test_the_built_climatology_is_kept_in_the_user_cache_and_rebuilt_when_its_file_changes(
+        tmp_path, monkeypatch, climatology):
+    # Reference: build_climatology of the same file in this process. The kept copy gives
+    # the same tables; a second run does not build; a changed file or a new cache version
+    # builds again; nothing is written beside the history file (a workspace's own file).
+    import os
+    import shutil
+
+    monkeypatch.setenv("AURORAPLAN_CACHE", str(tmp_path / "cache"))
+    workspace = tmp_path / "ws"
+    workspace.mkdir()
+    source = shutil.copy(clim.bundled_history_path(), workspace / "history.txt")
+    builds = []
+    real = clim.build_climatology
+    monkeypatch.setattr(clim, "build_climatology", lambda h=None: builds.append(1) or real(h))
+
+    first = clim.kept_climatology(source)
+    again = clim.kept_climatology(source)
+    assert len(builds) == 1
+    np.testing.assert_array_equal(again.prob, climatology.prob)
+    np.testing.assert_array_equal(again.blocks, climatology.blocks)
+    need = np.array([[3.0, 5.0]])
+    times = np.array(["2027-01-12T21:00", "2027-03-01T00:00"], dtype="datetime64[s]")
+    np.testing.assert_array_equal(again.p_kp_at_least(need, times),
+                                  first.p_kp_at_least(need, times))
+    assert sorted(p.name for p in workspace.iterdir()) == ["history.txt"]
+    assert len(list((tmp_path / "cache" / "climatology").glob("*.pickle"))) == 1
+
+    stat = os.stat(source)
+    os.utime(source, ns=(stat.st_atime_ns, stat.st_mtime_ns + 10**9))
+    clim.kept_climatology(source)
+    assert len(builds) == 2
+    monkeypatch.setattr(clim, "CACHE_VERSION", clim.CACHE_VERSION + 1)
+    clim.kept_climatology(source)
+    assert len(builds) == 3

@@ -114,6 +114,26 @@ def test_mlt_for_many_sites_matches_aacgmv2_convert_mlt_per_site_and_time():
         assert np.max(np.abs(diff)) < 1e-6
 
 
+def test_mlt_from_hourly_nodes_matches_aacgmv2_at_every_step_of_a_season():
+    # Reference: aacgmv2.convert_mlt asked at every 10-minute step (the exact path), over
+    # a northern season and across a year's end and a clock change; the interpolated MLT
+    # is within MLT_NODE_ERROR_S (15 s of MLT) everywhere.
+    from auroraplan.nights import night_times
+
+    times, _ = night_times(dt.date(2026, 9, 1), 225, "Europe/Oslo", 10)
+    mlon = np.array([-150.0, 0.0, 106.2, 179.9])
+    fast = magnetic.mlt(mlon, times)
+    exact = magnetic.mlt(mlon, times, exact=True)
+    for j in range(0, len(times), 997):  # the package asked for one time alone
+        ref = aacgmv2.convert_mlt(mlon, times[j].astype(dt.datetime))
+        for ours in (exact, fast):
+            diff_s = np.abs((ours[:, j] - ref + 12.0) % 24.0 - 12.0) * 3600.0
+            assert diff_s.max() < magnetic.MLT_NODE_ERROR_S
+    error_s = np.abs((fast - exact + 12.0) % 24.0 - 12.0) * 3600.0
+    assert error_s.max() < magnetic.MLT_NODE_ERROR_S
+    assert error_s.max() > 0.0, "the fast path was taken"
+
+
 def test_dates_past_the_coefficient_set_are_clamped_not_refused(capfd):
     # aacgmv2 covers 1990-2029; a 2031 date uses the last valid epoch and prints nothing.
     late, _ = magnetic.geo_to_aacgm(69.65, 18.96, 0.0, dt.datetime(2031, 6, 1))

@@ -419,7 +419,8 @@ def test_moonlight_extinction_follows_the_operators_setting(ws):
         viewing = dataclasses.replace(ws.settings.viewing, extinction_k=k)
         return chance.compute_grid(ws.sites, times, night, 30, tz=ws.operator.timezone,
                                    settings=dataclasses.replace(ws.settings, viewing=viewing),
-                                   activity=ws.activity, clouds=ws.clouds, climatology=False)
+                                   activity=ws.activity, clouds=ws.clouds, climatology=False,
+                                   all_steps=True)
 
     clear_air, hazy = grid(0.12), grid(0.4)
     high = clear_air.moon_alt > 30.0
