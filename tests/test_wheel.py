@@ -147,3 +147,11 @@ def test_demo_from_the_installed_wheel_matches_the_demo_from_the_checkout(instal
     assert week["plan"] and week["plan"] == expected["plan"]
     # The installed demo workspace is read, never written (site-packages may be read-only).
     assert {p: p.stat().st_mtime_ns for p in workspace.rglob("*")} == shipped
+
+
+def test_a_checkout_runs_the_demo_on_the_repository_demo_folder():
+    """`make demo` (an editable install) reads demo_sites/ at the repository root."""
+    from auroraplan.commands.demo import demo_workspace
+
+    assert demo_workspace() == ROOT / "demo_sites"
+    assert not (ROOT / "auroraplan" / "demo_sites").exists()  # no second copy kept by hand
