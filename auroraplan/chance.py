@@ -124,7 +124,7 @@ class ChanceGrid:
     times_utc: np.ndarray  # (T,) datetime64[s]
     night_index: np.ndarray  # (T,) int, 0..nights-1
     step_min: float
-    darkness: np.ndarray  # (N, T) 0 or 1: dark and inside the outing hours
+    darkness: np.ndarray  # (N, T) 0 or 1: dark, and a group can be at the site then
     moon: np.ndarray  # (N, T) 0..1
     activity: np.ndarray  # (N, T) chance of a display per decorrelation time; NaN without data
     p_clear: np.ndarray  # (N, T) P(clear line of sight) 0..1
@@ -139,12 +139,13 @@ class ChanceGrid:
     kind: np.ndarray  # (T,) "forecast" | "outlook" | "none"
     mlt: np.ndarray  # (N, T) magnetic local time, hours
     dark_sky: np.ndarray  # (N, T) bool: dark at the operator's level, at any hour
-    outing: np.ndarray  # (T,) bool: inside the operator's outing hours
+    outing: np.ndarray  # (T,) bool: inside the outing hours (derived or the operator's)
     sun_alt: np.ndarray  # (N, T)
     moon_alt: np.ndarray  # (N, T)
     moon_illumination: np.ndarray  # (T,)
     warnings: list = field(default_factory=list)
     nowcast_weight: np.ndarray | None = None  # (T,) share of the solar-wind Kp estimate, 0..1
+    outing_hours: str = ""  # local "HH:MM–HH:MM" of the first night's outing hours
     # The activity factor's parts and the moon's brightening, kept so that the forecast
     # archive can refit the settings (auroraplan.calibrate) without the sky again.
     sky_brightening_mag: np.ndarray | None = None  # (N, T) dark − moonlit sky, mag ≥ 0
@@ -235,6 +236,7 @@ def site_arrays(sites):
         "lon": np.array([s.lon for s in sites], float),
         "height_m": np.array([s.height_m for s in sites], float),
         "sky_mag": np.array([s.sky_mag for s in sites], float),
+        "drive_min": np.array([getattr(s, "drive_min", 0.0) for s in sites], float),
         "horizons": [s.horizon for s in sites],
     }
 
@@ -281,6 +283,7 @@ def compute_grid(
     """
     from auroraplan import magnetic, sky, view, weather
     from auroraplan.activity import forecast_at
+    from auroraplan.nights import hours_text
 
     cfg = settings.chance
     viewing = settings.viewing
@@ -290,12 +293,13 @@ def compute_grid(
 
     track = sky.sun_moon_altaz(arr["lat"], arr["lon"], arr["height_m"], times_utc)
     dark = track.sun_alt < sky.DARKNESS_DEG[viewing.darkness]
-    outing = settings.outing.mask(times_utc, tz)
-    darkness = (dark & outing[None, :]).astype(float)
 
     if table is None:
         table = kp_table(sites, times_utc[len(times_utc) // 2], viewing)
     mlt = magnetic.mlt(table.mlon, times_utc)
+    outing, usable = outing_for(settings.outing, times_utc, night_index, tz, step_min, mlt,
+                                dark, arr["drive_min"], arr["lon"])
+    darkness = (dark & usable).astype(float)
 
     has_forecast = activity is not None and len(activity) > 0
     if has_forecast:
@@ -320,7 +324,10 @@ def compute_grid(
         known = (utc_datetime64(activity["start_utc"]), activity["kp"].to_numpy(float))
 
     # The oval, the look and the moonlit sky only where a chance can be shown.
-    work = np.ones(times_utc.shape, bool) if all_steps else working_steps(darkness, step_min)
+    # With the operator's own hours, every dark step: a site's best time outside them is
+    # looked for (outside_hours_warnings).
+    work = np.ones(times_utc.shape, bool) if all_steps else working_steps(
+        dark if settings.outing.set_by_operator else darkness, step_min)
     at = _StepsAt(work)
     kp_needed_w = view.kp_needed_at(table, mlt[:, work])
     kp_lost_w = view.kp_lost_at(table, mlt[:, work])
@@ -363,6 +370,10 @@ def compute_grid(
     # around it; also the expected share of the step with a display in sight.
     moon, activity = at.full(moon_w, 1.0), at.full(activity, 0.0)
     chance = darkness * moon * activity * p_clear
+    if settings.outing.set_by_operator:
+        warnings.extend(outside_hours_warnings(
+            [s.name for s in sites], times_utc, night_index, dark * moon * activity * p_clear,
+            usable, settings.outing, tz))
     return ChanceGrid(
         times_utc=times_utc, night_index=np.asarray(night_index), step_min=float(step_min),
         darkness=darkness, moon=moon, activity=activity, p_clear=p_clear, chance=chance,
@@ -372,6 +383,7 @@ def compute_grid(
         mlt=mlt, sun_alt=track.sun_alt, moon_alt=track.moon_alt, dark_sky=dark, outing=outing,
         moon_illumination=track.moon_illumination, warnings=warnings,
         nowcast_weight=nowcast_weight,
+        outing_hours=hours_text(times_utc, outing, tz),
         sky_brightening_mag=at.full(np.maximum(arr["sky_mag"][:, None] - moonlit, 0.0), 0.0),
         p_reach=at.full(p_reach, 0.0), p_strong=at.full(p_strong, 0.0),
         cloud_source=cloud.source, cloud_models=cloud.models, cloud_model_pct=cloud.model_pct,
@@ -410,6 +422,72 @@ class _StepsAt:
         out = np.full(values.shape[:-1] + self.work.shape, fill, dtype=values.dtype)
         out[..., self.work] = values
         return out
+
+
+def outing_for(hours, times_utc, night_index, tz, step_min, mlt, dark, drive_min, lon):
+    """(outing (T,), usable (N, T)): the outing hours and the steps a group can be at each site.
+
+    ``hours`` is the operator's :class:`auroraplan.nights.OutingHours`; unset ends come from
+    the sites' magnetic midnight (``mlt``, AACGM-v2 MLT, Shepherd 2014), with local mean
+    solar time standing in for MLT where AACGM-v2 is undefined. The operator's ends are
+    met by the drive there and back (:func:`auroraplan.nights.at_site`).
+    """
+    from auroraplan import nights
+
+    mlt = np.asarray(mlt, float)
+    if np.isnan(mlt).any():
+        hours_utc = (np.asarray(times_utc, "datetime64[s]").astype(np.int64) % 86400) / 3600.0
+        solar = np.mod(hours_utc[None, :] + np.asarray(lon, float)[:, None] / 15.0, 24.0)
+        mlt = np.where(np.isnan(mlt), solar, mlt)
+    outing = nights.outing_steps(hours, times_utc, night_index, tz, step_min, mlt, dark)
+    usable = outing[None, :] & nights.at_site(hours, times_utc, tz, drive_min, step_min)
+    return outing, usable
+
+
+OUTSIDE_HOURS_SHOWN = 5
+"""Sites named one by one in the outside-the-hours warning; the rest are counted."""
+
+
+def outside_hours_warnings(names, times_utc, night_index, unlimited, usable, hours, tz):
+    """Lines naming sites whose best time falls outside the operator's outing hours.
+
+    ``unlimited`` (N, T) is the chance with darkness but no outing hours; ``usable`` (N, T)
+    the steps a group can be at each site. A site-night is named when its best step lies
+    outside ``usable`` and beats the best inside by more than the tie margin of the best
+    window (0.1 %). One line per site, with the nights affected and the clock times.
+    """
+    from auroraplan import nights
+
+    values = np.nan_to_num(np.asarray(unlimited, float), nan=0.0)
+    night_index = np.asarray(night_index)
+    found: dict[int, list] = {}
+    for night in np.unique(night_index):
+        cols = np.flatnonzero(night_index == night)
+        block = values[:, cols]
+        best = np.argmax(block, axis=1)
+        top = block[np.arange(block.shape[0]), best]
+        inside = np.where(usable[:, cols], block, 0.0).max(axis=1)
+        outside = ~usable[np.arange(block.shape[0]), cols[best]]
+        for i in np.flatnonzero(outside & (top > 0) & (top > inside * (1.0 + 1e-3) + 1e-12)):
+            found.setdefault(int(i), []).append(cols[best[i]])
+    if not found:
+        return []
+    n_nights = np.unique(night_index).size
+    lines = []
+    for i in list(found)[:OUTSIDE_HOURS_SHOWN]:
+        clocks = sorted(nights.local_minutes(np.asarray(times_utc)[found[i]], tz),
+                        key=lambda m: nights.night_minute(m))
+        span = "–".join(dict.fromkeys(f"{m // 60:02d}:{m % 60:02d}"
+                                      for m in (clocks[0], clocks[-1])))
+        on = "tonight" if n_nights == 1 else f"on {len(found[i])} of {n_nights} nights"
+        lines.append(
+            f"{names[i]}: the best time for aurora ({span} local, {on}) falls outside the "
+            f"outing hours ({hours.text()}, [planner] outing_from / outing_until, with the "
+            "drive there and back); widen them to count it")
+    if len(found) > OUTSIDE_HOURS_SHOWN:
+        lines.append(f"{len(found) - OUTSIDE_HOURS_SHOWN} more sites have their best time "
+                     "outside the outing hours")
+    return lines
 
 
 LOOK_KP_BELOW_LOST = 0.01

@@ -75,7 +75,7 @@ def no_darkness(grid, dates, level: str, lat: float, outing) -> dict:
     if not rows:
         return {"nights": [], "note": None}
     deg = sky.DARKNESS_DEG[level]
-    hours = f"({outing.outing_from}–{outing.outing_until})"
+    hours = f"({grid.outing_hours or outing.text()})"
     parts = []
     for reason, words in NO_DARKNESS_WORDS.items():
         got = [r["date"] for r in rows if r["reason"] == reason]
@@ -666,9 +666,8 @@ def site_timeline(ws, date: dt.date, site_name: str, climatology=None) -> dict:
         climatology = workspace_climatology(ws)
     grid, _ = _grid_for_nights(ws, [site], date, 1, DEFAULT_STEP_MIN, climatology,
                                all_steps=True)
-    outing = ws.settings.outing
     return {
-        "site": f"{site.name} (outings {outing.outing_from}–{outing.outing_until})",
+        "site": f"{site.name} (outings {grid.outing_hours})",
         "date": date.isoformat(),
         "timezone": tz,
         "darkness_level": ws.settings.viewing.darkness,
@@ -777,13 +776,17 @@ def week_report(ws, start: dt.date, nights: int = 7, now=None,
             "outings": trip.outings, "nights": rows,
         })
 
-    plan = []
+    plan, late_notes = [], []
     for (r, d, s), b in zip(chosen, backups, strict=True):
         site = sites[s]
         start_t, end_t = summary.window_start[s, d], summary.window_end[s, d]
         drive = np.timedelta64(int(round(site.drive_min)), "m")
         pickup = _floor_5min(start_t - drive) if not np.isnat(start_t) else start_t
         back = _ceil_5min(end_t + drive) if not np.isnat(end_t) else end_t
+        late = ws.settings.outing.back_late(dates[d], back, tz)
+        if late:
+            late_notes.append(late_return_warning(trips[r], dates[d], site.name, back, tz,
+                                                  ws.settings.outing))
         plan.append({
             "trip": trips[r].trip,
             "group": trips[r].group,
@@ -796,6 +799,7 @@ def week_report(ws, start: dt.date, nights: int = 7, now=None,
             "window_end": local_iso(end_t, tz),
             "pickup": local_iso(pickup, tz),
             "return": local_iso(back, tz),
+            "back_after_hours": late,
             "drive_min": site.drive_min,
             "lat": site.lat, "lon": site.lon,
             "backup_lat": sites[b].lat if b is not None else None,
@@ -834,7 +838,7 @@ def week_report(ws, start: dt.date, nights: int = 7, now=None,
         },
         "cloud_note": grid.cloud_note,
         "cloud_models": grid.cloud_models,
-        "warnings": shortfalls + [note_warning(w) for w in dict.fromkeys(
+        "warnings": shortfalls + late_notes + [note_warning(w) for w in dict.fromkeys(
             ws.warnings + grid.warnings + record_notes)],
         "cautions": CAUTIONS,
         "notice": FORECAST_NOT_PROMISE,
@@ -850,6 +854,15 @@ def _week_forecast_info(ws, grid, summary) -> dict:
         if gaps["gaps"]:
             info.update(gaps=gaps["gaps"], note=gaps["note"])
     return info
+
+
+def late_return_warning(trip, night: dt.date, site: str, back, tz: str, hours) -> dict:
+    """The warning for an outing back at the base after the operator's ``outing_until``."""
+    return {"trip": trip.trip, "asked": None, "planned": None, "reason": "back after hours",
+            "message": (f"{trip.trip} ({trip.group}) on {night.isoformat()}: back from {site} "
+                        f"at {local_iso(back, tz)[11:16]}, after outing_until "
+                        f"{hours.outing_until}; start earlier, choose a nearer site or set a "
+                        "later [planner] outing_until")}
 
 
 def note_warning(message: str) -> dict:

@@ -233,6 +233,8 @@ def run_sheet(tonight: dict, week: dict, trip_id: str, operator_settings=None,
         "backup": backup,
         "backup_name": outing.get("backup") if outing else None,
         "drive_min": outing.get("drive_min") if outing else None,
+        # Back at the base after the operator's [planner] outing_until (week_report flags it).
+        "back_after_hours": bool(outing.get("back_after_hours")) if outing else False,
         "window_start": (main or {}).get("window_start") or (outing or {}).get("window_start"),
         "window_end": (main or {}).get("window_end") or (outing or {}).get("window_end"),
         "decision": decision,
@@ -313,4 +315,17 @@ def age_sentences(sheet: dict, w) -> list[str]:
             t = _instant(fields.pop("until_utc"))
             fields["time"] = f"{t.day} {t:%b %H:%M} UTC"
         out.append(w(AGE_WORDS[item["key"]], **fields))
+    return out
+
+
+BACK_AFTER_HOURS = ("Back at {time}, after the operator's outing hours: agree the return "
+                    "with the office before you leave.")
+
+
+def notice_sentences(sheet: dict, w) -> list[str]:
+    """The sheet's notices: old or missing data (:func:`age_sentences`), then a return
+    after the operator's outing hours."""
+    out = age_sentences(sheet, w)
+    if sheet.get("back_after_hours"):
+        out.append(w(BACK_AFTER_HOURS, time=w.clock(sheet.get("return"))))
     return out

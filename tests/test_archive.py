@@ -91,8 +91,10 @@ def test_the_run_keeps_its_inputs_settings_and_lead_time(recorded):
     made = dt.datetime.fromisoformat(run["made_at"])
     start = dt.datetime.fromisoformat(night["outing_start"].replace("Z", "+00:00"))
     assert night["lead_hours"] == pytest.approx((start - made).total_seconds() / 3600, abs=1e-6)
-    # outing hours start at 18:00 local (Europe/Oslo, UTC+1 in January)
-    assert night["outing_start"] == "2027-01-12T17:00:00Z"
+    # The demo sets no outing hours: they start six hours before the sites' mean magnetic
+    # midnight (nights.DEFAULT_OUTING_H), 16:40 UTC on this night near Tromsø
+    # (tests/test_outing_hours.py checks such instants against aacgmv2).
+    assert night["outing_start"] == "2027-01-12T16:40:00Z"
 
 
 def test_factors_rebuild_the_night_chance(recorded):

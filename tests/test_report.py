@@ -15,6 +15,7 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 import pytest
+from small_workspace import night_from_hours
 
 from auroraplan import report
 from auroraplan.workspace import load_workspace
@@ -321,19 +322,6 @@ def test_a_gap_inside_tonights_forecast_is_named_by_its_hours(ws):
 # --- the three chance figures -------------------------------------------------------------
 
 
-def _night_from_hours(hours):
-    """The night's chance recomputed from the hour rows by its definition: cloud one weather
-    state through the night (hours coupled comonotonically, clearest first), displays
-    independent from hour to hour (Notes of chance.p_display_seen)."""
-    rows = sorted(hours, key=lambda h: -h["p_clear"])
-    clear = [h["p_clear"] for h in rows] + [0.0]
-    total, missed = 0.0, 1.0
-    for k, h in enumerate(rows):
-        missed *= 1.0 - h["chance_if_clear"]
-        total += (clear[k] - clear[k + 1]) * (1.0 - missed)
-    return total
-
-
 def test_night_hour_and_chart_chances_agree_with_their_definitions(ws, storm_night):
     # Delta Flats on the storm night once read 94 % for the night, 52 % at the top hour bar
     # and about 77 % on the chart: three numbers under one name. Now each has its own name
@@ -345,7 +333,7 @@ def test_night_hour_and_chart_chances_agree_with_their_definitions(ws, storm_nig
         for h in hours:
             assert h["chance_in_hour"] == pytest.approx(h["chance_if_clear"] * h["p_clear"],
                                                         abs=0.01)
-        assert site["chance"] == pytest.approx(_night_from_hours(hours), abs=0.02)
+        assert site["chance"] == pytest.approx(night_from_hours(hours), abs=0.02)
         assert site["chance"] >= max(h["chance_in_hour"] for h in hours) - 1e-9
     flats = next(s for s in storm_night["sites"] if s["name"] == "Delta Flats")
     line = report.site_timeline(ws, STORM_NIGHT, "Delta Flats")

@@ -186,7 +186,7 @@ def print_run_sheet(sheet):
     from auroraplan.commands._common import console
     from auroraplan.commands._text import clock, span
     from auroraplan.i18n import Words
-    from auroraplan.runsheet import age_sentences, call_words
+    from auroraplan.runsheet import call_words, notice_sentences
 
     out = console()
     w = Words()
@@ -198,7 +198,7 @@ def print_run_sheet(sheet):
         out.print(escape(f"pick-up {clock(sheet['pickup'])} at {sheet['pickup_place']['name']} · "
                          f"{sheet['site_name']} · backup {sheet['backup_name'] or '—'} · "
                          f"window {span(sheet['window_start'], sheet['window_end'])}"))
-    for text in age_sentences(sheet, w):
+    for text in notice_sentences(sheet, w):
         out.print(f"[bold yellow]{escape(text)}[/]")
 
 

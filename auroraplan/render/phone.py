@@ -458,7 +458,7 @@ def phone_page_html(report: dict, language: str = "en") -> str:
 def _age(sheet: dict, report: dict, w: Words) -> str:
     """Old or missing data in plain, large words; JavaScript adds the forecast's age as
     read on the device's clock when the page is opened later."""
-    lines = [f"<p>{_e(text)}</p>" for text in runsheet.age_sentences(sheet, w)]
+    lines = [f"<p>{_e(text)}</p>" for text in runsheet.notice_sentences(sheet, w)]
     fc = report.get("forecast") or {}
     live = ""
     if fc.get("kind") == "forecast" and fc.get("issued_utc") and not any(
