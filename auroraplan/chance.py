@@ -259,10 +259,10 @@ def compute_grid(
         IANA time zone of the base (outing hours are local clock hours).
     settings : auroraplan.settings.Settings
         The stage settings: ``viewing``, ``activity``, ``chance`` and ``outing``.
-    activity : pandas.DataFrame, optional
+    activity : csvcolumns.ActivityTable or pandas.DataFrame, optional
         The Kp forecast (``start_utc``, ``kp``, ``kp_sd``); None or empty = no forecast,
         as in long-range work (season), where the climatology serves alone.
-    clouds : pandas.DataFrame, optional
+    clouds : csvcolumns.CloudTable or pandas.DataFrame, optional
         Hourly cloud per site (``site``, ``time_utc``, ``cloud_pct``); None or empty = each
         site's monthly clear-sky fraction.
     climatology : object with ``p_kp_at_least(kp_needed, times_utc)``, optional
@@ -321,7 +321,7 @@ def compute_grid(
     if has_forecast and hasattr(climatology, "p_kp_at_least_with_recurrence"):
         from auroraplan.nights import utc_datetime64
 
-        known = (utc_datetime64(activity["start_utc"]), activity["kp"].to_numpy(float))
+        known = (utc_datetime64(activity["start_utc"]), np.asarray(activity["kp"], dtype=float))
 
     # The oval, the look and the moonlit sky only where a chance can be shown.
     # With the operator's own hours, every dark step: a site's best time outside them is

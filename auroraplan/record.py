@@ -118,7 +118,8 @@ def inputs_digest(ws, what_if: list[str] | tuple = ()) -> dict:
         *(f"{p.name}:{p.stat().st_size}:{p.stat().st_mtime_ns}" for p in model_files
           if p.is_file())))
     activity = ws.activity
-    kp_text = "" if activity is None or not len(activity) else activity.to_csv(index=False)
+    kp_text = "" if activity is None or not len(activity) else (
+        activity.csv_text() if hasattr(activity, "csv_text") else activity.to_csv(index=False))
     return {
         "forecast": _digest((forecast + kp_text).encode()),
         "vehicles": getattr(ws.operator, "vehicles", None),

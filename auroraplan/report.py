@@ -152,8 +152,10 @@ def forecast_info(ws, kinds, times_utc=None) -> dict:
     first = last = None
     gaps: list[str] = []
     if df is not None and len(df):
-        first_t = np.datetime64(df["start_utc"].min().tz_convert(None), "s")
-        last_t = np.datetime64(df["start_utc"].max().tz_convert(None), "s")
+        from auroraplan.nights import utc_datetime64
+
+        starts = utc_datetime64(df["start_utc"])
+        first_t, last_t = starts.min(), starts.max()
         first, last = utc_iso(first_t), utc_iso(last_t)
         if times_utc is not None:
             gaps = _forecast_gaps(np.asarray(times_utc, "datetime64[s]"), np.asarray(kinds),

@@ -132,9 +132,10 @@ def apply(ws, assumptions: Assumptions, first: dt.date, last: dt.date):
         changes["trips"] = [t for t in ws.trips if t.trip not in a.without]
         labels.extend(f"trip left out: {trip}" for trip in a.without)
     if a.kp_shift is not None:
-        activity = ws.activity.copy()
-        activity["kp"] = (activity["kp"] + a.kp_shift).clip(*KP_RANGE)
-        changes["activity"] = activity
+        import numpy as np
+
+        kp = np.clip(np.asarray(ws.activity["kp"], dtype=float) + a.kp_shift, *KP_RANGE)
+        changes["activity"] = ws.activity.replace(kp=kp)
         labels.append(f"Kp forecast shifted by {a.kp_shift:+g} (within 0 to 9)")
     if a.kp is not None:
         changes["activity"] = constant_kp(a.kp, first - dt.timedelta(days=1),
@@ -144,11 +145,12 @@ def apply(ws, assumptions: Assumptions, first: dt.date, last: dt.date):
 
 
 def constant_kp(kp: float, first: dt.date, end: dt.date):
-    """An activity frame with the same Kp in every 3-hour UT block from ``first`` to ``end``."""
+    """An activity table with the same Kp in every 3-hour UT block from ``first`` to ``end``."""
     import numpy as np
-    import pandas as pd
 
-    starts = pd.date_range(pd.Timestamp(first, tz="UTC"), pd.Timestamp(end, tz="UTC"),
-                           freq="3h", inclusive="left")
-    return pd.DataFrame({"start_utc": starts, "kp": np.full(len(starts), float(kp)),
-                         "kp_sd": np.full(len(starts), np.nan)})
+    from auroraplan.csvcolumns import ActivityTable
+
+    starts = np.arange(np.datetime64(first, "s"), np.datetime64(end, "s"),
+                       np.timedelta64(3 * 3600, "s"))
+    return ActivityTable(start_utc=starts, kp=np.full(len(starts), float(kp)),
+                         kp_sd=np.full(len(starts), np.nan))

@@ -16,8 +16,9 @@ from pathlib import Path
 
 import numpy as np
 
-from auroraplan import checks
+from auroraplan import checks, csvcolumns
 from auroraplan.activity import BLOCK_HOURS, parse_kp
+from auroraplan.csvcolumns import ActivityTable, CloudTable
 from auroraplan.errors import InputError, ProblemList
 from auroraplan.planner import Fleet, Guide, Vehicle
 from auroraplan.settings import TABLES, Settings
@@ -80,8 +81,8 @@ class Workspace:
     operator: Operator
     sites: list[Site]
     trips: list[Trip]
-    activity: object  # pandas.DataFrame: start_utc (UTC), kp (float), kp_sd (float, NaN = default)
-    clouds: object  # pandas.DataFrame: site, time_utc (UTC), cloud_pct (float)
+    activity: object  # csvcolumns.ActivityTable: start_utc (UTC), kp, kp_sd (NaN = default)
+    clouds: object  # csvcolumns.CloudTable: site, time_utc (UTC), cloud_pct
     settings: Settings = field(default_factory=Settings)  # every stage's settings record
     files: dict = field(default_factory=dict)  # role -> Path actually read
     warnings: list = field(default_factory=list)
@@ -851,30 +852,14 @@ def _block_start(text):
     return start
 
 
-def _utc_column(values):
-    """Aware UTC datetimes as a pandas datetime64[ns, UTC] column."""
-    import pandas as pd
-
-    return pd.Series(pd.to_datetime([v.replace(tzinfo=None) for v in values], utc=True))
-
-
-def _empty_activity():
-    import pandas as pd
-
-    return pd.DataFrame({"start_utc": pd.Series([], dtype="datetime64[ns, UTC]"),
-                         "kp": pd.Series([], dtype=float), "kp_sd": pd.Series([], dtype=float)})
-
-
-def _empty_clouds():
-    import pandas as pd
-
-    return pd.DataFrame({"site": pd.Series([], dtype=object),
-                         "time_utc": pd.Series([], dtype="datetime64[ns, UTC]"),
-                         "cloud_pct": pd.Series([], dtype=float)})
-
-
 def _load_activity(path, label, problems: ProblemList):
-    """(block starts, Kp, Kp spread) lists, or None; the frame is built once all files are good."""
+    """ActivityTable, or None with the problems added. A large file is read column-wise
+    (auroraplan.csvcolumns); one it cannot vouch for is read row by row, which names
+    each bad row."""
+    table = csvcolumns.read_activity(path, *CSV_COLUMNS["activity"], parse_kp, _kp_sd,
+                                     BLOCK_HOURS * 3600)
+    if table is not None:
+        return table
     text = _read_text(path, label, problems)
     if text is None:
         return None
@@ -898,15 +883,7 @@ def _load_activity(path, label, problems: ProblemList):
         starts.append(start)
         kps.append(kp)
         sds.append(sd)
-    return None if problems else (starts, kps, sds)
-
-
-def _activity_frame(starts, kps, sds):
-    import pandas as pd
-
-    frame = pd.DataFrame({"start_utc": _utc_column(starts), "kp": np.array(kps, dtype=float),
-                          "kp_sd": np.array(sds, dtype=float)})
-    return frame.sort_values("start_utc", kind="stable").reset_index(drop=True)
+    return None if problems else ActivityTable.from_rows(starts, kps, sds)
 
 
 CLOUD_UNITS = {"%": "percent", "percent": "percent", "pct": "percent", "fraction": "fraction",
@@ -931,12 +908,18 @@ def _cloud_value(unit):
 
 
 def _load_clouds(path, label, site_names, problems: ProblemList, default_unit="percent"):
-    """(site names, hours, cloud %) lists, or None; the frame is built once all files are good.
+    """CloudTable, or None with the problems added. A large file is read column-wise
+    (auroraplan.csvcolumns); one it cannot vouch for is read row by row, which names
+    each bad row.
 
     ``cloud_pct`` is percent unless the row's ``unit`` column or ``[weather] clouds_unit``
     says fraction. A file whose values all lie within 0-1 (and are not all 0) with no unit
     saying fraction is rejected: 0.7 % is far likelier to be a fraction typed as percent.
     """
+    table = csvcolumns.read_clouds(path, *CSV_COLUMNS["clouds"], site_names, _cloud_unit,
+                                   _cloud_value, default_unit)
+    if table is not None:
+        return table
     text = _read_text(path, label, problems)
     if text is None:
         return None
@@ -986,15 +969,7 @@ def _load_clouds(path, label, site_names, problems: ProblemList, default_unit="p
             "looks like fractions; write percent 0-100, or add a column unit with "
             "'fraction', or set clouds_unit = \"fraction\" in [weather] of operator.toml"
         )
-    return None if problems else (names, times, clouds)
-
-
-def _clouds_frame(names, times, clouds):
-    import pandas as pd
-
-    frame = pd.DataFrame({"site": pd.Series(names, dtype=object), "time_utc": _utc_column(times),
-                          "cloud_pct": np.array(clouds, dtype=float)})
-    return frame.sort_values(["site", "time_utc"], kind="stable").reset_index(drop=True)
+    return None if problems else CloudTable.from_rows(names, times, clouds)
 
 
 # ---------------------------------------------------------------------------------------
@@ -1067,8 +1042,9 @@ def load_workspace(path) -> Workspace:
     -------
     Workspace
         ``settings`` holds every stage's settings record (auroraplan.settings.Settings)
-        filled from operator.toml, defaults where a key is not written. ``activity`` and ``clouds`` are pandas
-        DataFrames with aware UTC times; a missing optional file gives an empty frame and a
+        filled from operator.toml, defaults where a key is not written. ``activity`` and ``clouds`` are
+        tables of numpy columns (csvcolumns.ActivityTable, CloudTable; ``to_frame()`` for
+        pandas) with UTC datetime64 times; a missing optional file gives an empty table and a
         line in ``warnings``.
 
     Raises
@@ -1136,8 +1112,8 @@ def load_workspace(path) -> Workspace:
         operator=operator,
         sites=sites,
         trips=trips,
-        activity=_activity_frame(*activity) if activity is not None else _empty_activity(),
-        clouds=_clouds_frame(*clouds) if clouds is not None else _empty_clouds(),
+        activity=activity if activity is not None else ActivityTable.from_rows(),
+        clouds=clouds if clouds is not None else CloudTable.from_rows(),
         files=dict(found),
         warnings=warnings,
         settings=settings,

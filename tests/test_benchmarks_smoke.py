@@ -40,11 +40,11 @@ def test_forecasts_cover_the_first_three_nights_for_every_site(tmp_path):
     ws = load_workspace(make_workspace(tmp_path, 12, 3, FIRST, nights=7))
     evening = pd.Timestamp("2027-01-11T12:00Z")
     last_morning = pd.Timestamp("2027-01-14T11:00Z")
-    per_site = ws.clouds.groupby("site")["time_utc"].agg(["min", "max", "count"])
+    per_site = ws.clouds.to_frame().groupby("site")["time_utc"].agg(["min", "max", "count"])
     assert len(per_site) == 12
     assert (per_site["min"] == evening).all() and (per_site["max"] == last_morning).all()
     assert (per_site["count"] == 72).all()  # hourly, 3 x 24 hours
-    blocks = ws.activity["start_utc"]
+    blocks = ws.activity.to_frame()["start_utc"]
     assert blocks.min() <= evening and blocks.max() >= pd.Timestamp("2027-01-14T09:00Z")
     assert (blocks.diff().dropna() == pd.Timedelta(hours=3)).all()
 

@@ -86,8 +86,8 @@ def check_loaded(ws):
         assert 1 <= site.capacity <= 1000
     for trip in ws.trips:
         assert trip.arrive < trip.depart and 1 <= trip.guests <= 1000
-    assert ws.activity["kp"].between(0, 9).all()
-    assert ws.clouds["cloud_pct"].between(0, 100).all()
+    assert ((ws.activity["kp"] >= 0) & (ws.activity["kp"] <= 9)).all()
+    assert ((ws.clouds["cloud_pct"] >= 0) & (ws.clouds["cloud_pct"] <= 100)).all()
     cfg = ws.settings.chance  # validated at load time, so it never fails afterwards
     for key in ("display_quiet", "display_active"):
         assert 0 <= getattr(cfg, key) <= 1

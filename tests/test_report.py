@@ -89,7 +89,7 @@ def _marginal(ws, kp):
     starts = pd.date_range("2027-01-12T00:00Z", periods=16, freq="3h")
     activity = pd.DataFrame({"start_utc": starts, "kp": float(kp), "kp_sd": 0.3})
     return dataclasses.replace(ws, sites=[twin, open_], activity=activity,
-                               clouds=ws.clouds.iloc[0:0])
+                               clouds=ws.clouds.take(slice(0, 0)))
 
 
 def test_ridge_site_ranks_below_its_open_neighbour_when_activity_is_marginal(ws):
@@ -104,7 +104,7 @@ def test_ridge_site_ranks_below_its_open_neighbour_when_activity_is_marginal(ws)
 
 
 def test_more_cloud_never_raises_a_sites_chance(ws):
-    cloudier = ws.clouds.copy()
+    cloudier = ws.clouds.to_frame()
     cloudier["cloud_pct"] = np.minimum(100.0, cloudier["cloud_pct"] + 25.0)
     base = report.tonight_report(ws, STORM_NIGHT)
     worse = report.tonight_report(dataclasses.replace(ws, clouds=cloudier), STORM_NIGHT)
@@ -114,7 +114,7 @@ def test_more_cloud_never_raises_a_sites_chance(ws):
 
 
 def test_a_stronger_forecast_never_lowers_a_sites_chance(ws):
-    stronger = ws.activity.copy()
+    stronger = ws.activity.to_frame()
     stronger["kp"] = np.minimum(9.0, stronger["kp"] + 1.0)
     base = report.tonight_report(ws, dt.date(2027, 1, 11))
     more = report.tonight_report(dataclasses.replace(ws, activity=stronger), dt.date(2027, 1, 11))
@@ -293,7 +293,7 @@ def test_a_storm_recurs_one_solar_rotation_later_in_the_outlook(ws):
     # 27-day recurrence (Bartels 1934): with the storm of 12 January in the
     # activity file, the outlook for 8 February (27 days later) is better than
     # with a quiet file.
-    quiet = ws.activity.copy()
+    quiet = ws.activity.to_frame()
     quiet["kp"] = 1.0
     later = dt.date(2027, 2, 8)
     storm = report.tonight_report(ws, later)
@@ -308,10 +308,10 @@ def test_a_storm_recurs_one_solar_rotation_later_in_the_outlook(ws):
 def test_a_gap_inside_tonights_forecast_is_named_by_its_hours(ws):
     # Drop the 21Z block of 12 January (22:00-01:00 in Oslo, fully dark at Tromsø): those
     # hours use the outlook and the note says so, rather than calling later nights an outlook.
-    starts = ws.activity["start_utc"]
+    starts = ws.activity.to_frame()["start_utc"]
     gap = starts == pd.Timestamp("2027-01-12T21:00Z")
     assert gap.sum() == 1
-    holed = dataclasses.replace(ws, activity=ws.activity[~gap].reset_index(drop=True))
+    holed = dataclasses.replace(ws, activity=ws.activity.to_frame()[~gap].reset_index(drop=True))
     info = report.tonight_report(holed, STORM_NIGHT)["forecast"]
     assert info["gaps"] == ["22:00–01:00"]
     assert "22:00–01:00" in info["note"] and "outlook" in info["note"]

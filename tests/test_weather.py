@@ -144,7 +144,8 @@ def test_demo_storm_night_is_clearer_inland(demo_dir):
     assert p[by_name["Delta Flats"]].mean() > 0.7
     assert p[by_name["Sound Bay"]].mean() < 0.2
     # every value lies between two forecast hours of that site
-    raw = ws.clouds[ws.clouds.site == "Delta Flats"].set_index("time_utc")["cloud_pct"]
+    frame = ws.clouds.to_frame()
+    raw = frame[frame.site == "Delta Flats"].set_index("time_utc")["cloud_pct"]
     at_2210 = p[by_name["Delta Flats"], 19]  # 22:10Z
     lo, hi = sorted(raw[["2027-01-12T22:00Z", "2027-01-12T23:00Z"]].to_numpy())
     assert 1 - hi / 100 <= at_2210 <= 1 - lo / 100

@@ -70,8 +70,8 @@ def test_a_shifted_kp_forecast_stays_on_the_kp_scale(demo):
     ws = load_workspace(demo)
     shifted, labels = whatif.apply(ws, whatif.Assumptions(kp_shift=3.0), dt.date(2027, 1, 11),
                                    dt.date(2027, 1, 14))
-    expected = np.clip(ws.activity["kp"].to_numpy() + 3.0, 0, 9)
-    np.testing.assert_allclose(shifted.activity["kp"].to_numpy(), expected)
+    expected = np.clip(np.asarray(ws.activity["kp"]) + 3.0, 0, 9)
+    np.testing.assert_allclose(np.asarray(shifted.activity["kp"]), expected)
     assert shifted.activity["kp"].max() == 9.0  # the demo's storm reaches Kp 7-
     assert labels == ["Kp forecast shifted by +3 (within 0 to 9)"]
     assert ws.activity["kp"].max() < 9.0, "the workspace read from the files is unchanged"
@@ -81,7 +81,7 @@ def test_a_replaced_kp_forecast_covers_every_block_of_the_nights(demo):
     ws = load_workspace(demo)
     got, _ = whatif.apply(ws, whatif.Assumptions(kp=5.0), dt.date(2027, 1, 11),
                           dt.date(2027, 1, 20))
-    starts = got.activity["start_utc"]
+    starts = got.activity.to_frame()["start_utc"]
     assert (got.activity["kp"] == 5.0).all()
     assert starts.iloc[0] <= pd.Timestamp("2027-01-10T00:00Z")
     assert starts.iloc[-1] >= pd.Timestamp("2027-01-21T21:00Z")
