@@ -160,13 +160,37 @@ def night_minute(minute_of_day, closing: bool = False):
     return shift % 1440
 
 
+def local_datetime64(times_utc, tz: str) -> np.ndarray:
+    """Local wall-clock times (naive datetime64[s], any shape) of UTC instants on ``tz``'s
+    clock, from the IANA tz database (zoneinfo).
+
+    The zone's UTC offset is looked up at the start and end of each distinct UTC hour;
+    only within an hour whose offset changes (a clock change, at any minute) is each
+    time looked up alone.
+    """
+    times = np.asarray(times_utc, "datetime64[s]")
+    seconds = times.ravel().astype(np.int64)
+    if not seconds.size:
+        return times.copy()
+    zone = zone_of(tz)
+
+    def offset(second) -> int:
+        when = dt.datetime.fromtimestamp(int(second), dt.UTC).astimezone(zone)
+        return int(when.utcoffset().total_seconds())
+
+    hours, back = np.unique(seconds // 3600, return_inverse=True)
+    at_start = np.array([offset(h * 3600) for h in hours])
+    at_end = np.array([offset(h * 3600 + 3599) for h in hours])
+    shift = at_start[back]
+    for i in np.flatnonzero((at_start != at_end)[back]):
+        shift[i] = offset(seconds[i])
+    return (seconds + shift).astype("datetime64[s]").reshape(times.shape)
+
+
 def local_minutes(times_utc, tz: str) -> np.ndarray:
     """Local clock minute of the day (0-1439) of UTC instants (any shape), on ``tz``'s clock."""
-    import pandas as pd
-
-    times = np.asarray(times_utc, "datetime64[s]")
-    local = pd.DatetimeIndex(times.ravel()).tz_localize("UTC").tz_convert(tz)
-    return np.asarray(local.hour * 60 + local.minute).reshape(times.shape)
+    local = local_datetime64(times_utc, tz).astype(np.int64)
+    return (local % 86400) // 60
 
 
 @dataclass(frozen=True)

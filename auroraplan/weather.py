@@ -109,9 +109,9 @@ def local_month_index(lon_deg, times_utc, tz=None):
     times = utc_datetime64(times_utc)
     lon = np.asarray(lon_deg, dtype=float)
     if tz is not None:
-        import pandas as pd
+        from auroraplan.nights import local_datetime64
 
-        local = pd.DatetimeIndex(times).tz_localize("UTC").tz_convert(tz).month.to_numpy() - 1
+        local = local_datetime64(times, tz).astype("datetime64[M]").astype(np.int64) % 12
         return np.broadcast_to(local, (lon.size, times.size)).copy()
     shift = np.round(lon * 240.0).astype("timedelta64[s]")  # 240 s of time per degree
     local = times[None, :] + shift[:, None]
