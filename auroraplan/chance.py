@@ -244,6 +244,7 @@ def site_arrays(sites):
 def compute_grid(
     sites, times_utc, night_index, step_min, *, tz, settings, activity=None, clouds=None,
     climatology=None, table=None, nowcast=None, cloud=None, all_steps=False,
+    warn_outside_hours=True,
 ):
     """Chance per site and time step.
 
@@ -280,6 +281,10 @@ def compute_grid(
         at :func:`working_steps` (dark outing steps and an hour around them); elsewhere
         the chance is 0 and ``kp_needed`` and the look are NaN, ``moon`` 1 and
         ``activity`` 0. A timeline over the whole night asks for every step.
+    warn_outside_hours : bool
+        When the operator set outing hours, name the sites whose best time falls outside
+        them (:func:`outside_hours_warnings`; it needs every dark step worked out). Long
+        ranges (season) leave it out.
     """
     from auroraplan import magnetic, sky, view, weather
     from auroraplan.activity import forecast_at
@@ -326,8 +331,9 @@ def compute_grid(
     # The oval, the look and the moonlit sky only where a chance can be shown.
     # With the operator's own hours, every dark step: a site's best time outside them is
     # looked for (outside_hours_warnings).
+    warn_outside = warn_outside_hours and settings.outing.set_by_operator
     work = np.ones(times_utc.shape, bool) if all_steps else working_steps(
-        dark if settings.outing.set_by_operator else darkness, step_min)
+        dark if warn_outside else darkness, step_min)
     at = _StepsAt(work)
     kp_needed_w = view.kp_needed_at(table, mlt[:, work])
     kp_lost_w = view.kp_lost_at(table, mlt[:, work])
@@ -370,7 +376,7 @@ def compute_grid(
     # around it; also the expected share of the step with a display in sight.
     moon, activity = at.full(moon_w, 1.0), at.full(activity, 0.0)
     chance = darkness * moon * activity * p_clear
-    if settings.outing.set_by_operator:
+    if warn_outside:
         warnings.extend(outside_hours_warnings(
             [s.name for s in sites], times_utc, night_index, dark * moon * activity * p_clear,
             usable, settings.outing, tz))

@@ -325,6 +325,7 @@ def tonight_report(ws, date: dt.date, top: int | None = None, now=None, climatol
         "dark_end": (local_iso(grid.times_utc[dark_cols[-1]] + np.timedelta64(DEFAULT_STEP_MIN, "m"), tz)
                      if dark_cols.size else None),
         "moon_illumination": _num(np.mean(grid.moon_illumination), 2),
+        "outing_hours": outing_hours_info(grid, ws.settings.outing),
         "darkness_note": dark_note["note"],
         "no_darkness": dark_note["nights"],
         "closed_note": closed_note,
@@ -824,6 +825,7 @@ def week_report(ws, start: dt.date, nights: int = 7, now=None,
         "forecast": _week_forecast_info(ws, grid, summary),
         "vehicles": int(ws.operator.vehicles),
         "night_kinds": [{"date": d.isoformat(), "kind": k} for d, k in zip(dates, summary.kind, strict=True)],
+        "outing_hours": outing_hours_info(grid, ws.settings.outing),
         "darkness_note": dark_note["note"],
         "no_darkness": dark_note["nights"],
         "closed_note": all_closed_note(ws),
@@ -856,6 +858,14 @@ def _week_forecast_info(ws, grid, summary) -> dict:
         if gaps["gaps"]:
             info.update(gaps=gaps["gaps"], note=gaps["note"])
     return info
+
+
+def outing_hours_info(grid, hours) -> dict:
+    """The outing hours a report counted: local "HH:MM–HH:MM" of its first night, and the
+    operator's limits (None where derived from the sites' magnetic midnight)."""
+    return {"hours": grid.outing_hours, "outing_from": hours.outing_from,
+            "outing_until": hours.outing_until,
+            "derived": hours.outing_from is None or hours.outing_until is None}
 
 
 def late_return_warning(trip, night: dt.date, site: str, back, tz: str, hours) -> dict:
@@ -1087,7 +1097,7 @@ def season_report(ws, first: dt.date, last: dt.date, trip_nights: int = 5, progr
         times, night_index = nights_mod.night_times(start, n, tz, step)
         grid = chance_mod.compute_grid(
             sites, times, night_index, step, tz=tz, settings=ws.settings,
-            climatology=climatology, table=table,
+            climatology=climatology, table=table, warn_outside_hours=False,
         )
         summary = chance_mod.summarise_nights(grid, n, ws.settings.chance)
         p_any[:, done:done + n] = np.nan_to_num(summary.p_any, nan=0.0)

@@ -149,6 +149,12 @@ def test_a_base_west_of_greenwich_is_no_longer_cut_off_before_magnetic_midnight(
     late = [w for w in fixed["warnings"] if w.startswith("Lakeshore: the best time")]
     assert len(late) == 1 and "outside the outing hours (18:00–02:00" in late[0]
     assert not any("best time" in w for w in derived["warnings"])
+    # The report says which hours it counted: derived here (about 21:00-06:00, six hours
+    # before to three after magnetic midnight near 02:55 local), the operator's there.
+    assert derived["outing_hours"]["derived"] and not fixed["outing_hours"]["derived"]
+    assert fixed["outing_hours"]["hours"] == "18:00–02:00"
+    start, end = derived["outing_hours"]["hours"].split("–")
+    assert "20:40" <= start <= "21:10" and "05:40" <= end <= "06:10"
 
 
 def test_one_end_set_keeps_the_derived_other_end(lakeshore):
@@ -239,3 +245,24 @@ def test_outing_until_is_taken_on_the_night_of_a_clock_change():
 
 def test_settings_record_defaults_leave_the_hours_to_the_sky():
     assert Settings().outing == OutingHours(None, None)
+
+
+def test_the_season_outlook_leaves_out_the_best_time_warnings(lakeshore):
+    # Long ranges skip the search for best times outside the operator's hours (it would need
+    # every dark step of every night worked out); tonight and the week carry it.
+    season = report.season_report(lakeshore["fixed"], dt.date(2027, 1, 12),
+                                  dt.date(2027, 1, 18), trip_nights=3)
+    assert not any("best time" in w for w in season["warnings"])
+    week = report.week_report(lakeshore["fixed"], dt.date(2027, 1, 12), nights=3)
+    assert any(w["message"].startswith("Lakeshore: the best time") and "of 3 nights" in
+               w["message"] for w in week["warnings"])
+
+
+def test_the_terminal_header_names_the_outing_hours(lakeshore, capsys, monkeypatch):
+    from auroraplan import cli
+
+    monkeypatch.setenv("COLUMNS", "200")
+    for key, words in (("derived", "(from magnetic midnight)"), ("fixed", "outings 18:00–02:00")):
+        assert cli.main(["tonight", str(lakeshore[key].path), "--date", "2027-01-12"]) == 0
+        out = capsys.readouterr().out
+        assert words in " ".join(out.split()), out
