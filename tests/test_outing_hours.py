@@ -184,11 +184,14 @@ def test_the_drive_back_is_met_before_outing_until(lakeshore):
     assert not any(w["reason"] == "back after hours" for w in week["warnings"])
 
 
-def test_a_return_after_outing_until_is_flagged_in_the_plan_and_the_run_sheet(tmp_path):
+def test_a_return_after_outing_until_is_flagged_in_the_plan_and_the_run_sheet(tmp_path, capsys,
+                                                                            monkeypatch):
     # Hours too short for the shortest best window (30 min): 19:00-20:00 local with a
     # 20-minute drive leaves 20 minutes at the site, so the window reaches past 19:40 and the
     # group is back after 20:00. The plan flags it (JSON and warnings) and the run sheet too.
     from auroraplan import runsheet
+
+    monkeypatch.setenv("COLUMNS", "200")
 
     ws = load_workspace(make_workspace(
         tmp_path / "w", base=TROMSO, tz="Europe/Oslo", sites=[("Fjordside", *TROMSO, False)],
@@ -213,6 +216,12 @@ def test_a_return_after_outing_until_is_flagged_in_the_plan_and_the_run_sheet(tm
 
     assert any("after the operator's outing hours" in t
                for t in runsheet.notice_sentences(sheet, Words()))
+    # The week's terminal table marks the return and names the warning as late.
+    from auroraplan.commands.week import print_week
+
+    print_week(week)
+    out = " ".join(capsys.readouterr().out.split())
+    assert "late:" in out and "after outing_until 20:00" in out
 
 
 # --- the record itself ------------------------------------------------------------------------

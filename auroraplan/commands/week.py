@@ -188,7 +188,8 @@ def print_week(result):
     plan.add_column("state", no_wrap=True)
     for p in sorted(result["plan"], key=lambda p: (p["date"], p["trip"])):
         plan.add_row(short_date(p["date"]) + kind_mark(p["kind"]), m(p["trip"]), m(p["site"]),
-                     chance_cell(p["chance"]), clock(p["pickup"]), clock(p["return"]),
+                     chance_cell(p["chance"]), clock(p["pickup"]),
+                     clock(p["return"]) + (" late" if p.get("back_after_hours") else ""),
                      m(p["backup"] or "—"), p.get("state") or "proposed")
     out.print(plan if result["plan"] else "[bold]No outings planned[/] for these dates.")
     if result.get("solver"):
@@ -197,7 +198,8 @@ def print_week(result):
               "Chances are forecasts, not promises.[/]")
     print_record(out, result)
     for w in result.get("warnings", []):
-        label = "[bold yellow]short:[/]" if w.get("trip") else "[yellow]note:[/]"
+        label = ("[bold yellow]late:[/]" if w.get("reason") == "back after hours"
+                 else "[bold yellow]short:[/]" if w.get("trip") else "[yellow]note:[/]")
         out.print(f"{label} {m(w['message'])}")
 
 
