@@ -303,7 +303,7 @@ def compute_grid(
         table = kp_table(sites, times_utc[len(times_utc) // 2], viewing)
     mlt = magnetic.mlt(table.mlon, times_utc)
     outing, usable = outing_for(settings.outing, times_utc, night_index, tz, step_min, mlt,
-                                dark, arr["drive_min"], arr["lon"])
+                                table.mlon, dark, arr["drive_min"], arr["lon"])
     darkness = (dark & usable).astype(float)
 
     has_forecast = activity is not None and len(activity) > 0
@@ -430,23 +430,33 @@ class _StepsAt:
         return out
 
 
-def outing_for(hours, times_utc, night_index, tz, step_min, mlt, dark, drive_min, lon):
+def outing_for(hours, times_utc, night_index, tz, step_min, mlt, mlon, dark, drive_min, lon):
     """(outing (T,), usable (N, T)): the outing hours and the steps a group can be at each site.
 
     ``hours`` is the operator's :class:`auroraplan.nights.OutingHours`; unset ends come from
-    the sites' magnetic midnight (``mlt``, AACGM-v2 MLT, Shepherd 2014), with local mean
-    solar time standing in for MLT where AACGM-v2 is undefined. The operator's ends are
-    met by the drive there and back (:func:`auroraplan.nights.at_site`).
+    the sites' magnetic midnight. ``mlt`` (N, T) is AACGM-v2 MLT from
+    :func:`auroraplan.magnetic.mlt` (Shepherd 2014, the ``aacgmv2`` package), which is one
+    time term plus mlon / 15 per site, so the sites' circular mean MLT is one site's row
+    plus the circular mean of the others' offsets, without a pass over every site and
+    step. Where AACGM-v2 is undefined for every site (near the magnetic equator), local
+    mean solar time at the sites' mean longitude stands in. The operator's ends are met by
+    the drive there and back (:func:`auroraplan.nights.at_site`).
     """
     from auroraplan import nights
 
-    mlt = np.asarray(mlt, float)
-    if np.isnan(mlt).any():
-        hours_utc = (np.asarray(times_utc, "datetime64[s]").astype(np.int64) % 86400) / 3600.0
-        solar = np.mod(hours_utc[None, :] + np.asarray(lon, float)[:, None] / 15.0, 24.0)
-        mlt = np.where(np.isnan(mlt), solar, mlt)
-    outing = nights.outing_steps(hours, times_utc, night_index, tz, step_min, mlt, dark)
-    usable = outing[None, :] & nights.at_site(hours, times_utc, tz, drive_min, step_min)
+    times = np.asarray(times_utc, "datetime64[s]")
+    mlon = np.asarray(mlon, float)
+    known = np.flatnonzero(np.isfinite(mlon))
+    if known.size:
+        k = known[0]
+        offset = nights.mean_mlt(((mlon[known] - mlon[k]) / 15.0)[:, None])[0]
+        mean = np.mod(np.asarray(mlt, float)[k] + offset, 24.0)
+    else:
+        hours_utc = (times.astype(np.int64) % 86400) / 3600.0
+        mean = nights.mean_mlt(hours_utc[None, :] + np.asarray(lon, float)[:, None] / 15.0)
+    outing = nights.outing_steps(hours, times, night_index, tz, step_min, mean,
+                                 np.asarray(dark).any(axis=0))
+    usable = outing[None, :] & nights.at_site(hours, times, tz, drive_min, step_min)
     return outing, usable
 
 

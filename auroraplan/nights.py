@@ -356,18 +356,19 @@ def at_site(hours: OutingHours, times_utc, tz: str, drive_min, step_min) -> np.n
     return usable[row.ravel()]
 
 
-def outing_steps(hours: OutingHours, times_utc, night_index, tz: str, step_min, mlt, dark):
+def outing_steps(hours: OutingHours, times_utc, night_index, tz: str, step_min, mlt_mean,
+                 dark_any):
     """(T,) outing hours: the derived hours, with the operator's ends in their place.
 
-    Both ends set: the operator's hours alone. One end set: that end, and the derived
-    hours' other end (when that would leave no hours, the ``OUTING_SPAN_H`` hours next to
-    the operator's end). None: :func:`derived_outing` of the sites' mean MLT.
+    ``mlt_mean`` (T,) is the sites' mean MLT (:func:`mean_mlt`), ``dark_any`` (T,) whether
+    any site is dark. Both ends set: the operator's hours alone. One end set: that end, and
+    the derived hours' other end (when that would leave no hours, the ``OUTING_SPAN_H``
+    hours next to the operator's end). None: :func:`derived_outing`.
     """
     times = np.asarray(times_utc, "datetime64[s]")
     if hours.outing_from is not None and hours.outing_until is not None:
         return hours.mask(times, tz)
-    derived = derived_outing(times, mean_mlt(mlt), np.asarray(dark).any(axis=0),
-                             night_index, step_min)
+    derived = derived_outing(times, mlt_mean, dark_any, night_index, step_min)
     if not hours.set_by_operator:
         return derived
     limit = hours.mask(times, tz)

@@ -275,3 +275,30 @@ def test_the_terminal_header_names_the_outing_hours(lakeshore, capsys, monkeypat
         assert cli.main(["tonight", str(lakeshore[key].path), "--date", "2027-01-12"]) == 0
         out = capsys.readouterr().out
         assert words in " ".join(out.split()), out
+
+
+def test_the_sites_mean_magnetic_midnight_from_one_row_matches_the_mean_over_all_rows():
+    # The grid takes the sites' circular mean MLT from one site's row plus the mean of the
+    # others' magnetic-longitude offsets; over every row and step it is the same (up to a
+    # step's rounding). Sites spread over 100 degrees of longitude, both hemispheres.
+    from auroraplan import chance
+
+    lat = np.array([69.65, 64.8, 60.7, 78.2, -54.8, -77.85])
+    lon = np.array([18.96, -147.7, -135.0, 15.6, -68.3, 166.67])
+    times, index = nights.night_times(dt.date(2027, 1, 12), 2, "UTC", 10)
+    _, mlon = magnetic.geo_to_aacgm(lat, lon, 110.0, times[0].astype(object))
+    mlt = magnetic.mlt(mlon, times)
+    dark = np.ones((lat.size, times.size), bool)
+    hours = OutingHours()
+    outing, usable = chance.outing_for(hours, times, index, "UTC", 10, mlt, mlon, dark,
+                                       np.zeros(lat.size), lon)
+    slow = nights.outing_steps(hours, times, index, "UTC", 10, nights.mean_mlt(mlt),
+                               dark.any(axis=0))
+    assert np.array_equal(outing, slow) and np.array_equal(usable[0], outing)
+    # Where AACGM-v2 has no answer for any site, local mean solar time stands in: on the
+    # Greenwich meridian the hours run from 18:00 to 03:00 UTC (solar midnight at 00:00).
+    none = np.full(lat.size, np.nan)
+    fallback, _ = chance.outing_for(hours, times, index, "UTC", 10, mlt * np.nan, none, dark,
+                                    np.zeros(lat.size), np.zeros(lat.size))
+    minutes = nights.local_minutes(times[fallback & (index == 0)], "UTC")
+    assert minutes[0] == 18 * 60 and minutes[-1] == 2 * 60 + 50 and minutes.size == 54
