@@ -275,6 +275,10 @@ def test_the_terminal_header_names_the_outing_hours(lakeshore, capsys, monkeypat
         assert cli.main(["tonight", str(lakeshore[key].path), "--date", "2027-01-12"]) == 0
         out = capsys.readouterr().out
         assert words in " ".join(out.split()), out
+    from auroraplan.commands.week import print_week
+
+    print_week(report.week_report(lakeshore["fixed"], dt.date(2027, 1, 12), nights=2))
+    assert "outings 18:00–02:00" in " ".join(capsys.readouterr().out.split())
 
 
 def test_the_sites_mean_magnetic_midnight_from_one_row_matches_the_mean_over_all_rows():

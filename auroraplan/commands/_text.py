@@ -54,3 +54,11 @@ def short_date(iso_date: str) -> str:
     import datetime as dt
 
     return dt.date.fromisoformat(iso_date).strftime("%a %d %b")
+
+
+def outing_words(info) -> str:
+    """'outings 17:40–02:40 (from magnetic midnight) · ' for the header, or ''."""
+    if not info or not info.get("hours") or info["hours"] == "none":
+        return ""
+    how = " (from magnetic midnight)" if info.get("derived") else ""
+    return f"outings {info['hours']}{how} · "

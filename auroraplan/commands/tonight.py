@@ -266,18 +266,10 @@ def fitting_columns(out, rows: list[dict]) -> list[str] | None:
     return chosen
 
 
-def _outing_words(info) -> str:
-    """'outings 17:40–02:40 (from magnetic midnight) · ' for the header, or ''."""
-    if not info or not info.get("hours") or info["hours"] == "none":
-        return ""
-    how = " (from magnetic midnight)" if info.get("derived") else ""
-    return f"outings {info['hours']}{how} · "
-
-
 def print_tonight(result):
     """The shortlist as a terminal table, or one block per site on a narrow terminal."""
     from auroraplan.commands._common import console
-    from auroraplan.commands._text import print_notes, span
+    from auroraplan.commands._text import outing_words, print_notes, span
     from auroraplan.escape import markup as m
 
     out = console()
@@ -285,7 +277,7 @@ def print_tonight(result):
             if result["dark_start"] else "no darkness")
     out.print(f"[bold]Night of {result['date']}[/] · {m(result['base']['name'])} · {dark} "
               f"({result['darkness_level']}) · moon {100 * result['moon_illumination']:.0f}% lit · "
-              f"{_outing_words(result.get('outing_hours'))}times in {result['base']['timezone']}")
+              f"{outing_words(result.get('outing_hours'))}times in {result['base']['timezone']}")
     if not print_notes(out, result):
         return
     print_nowcast(out, result.get("nowcast"))

@@ -145,6 +145,7 @@ def print_week(result):
         chance_cell,
         clock,
         kind_mark,
+        outing_words,
         print_notes,
         short_date,
         span,
@@ -154,7 +155,7 @@ def print_week(result):
     out = console()
     out.print(f"[bold]{m(result['operator'])}[/] · base {m(result['base']['name'])} · "
               f"nights from {result['start']} ({result['nights']}) · "
-              f"times in {result['base']['timezone']}")
+              f"{outing_words(result.get('outing_hours'))}times in {result['base']['timezone']}")
     if not print_notes(out, result):
         return
     planned = {(p["trip"], p["date"]): p for p in result["plan"]}
