@@ -249,3 +249,27 @@ def _mlt_at_zero_interpolated(times) -> np.ndarray | None:
     at_nodes = np.unwrap(_mlt_at_zero(nodes.astype("datetime64[s]")), period=24.0)
     position = (seconds - nodes[0]) / MLT_NODE_S
     return np.mod(lagrange4(at_nodes[:, None], position)[:, 0], 24.0)
+
+
+def time_nearest_mlt(mlon, mlt_h, times_utc) -> np.ndarray:
+    """For each place, the time of ``times_utc`` at which its MLT is closest to ``mlt_h``.
+
+    Parameters
+    ----------
+    mlon : array_like, shape (N,)
+        AACGM-v2 longitude in degrees.
+    mlt_h : float or array_like, shape (N,)
+        The magnetic local time sought, hours (0 is magnetic midnight).
+    times_utc : ndarray of datetime64, shape (T,)
+        The candidate UTC times, e.g. a night at 5-minute steps.
+
+    Returns
+    -------
+    ndarray of datetime64, shape (N,)
+        The first time of least circular distance in MLT (:func:`mlt`, Shepherd 2014).
+    """
+    times = np.atleast_1d(np.asarray(times_utc))
+    site_mlt = mlt(mlon, times)
+    target = np.broadcast_to(np.asarray(mlt_h, dtype=float), site_mlt.shape[:1])
+    gap = np.abs((site_mlt - target[:, None] + 12.0) % 24.0 - 12.0)
+    return times[np.argmin(gap, axis=1)]

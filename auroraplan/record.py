@@ -378,29 +378,29 @@ def propose(ws, first: dt.date, end: dt.date, replan: set, db, *, save: bool = T
                                 keep_chances=keep_chances)
     new = {(p["trip"], p["date"]): p["site"] for p in result["plan"]}
     inputs = inputs_digest(ws, what_if)
-    result["changes"] = change_list(record, new, replan, db, inputs, ws) if db else []
-    result["what_if"] = list(what_if)
+    changes = tuple(change_list(record, new, replan, db, inputs, ws) if db else ())
     plan_id = None
     if save and db is not None and not what_if and replan:
         plan_id = save_proposal(db, [p for p in result["plan"] if p["trip"] in replan], replan,
                                 first.isoformat(), (end - dt.timedelta(days=1)).isoformat(),
                                 inputs, by or who(), command)
         states = live_outings(db)
-        for p in result["plan"]:
-            got = states.get((p["trip"], p["date"]))
-            p["state"] = got.state if got else p["state"]
-    result["record"] = {"database": str(db.path) if db is not None else None,
-                        "saved": plan_id is not None, "plan_id": plan_id,
-                        "replanned": sorted(replan)}
-    return result
+        result = result.replace(plan=tuple(
+            p.replace(state=states[(p.trip, p.date)].state) if (p.trip, p.date) in states else p
+            for p in result.plan))
+    return result.replace(
+        changes=changes,
+        what_if=tuple(what_if),
+        record={"database": str(db.path) if db is not None else None,
+                "saved": plan_id is not None, "plan_id": plan_id,
+                "replanned": sorted(replan)})
 
 
 def propose_week(ws, start: dt.date, nights: int, db, **kw) -> dict:
     """The ``week`` plan: the stays touching these nights, planned around the record."""
     first, end, replan = stays_window(ws, start, start + dt.timedelta(days=nights), db)
     result = propose(ws, first, end, replan, db, **kw)
-    result["asked"] = {"start": start.isoformat(), "nights": nights}
-    return result
+    return result.replace(asked={"start": start.isoformat(), "nights": nights})
 
 
 def bookings_plan(ws, db, **kw) -> dict:

@@ -12,6 +12,7 @@ from zoneinfo import ZoneInfo
 
 import numpy as np
 
+from auroraplan import plans
 from auroraplan.cautions import CAUTIONS, FORECAST_NOT_PROMISE
 from auroraplan.render.style import chance_in_words, compass_point
 
@@ -71,14 +72,14 @@ def no_darkness(grid, dates, level: str, lat: float, outing) -> dict:
             reason = "midnight sun"
         else:
             reason = "bright night"
-        rows.append({"date": date.isoformat(), "reason": reason, "sun_lowest_deg": _num(lowest, 1)})
+        rows.append(plans.NoDarkNight(date.isoformat(), reason, _num(lowest, 1)))
     if not rows:
-        return {"nights": [], "note": None}
+        return {"nights": (), "note": None}
     deg = sky.DARKNESS_DEG[level]
     hours = f"({grid.outing_hours or outing.text()})"
     parts = []
     for reason, words in NO_DARKNESS_WORDS.items():
-        got = [r["date"] for r in rows if r["reason"] == reason]
+        got = [r.date for r in rows if r.reason == reason]
         if got:
             parts.append(f"{words.format(deg=deg, hours=hours)} on {_date_spans(got)}")
     which = "this night" if len(dates) == 1 else (
@@ -86,7 +87,7 @@ def no_darkness(grid, dates, level: str, lat: float, outing) -> dict:
     note = (f"No {level} darkness (sun below {deg:g}°) on {which} at {_latitude_text(lat)}: "
             + "; ".join(parts) + ". The aurora cannot be seen in a sky this bright; "
             "no outings can be planned then.")
-    return {"nights": rows, "note": note}
+    return {"nights": tuple(rows), "note": note}
 
 
 def all_closed_note(ws) -> str | None:
@@ -131,7 +132,7 @@ def made_at(tz: str, now: dt.datetime | None = None) -> str:
     return now.astimezone(ZoneInfo(tz)).isoformat(timespec="minutes")
 
 
-def forecast_info(ws, kinds, times_utc=None) -> dict:
+def forecast_info(ws, kinds, times_utc=None) -> plans.ForecastSource:
     """Which forecast a report was made from, for the people who read it.
 
     Parameters
@@ -176,16 +177,16 @@ def forecast_info(ws, kinds, times_utc=None) -> dict:
     issued = ws.settings.activity.issued_utc
     if isinstance(issued, dt.datetime):
         issued = issued.astimezone(dt.UTC).strftime("%Y-%m-%dT%H:%M:%SZ")
-    return {
-        "file": str(file.name) if file else None,
+    return plans.ForecastSource(
+        file=str(file.name) if file else None,
         # When the forecast was made: [activity] issued_utc, else the start of its first block.
-        "issued_utc": issued or first,
-        "first_block_utc": first,
-        "last_block_utc": last,
-        "kind": kind,
-        "gaps": gaps,
-        "note": note,
-    }
+        issued_utc=issued or first,
+        first_block_utc=first,
+        last_block_utc=last,
+        kind=kind,
+        gaps=tuple(gaps),
+        note=note,
+    )
 
 
 def _forecast_gaps(times, kinds, first_block, last_block, tz) -> list[str]:
@@ -206,9 +207,9 @@ def _forecast_gaps(times, kinds, first_block, last_block, tz) -> list[str]:
     return spans
 
 
-def base_info(ws) -> dict:
+def base_info(ws) -> plans.Base:
     op = ws.operator
-    return {"name": op.base_name, "lat": op.base_lat, "lon": op.base_lon, "timezone": op.timezone}
+    return plans.Base(op.base_name, op.base_lat, op.base_lon, op.timezone)
 
 
 def _grid_for_nights(ws, sites, first_night, nights, step_min, climatology, nowcast=None,
@@ -282,7 +283,7 @@ def workspace_climatology(ws=None):
 
 
 def tonight_report(ws, date: dt.date, top: int | None = None, now=None, climatology=None,
-                   solar_wind=None, keep_chances=None) -> dict:
+                   solar_wind=None, keep_chances=None) -> plans.TonightSheet:
     """Tonight's shortlist for the guide: open sites ranked by chance.
 
     ``solar_wind`` (a ``workspace.SolarWindFile``) lays the Kp estimated from upstream
@@ -302,7 +303,7 @@ def tonight_report(ws, date: dt.date, top: int | None = None, now=None, climatol
                                      climatology, nowcast=cast)
     if keep_chances and sites:
         keep_chances(grid, summary, [s.name for s in sites], [date])
-    order = _rank(summary.p_any[:, 0]) if sites else []
+    order = rank_sites(summary.p_any[:, 0]) if sites else []
     if top:
         order = order[:top]
     dark_cols = np.flatnonzero(grid.dark_sky.any(axis=0))
@@ -312,33 +313,33 @@ def tonight_report(ws, date: dt.date, top: int | None = None, now=None, climatol
     dark_any = grid.darkness.any(axis=0)
     dark_note = no_darkness(grid, [date], ws.settings.viewing.darkness, ws.operator.base_lat,
                             ws.settings.outing)
-    return {
-        "kind": "tonight",
-        "operator": ws.operator.name,
-        "base": base_info(ws),
-        "date": date.isoformat(),
-        "made_at": made_at(tz, now),
-        "forecast": forecast_info(ws, grid.kind[dark_any], grid.times_utc[dark_any])
+    return plans.TonightSheet(
+        kind="tonight",
+        operator=ws.operator.name,
+        base=base_info(ws),
+        date=date.isoformat(),
+        made_at=made_at(tz, now),
+        forecast=forecast_info(ws, grid.kind[dark_any], grid.times_utc[dark_any])
         if dark_any.any() else forecast_info(ws, grid.kind),
-        "darkness_level": ws.settings.viewing.darkness,
-        "dark_start": local_iso(grid.times_utc[dark_cols[0]], tz) if dark_cols.size else None,
-        "dark_end": (local_iso(grid.times_utc[dark_cols[-1]] + np.timedelta64(DEFAULT_STEP_MIN, "m"), tz)
-                     if dark_cols.size else None),
-        "moon_illumination": _num(np.mean(grid.moon_illumination), 2),
-        "outing_hours": outing_hours_info(grid, ws.settings.outing),
-        "darkness_note": dark_note["note"],
-        "no_darkness": dark_note["nights"],
-        "closed_note": closed_note,
-        "nowcast": nowcast_info(cast, solar_wind, grid, tz),
-        "sites": rows,
-        "chance_terms": CHANCE_TERMS,
-        "chance_explained": CHANCE_EXPLAINED,
-        "cloud_note": grid.cloud_note,
-        "cloud_models": grid.cloud_models,
-        "warnings": list(dict.fromkeys(ws.warnings + grid.warnings)),
-        "cautions": CAUTIONS,
-        "notice": FORECAST_NOT_PROMISE,
-    }
+        darkness_level=ws.settings.viewing.darkness,
+        dark_start=local_iso(grid.times_utc[dark_cols[0]], tz) if dark_cols.size else None,
+        dark_end=(local_iso(grid.times_utc[dark_cols[-1]] + np.timedelta64(DEFAULT_STEP_MIN, "m"), tz)
+                  if dark_cols.size else None),
+        moon_illumination=_num(np.mean(grid.moon_illumination), 2),
+        outing_hours=outing_hours_info(grid, ws.settings.outing),
+        darkness_note=dark_note["note"],
+        no_darkness=dark_note["nights"],
+        closed_note=closed_note,
+        nowcast=nowcast_info(cast, solar_wind, grid, tz),
+        sites=tuple(rows),
+        chance_terms=CHANCE_TERMS,
+        chance_explained=CHANCE_EXPLAINED,
+        cloud_note=grid.cloud_note,
+        cloud_models=tuple(grid.cloud_models),
+        warnings=tuple(dict.fromkeys(ws.warnings + grid.warnings)),
+        cautions=tuple(CAUTIONS),
+        notice=FORECAST_NOT_PROMISE,
+    )
 
 
 def _base_site(ws):
@@ -353,10 +354,14 @@ def _base_site(ws):
                 sky_mag=float(np.median(sky_mags)), clear_by_month=clear)
 
 
-def _rank(p_any_column):
-    """Site indices by descending chance (NaN last), ties by input order."""
-    key = np.nan_to_num(p_any_column, nan=-1.0)
-    return list(np.lexsort((np.arange(len(key)), -key)))
+def rank_sites(chance, among=None) -> list[int]:
+    """Site indices by descending chance (NaN last), ties by input order: the one ranking
+    of sites on every page, table and plan. ``among`` (bool per site) keeps only those."""
+    key = np.nan_to_num(np.asarray(chance, float), nan=-1.0)
+    order = np.lexsort((np.arange(len(key)), -key))
+    if among is not None:
+        order = order[np.asarray(among, bool)[order]]
+    return [int(i) for i in order]
 
 
 CHANCE_TERMS = {
@@ -412,28 +417,28 @@ def _tonight_site(ws, grid, summary, site, i, rank, tz):
     moon_up = (grid.moon_alt[i] > 0) & dark
     hourly = hourly_chance(grid, i, tz, ws.settings.chance)
     cloud_window = _window_mean(grid.cloud_pct[i], grid, summary, i)
-    return {
-        "rank": rank,
-        "name": site.name,
-        "lat": site.lat,
-        "lon": site.lon,
-        "chance": _num(p, 3),
-        "chance_words": chance_in_words(p) if np.isfinite(p) else "no forecast",
-        "window_start": local_iso(summary.window_start[i, 0], tz),
-        "window_end": local_iso(summary.window_end[i, 0], tz),
-        "expected_minutes": _num(summary.expected_min[i, 0], 1),
-        "limiting": summary.limiting[i, 0],
-        "kp_needed": _num(grid.kp_needed[i, step], 2),
-        "kp": _num(grid.kp_mean[step], 2),
+    return plans.SiteTonight(
+        rank=rank,
+        name=site.name,
+        lat=site.lat,
+        lon=site.lon,
+        chance=_num(p, 3),
+        chance_words=chance_in_words(p) if np.isfinite(p) else "no forecast",
+        window_start=local_iso(summary.window_start[i, 0], tz),
+        window_end=local_iso(summary.window_end[i, 0], tz),
+        expected_minutes=_num(summary.expected_min[i, 0], 1),
+        limiting=summary.limiting[i, 0],
+        kp_needed=_num(grid.kp_needed[i, step], 2),
+        kp=_num(grid.kp_mean[step], 2),
         **look_fields(grid, i, step),
-        "cloud_pct": _num(cloud_window, 0),
+        cloud_pct=_num(cloud_window, 0),
         **_window_cloud(grid, summary, i),
-        "moon_illumination": _num(np.mean(grid.moon_illumination), 2),
-        "moon_up_hours": _num(moon_up.sum() * grid.step_min / 60.0, 1),
-        "drive_min": site.drive_min,
-        "notes": site.notes,
-        "hourly": hourly,
-    }
+        moon_illumination=_num(np.mean(grid.moon_illumination), 2),
+        moon_up_hours=_num(moon_up.sum() * grid.step_min / 60.0, 1),
+        drive_min=site.drive_min,
+        notes=site.notes,
+        hourly=tuple(hourly),
+    )
 
 
 def _hour_blocks(grid):
@@ -476,19 +481,19 @@ def _hourly_rows(grid, i, tz, settings):
         if not dark.any():
             continue
         mid = min(start + dark.size // 2, len(grid.times_utc) - 1)
-        rows.append((sl, {
-            "time": local_iso(grid.times_utc[start], tz),
-            "zone": _zone_name(grid.times_utc[start], tz),
-            "chance_in_hour": _num(p_display_seen(shown[sl], grid.p_clear[i, sl],
-                                                  grid.step_min, tau), 3),
-            "chance_if_clear": _num(p_display_seen(shown[sl], np.ones(dark.size),
-                                                   grid.step_min, tau), 3),
-            "p_clear": _num(np.mean(grid.p_clear[i, sl][dark]), 3),
-            "kp": _num(grid.kp_mean[mid], 2),
+        rows.append((sl, plans.HourChance(
+            time=local_iso(grid.times_utc[start], tz),
+            zone=_zone_name(grid.times_utc[start], tz),
+            chance_in_hour=_num(p_display_seen(shown[sl], grid.p_clear[i, sl],
+                                               grid.step_min, tau), 3),
+            chance_if_clear=_num(p_display_seen(shown[sl], np.ones(dark.size),
+                                                grid.step_min, tau), 3),
+            p_clear=_num(np.mean(grid.p_clear[i, sl][dark]), 3),
+            kp=_num(grid.kp_mean[mid], 2),
             **cloud_at_step(grid, i, start),
-            "kp_from": _kp_from(grid, sl),
+            kp_from=_kp_from(grid, sl),
             **look_fields(grid, i, mid),
-        }))
+        )))
     return rows
 
 
@@ -512,7 +517,7 @@ def _per_step_hourly(grid, i, tz, settings) -> list:
     darkness), so a chart draws the same numbers as the page's hour bars."""
     out = [0.0] * len(grid.times_utc)
     for sl, row in _hourly_rows(grid, i, tz, settings):
-        out[sl] = [row["chance_in_hour"]] * len(out[sl])
+        out[sl] = [row.chance_in_hour] * len(out[sl])
     return out
 
 
@@ -661,7 +666,7 @@ def _window_mean(values, grid, summary, i, d=0):
     return float(np.nanmean(vals)) if np.isfinite(vals).any() else np.nan
 
 
-def site_timeline(ws, date: dt.date, site_name: str, climatology=None) -> dict:
+def site_timeline(ws, date: dt.date, site_name: str, climatology=None) -> plans.NightTimeline:
     """One site's night at 10-minute steps, for the timeline chart."""
     tz = ws.operator.timezone
     site = next(s for s in ws.sites if s.name == site_name)
@@ -669,24 +674,24 @@ def site_timeline(ws, date: dt.date, site_name: str, climatology=None) -> dict:
         climatology = workspace_climatology(ws)
     grid, _ = _grid_for_nights(ws, [site], date, 1, DEFAULT_STEP_MIN, climatology,
                                all_steps=True)
-    return {
-        "site": f"{site.name} (outings {grid.outing_hours})",
-        "date": date.isoformat(),
-        "timezone": tz,
-        "darkness_level": ws.settings.viewing.darkness,
-        "times": [local_iso(t, tz) for t in grid.times_utc],
-        "sun_alt": [_num(v, 2) for v in grid.sun_alt[0]],
-        "moon_alt": [_num(v, 2) for v in grid.moon_alt[0]],
-        "dark": [bool(v) for v in grid.dark_sky[0]],
-        "outing": [bool(v) for v in grid.outing],
-        "kp_needed": [_num(v, 2) for v in grid.kp_needed[0]],
-        "kp_forecast": [_num(v, 2) for v in grid.kp_mean],
-        "kp_sd": [_num(v, 2) for v in grid.kp_sd],
-        "cloud_pct": [_num(v, 1) for v in grid.cloud_pct[0]],
-        "chance_in_hour": _per_step_hourly(grid, 0, tz, ws.settings.chance),
-        "chance_by_time": [_num(v, 4) for v in chance_by_time(grid, 0, ws.settings.chance)],
-        "chance_terms": {k: CHANCE_TERMS[k] for k in ("chance_in_hour", "chance_by_time")},
-    }
+    return plans.NightTimeline(
+        site=f"{site.name} (outings {grid.outing_hours})",
+        date=date.isoformat(),
+        timezone=tz,
+        darkness_level=ws.settings.viewing.darkness,
+        times=tuple(local_iso(t, tz) for t in grid.times_utc),
+        sun_alt=tuple(_num(v, 2) for v in grid.sun_alt[0]),
+        moon_alt=tuple(_num(v, 2) for v in grid.moon_alt[0]),
+        dark=tuple(bool(v) for v in grid.dark_sky[0]),
+        outing=tuple(bool(v) for v in grid.outing),
+        kp_needed=tuple(_num(v, 2) for v in grid.kp_needed[0]),
+        kp_forecast=tuple(_num(v, 2) for v in grid.kp_mean),
+        kp_sd=tuple(_num(v, 2) for v in grid.kp_sd),
+        cloud_pct=tuple(_num(v, 1) for v in grid.cloud_pct[0]),
+        chance_in_hour=tuple(_per_step_hourly(grid, 0, tz, ws.settings.chance)),
+        chance_by_time=tuple(_num(v, 4) for v in chance_by_time(grid, 0, ws.settings.chance)),
+        chance_terms={k: CHANCE_TERMS[k] for k in ("chance_in_hour", "chance_by_time")},
+    )
 
 
 # ---------------------------------------------------------------------------
@@ -694,7 +699,8 @@ def site_timeline(ws, date: dt.date, site_name: str, climatology=None) -> dict:
 
 
 def week_report(ws, start: dt.date, nights: int = 7, now=None,
-                climatology=None, ranked_top: int = 5, fixed=None, replan=None, keep_chances=None) -> dict:
+                climatology=None, ranked_top: int = 5, fixed=None, replan=None,
+                keep_chances=None) -> plans.WeekPlan:
     """Ranked nights and sites per trip, and the excursion plan for the fleet.
 
     Parameters
@@ -757,27 +763,26 @@ def week_report(ws, start: dt.date, nights: int = 7, now=None,
         for d, date in enumerate(dates):
             if not in_stay[r, d]:
                 continue
-            ok = np.flatnonzero(allowed[r, d])
-            ranked = sorted(ok, key=lambda s, d=d: (-np.nan_to_num(value[r, d, s], nan=-1), s))
+            ranked = rank_sites(value[r, d], among=allowed[r, d])
             best = ranked[0] if ranked else None
-            rows.append({
-                "date": date.isoformat(),
-                "site": sites[best].name if best is not None else None,
-                "chance": _num(summary.p_any[best, d], 3) if best is not None else None,
-                "window_start": local_iso(summary.window_start[best, d], tz) if best is not None else None,
-                "window_end": local_iso(summary.window_end[best, d], tz) if best is not None else None,
-                "kind": summary.kind[d],
-                "limiting": summary.limiting[best, d] if best is not None else None,
-                "blocked": bool(blocked[r, d]),
-                "in_stay": True,
-                "ranked": [{"site": sites[s].name, "chance": _num(summary.p_any[s, d], 3)}
-                           for s in ranked[:ranked_top]],
-            })
-        trip_rows.append({
-            "trip": trip.trip, "group": trip.group, "guests": trip.guests,
-            "arrive": trip.arrive.isoformat(), "depart": trip.depart.isoformat(),
-            "outings": trip.outings, "nights": rows,
-        })
+            rows.append(plans.TripNight(
+                date=date.isoformat(),
+                site=sites[best].name if best is not None else None,
+                chance=_num(summary.p_any[best, d], 3) if best is not None else None,
+                window_start=local_iso(summary.window_start[best, d], tz) if best is not None else None,
+                window_end=local_iso(summary.window_end[best, d], tz) if best is not None else None,
+                kind=summary.kind[d],
+                limiting=summary.limiting[best, d] if best is not None else None,
+                blocked=bool(blocked[r, d]),
+                in_stay=True,
+                ranked=tuple(plans.RankedSite(sites[s].name, _num(summary.p_any[s, d], 3))
+                             for s in ranked[:ranked_top]),
+            ))
+        trip_rows.append(plans.TripNights(
+            trip=trip.trip, group=trip.group, guests=trip.guests,
+            arrive=trip.arrive.isoformat(), depart=trip.depart.isoformat(),
+            outings=trip.outings, nights=tuple(rows),
+        ))
 
     plan, late_notes = [], []
     for (r, d, s), b in zip(chosen, backups, strict=True):
@@ -790,96 +795,99 @@ def week_report(ws, start: dt.date, nights: int = 7, now=None,
         if late:
             late_notes.append(late_return_warning(trips[r], dates[d], site.name, back, tz,
                                                   ws.settings.outing))
-        plan.append({
-            "trip": trips[r].trip,
-            "group": trips[r].group,
-            "date": dates[d].isoformat(),
-            "site": site.name,
-            "backup": sites[b].name if b is not None else None,
-            "chance": _num(summary.p_any[s, d], 3),
-            "backup_chance": _num(summary.p_any[b, d], 3) if b is not None else None,
-            "window_start": local_iso(start_t, tz),
-            "window_end": local_iso(end_t, tz),
-            "pickup": local_iso(pickup, tz),
-            "return": local_iso(back, tz),
-            "back_after_hours": late,
-            "drive_min": site.drive_min,
-            "lat": site.lat, "lon": site.lon,
-            "backup_lat": sites[b].lat if b is not None else None,
-            "backup_lon": sites[b].lon if b is not None else None,
+        plan.append(plans.Outing(
+            trip=trips[r].trip,
+            group=trips[r].group,
+            date=dates[d].isoformat(),
+            site=site.name,
+            backup=sites[b].name if b is not None else None,
+            chance=_num(summary.p_any[s, d], 3),
+            backup_chance=_num(summary.p_any[b, d], 3) if b is not None else None,
+            window_start=local_iso(start_t, tz),
+            window_end=local_iso(end_t, tz),
+            pickup=local_iso(pickup, tz),
+            return_=local_iso(back, tz),
+            back_after_hours=late,
+            drive_min=site.drive_min,
+            lat=site.lat, lon=site.lon,
+            backup_lat=sites[b].lat if b is not None else None,
+            backup_lon=sites[b].lon if b is not None else None,
             **(look_fields(grid, s, summary.peak_step[s, d]) if summary.peak_step[s, d] >= 0
-               else {"look_azimuth": None, "look_compass": None, "look_elevation": None,
-                     "overhead": False, "look_words": None}),
-            "kind": summary.kind[d],
-            "state": fixed_at.get((r, d), (None, "proposed"))[1],
-        })
+               else plans.NO_LOOK.to_json()),
+            kind=summary.kind[d],
+            state=fixed_at.get((r, d), (None, "proposed"))[1],
+        ))
     shortfalls = shortfall_warnings(ws, dates, chosen, in_stay, blocked, allowed, value,
                                     drive_cost, summary, replan, fixed or {})
-    return {
-        "kind": "week",
-        "operator": ws.operator.name,
-        "base": base_info(ws),
-        "start": start.isoformat(),
-        "nights": nights,
-        "made_at": made_at(tz, now),
-        "forecast": _week_forecast_info(ws, grid, summary),
-        "vehicles": int(ws.operator.vehicles),
-        "night_kinds": [{"date": d.isoformat(), "kind": k} for d, k in zip(dates, summary.kind, strict=True)],
-        "outing_hours": outing_hours_info(grid, ws.settings.outing),
-        "darkness_note": dark_note["note"],
-        "no_darkness": dark_note["nights"],
-        "closed_note": all_closed_note(ws),
-        "trips": trip_rows,
-        "plan": plan,
-        "solver": solver_info(result),
-        "heatmap": {
-            "title": f"Chance per night and site, {dates[0].isoformat()} to {dates[-1].isoformat()}",
-            "dates": [d.isoformat() for d in dates],
-            "sites": [s.name for s in sites],
-            "chance": [[_num(v, 3) if not sites[i].closed else None for v in summary.p_any[i]]
-                       for i in range(len(sites))],
-            "kinds": list(summary.kind),
-        },
-        "cloud_note": grid.cloud_note,
-        "cloud_models": grid.cloud_models,
-        "warnings": shortfalls + late_notes + [note_warning(w) for w in dict.fromkeys(
-            ws.warnings + grid.warnings + record_notes)],
-        "cautions": CAUTIONS,
-        "notice": FORECAST_NOT_PROMISE,
-    }
+    return plans.WeekPlan(
+        kind="week",
+        operator=ws.operator.name,
+        base=base_info(ws),
+        start=start.isoformat(),
+        nights=nights,
+        made_at=made_at(tz, now),
+        forecast=_week_forecast_info(ws, grid, summary),
+        vehicles=int(ws.operator.vehicles),
+        night_kinds=tuple(plans.NightKind(d.isoformat(), k)
+                          for d, k in zip(dates, summary.kind, strict=True)),
+        outing_hours=outing_hours_info(grid, ws.settings.outing),
+        darkness_note=dark_note["note"],
+        no_darkness=dark_note["nights"],
+        closed_note=all_closed_note(ws),
+        trips=tuple(trip_rows),
+        plan=tuple(plan),
+        solver=solver_info(result),
+        heatmap=plans.Heatmap(
+            title=f"Chance per night and site, {dates[0].isoformat()} to {dates[-1].isoformat()}",
+            dates=tuple(d.isoformat() for d in dates),
+            sites=tuple(s.name for s in sites),
+            chance=tuple(tuple(_num(v, 3) if not sites[i].closed else None
+                               for v in summary.p_any[i]) for i in range(len(sites))),
+            kinds=tuple(summary.kind),
+        ),
+        cloud_note=grid.cloud_note,
+        cloud_models=tuple(grid.cloud_models),
+        warnings=tuple(shortfalls + late_notes + [note_warning(w) for w in dict.fromkeys(
+            ws.warnings + grid.warnings + record_notes)]),
+        cautions=tuple(CAUTIONS),
+        notice=FORECAST_NOT_PROMISE,
+    )
 
 
-def _week_forecast_info(ws, grid, summary) -> dict:
+def _week_forecast_info(ws, grid, summary) -> plans.ForecastSource:
     """forecast_info over the nights, naming gaps inside the forecast by their hours."""
     dark_any = grid.darkness.any(axis=0)
     info = forecast_info(ws, list(summary.kind), None)
     if dark_any.any():
         gaps = forecast_info(ws, grid.kind[dark_any], grid.times_utc[dark_any])
-        if gaps["gaps"]:
-            info.update(gaps=gaps["gaps"], note=gaps["note"])
+        if gaps.gaps:
+            info = info.replace(gaps=gaps.gaps, note=gaps.note)
     return info
 
 
-def outing_hours_info(grid, hours) -> dict:
+def outing_hours_info(grid, hours) -> plans.OutingHoursUsed:
     """The outing hours a report counted: local "HH:MM–HH:MM" of its first night, and the
     operator's limits (None where derived from the sites' magnetic midnight)."""
-    return {"hours": grid.outing_hours, "outing_from": hours.outing_from,
-            "outing_until": hours.outing_until,
-            "derived": hours.outing_from is None or hours.outing_until is None}
+    return plans.OutingHoursUsed(
+        hours=grid.outing_hours, outing_from=hours.outing_from,
+        outing_until=hours.outing_until,
+        derived=hours.outing_from is None or hours.outing_until is None)
 
 
-def late_return_warning(trip, night: dt.date, site: str, back, tz: str, hours) -> dict:
+def late_return_warning(trip, night: dt.date, site: str, back, tz: str,
+                        hours) -> plans.PlanWarning:
     """The warning for an outing back at the base after the operator's ``outing_until``."""
-    return {"trip": trip.trip, "asked": None, "planned": None, "reason": "back after hours",
-            "message": (f"{trip.trip} ({trip.group}) on {night.isoformat()}: back from {site} "
-                        f"at {local_iso(back, tz)[11:16]}, after outing_until "
-                        f"{hours.outing_until}; start earlier, choose a nearer site or set a "
-                        "later [planner] outing_until")}
+    return plans.PlanWarning(
+        trip=trip.trip, asked=None, planned=None, reason="back after hours",
+        message=(f"{trip.trip} ({trip.group}) on {night.isoformat()}: back from {site} "
+                 f"at {local_iso(back, tz)[11:16]}, after outing_until "
+                 f"{hours.outing_until}; start earlier, choose a nearer site or set a "
+                 "later [planner] outing_until"))
 
 
-def note_warning(message: str) -> dict:
+def note_warning(message: str) -> plans.PlanWarning:
     """A warning that concerns no one trip, in the same shape as a shortfall warning."""
-    return {"trip": None, "asked": None, "planned": None, "reason": "note", "message": message}
+    return plans.PlanWarning(trip=None, asked=None, planned=None, reason="note", message=message)
 
 
 def _keep_fixed(ws, dates, value, allowed, outings, fixed, replan):
@@ -935,7 +943,7 @@ filter of its evenings that leaves fewer than it asked names the reason."""
 
 
 def shortfall_warnings(ws, dates, chosen, in_stay, blocked, allowed, value, drive_cost,
-                       summary, replan, fixed) -> list[dict]:
+                       summary, replan, fixed) -> list[plans.PlanWarning]:
     """One warning per trip planned fewer outings than it asked for, with the reason.
 
     The evenings of the trip's stay in these dates are filtered step by step (free of
@@ -976,17 +984,17 @@ def shortfall_warnings(ws, dates, chosen, in_stay, blocked, allowed, value, driv
                 if usable.sum() < asked:
                     reason = name
                     break
-        rows.append({
-            "trip": trip.trip, "asked": int(asked), "planned": int(planned[r]),
-            "reason": reason,
-            "message": (f"{trip.trip} ({trip.group}) gets {planned[r]} of {asked} outings"
-                        f"{'' if whole_stay else ' in these nights'}: "
-                        f"{SHORTFALL_REASONS[reason]}"),
-        })
+        rows.append(plans.PlanWarning(
+            trip=trip.trip, asked=int(asked), planned=int(planned[r]),
+            reason=reason,
+            message=(f"{trip.trip} ({trip.group}) gets {planned[r]} of {asked} outings"
+                     f"{'' if whole_stay else ' in these nights'}: "
+                     f"{SHORTFALL_REASONS[reason]}"),
+        ))
     return rows
 
 
-def bookings_report(ws, now=None, db=None) -> dict:
+def bookings_report(ws, now=None, db=None) -> plans.WeekPlan:
     """Every booked stay as the plan of record in ``db`` holds it, trips not in it planned
     around it (`auroraplan.record.bookings_plan`); nothing is saved. With no database, one
     plan over every stay."""
@@ -1001,18 +1009,18 @@ def _fleet(ws):
     return ws.operator.fleet or Fleet.of_count(ws.operator.vehicles)
 
 
-def solver_info(result) -> dict:
+def solver_info(result) -> plans.SolverOutcome:
     """How good the plan is: the objective, the solver's bound, the gap, a time limit hit."""
-    return {
-        "objective": _num(result.objective, 4),
-        "expected_sightings": _num(result.expected_sightings, 4),
-        "bound": _num(result.bound, 4),
-        "gap": _num(result.gap, 5),
-        "time_limit_hit": bool(result.time_limit_hit),
-        "groups_served": result.served,
-        "least_share": _num(result.min_share, 3),
-        "seconds": _num(result.seconds, 2),
-    }
+    return plans.SolverOutcome(
+        objective=_num(result.objective, 4),
+        expected_sightings=_num(result.expected_sightings, 4),
+        bound=_num(result.bound, 4),
+        gap=_num(result.gap, 5),
+        time_limit_hit=bool(result.time_limit_hit),
+        groups_served=result.served,
+        least_share=_num(result.min_share, 3),
+        seconds=_num(result.seconds, 2),
+    )
 
 
 def _plan_inputs(ws, summary, dates):
@@ -1056,7 +1064,7 @@ SEASON_CHUNK_NIGHTS = 16
 
 
 def season_report(ws, first: dt.date, last: dt.date, trip_nights: int = 5, progress=None,
-                  climatology=None, best_count: int = 5, now=None) -> dict:
+                  climatology=None, best_count: int = 5, now=None) -> plans.SeasonOutlook:
     """Long-range chance per night from darkness, moon, Kp climatology and clear-sky climatology.
 
     The Kp forecast and the cloud forecast are not used: every night is an
@@ -1121,33 +1129,46 @@ def season_report(ws, first: dt.date, last: dt.date, trip_nights: int = 5, progr
             f"No start of {trip_nights} nights from {first} to {last} has a night dark "
             f"enough ({ws.settings.viewing.darkness} darkness inside the outing hours) with any "
             "chance, so no start date is recommended; look at the darker months.")
-    rows = [{
-        "date": d.isoformat(),
-        "dark_hours": _num(dark_hours[i], 2),
-        "chance": _num(best_chance[i], 3),
-        "best_site": open_sites[best[i]].name if open_sites and best_chance[i] > 0 else None,
-        "chance_base": _num(p_any[-1, i], 3),
-        "moon_illumination": _num(illum[i], 2),
-        "kind": "outlook",
-    } for i, d in enumerate(dates)]
-    return {
-        "kind": "season",
-        "operator": ws.operator.name,
-        "base": base_info(ws),
-        "from": first.isoformat(),
-        "to": last.isoformat(),
-        "trip_nights": trip_nights,
-        "made_at": made_at(tz, now),
-        "method": ("Darkness and moon from the ephemeris; Kp from climatology by month, "
-                   "3-hour UT block and solar-cycle phase; cloud from each site's clear-sky "
-                   "climatology. Every night is an outlook, not a forecast."),
-        "nights": rows,
-        "best_starts": starts,
-        "best_starts_note": starts_note,
-        "closed_note": all_closed_note(ws),
-        "warnings": list(dict.fromkeys(ws.warnings + warnings)),
-        "notice": FORECAST_NOT_PROMISE,
-    }
+    rows = tuple(plans.SeasonNight(
+        date=d.isoformat(),
+        dark_hours=_num(dark_hours[i], 2),
+        chance=_num(best_chance[i], 3),
+        best_site=open_sites[best[i]].name if open_sites and best_chance[i] > 0 else None,
+        chance_base=_num(p_any[-1, i], 3),
+        moon_illumination=_num(illum[i], 2),
+        kind="outlook",
+    ) for i, d in enumerate(dates))
+    return plans.SeasonOutlook(
+        kind="season",
+        operator=ws.operator.name,
+        base=base_info(ws),
+        from_=first.isoformat(),
+        to=last.isoformat(),
+        trip_nights=trip_nights,
+        made_at=made_at(tz, now),
+        method=("Darkness and moon from the ephemeris; Kp from climatology by month, "
+                "3-hour UT block and solar-cycle phase; cloud from each site's clear-sky "
+                "climatology. Every night is an outlook, not a forecast."),
+        nights=rows,
+        best_starts=tuple(starts),
+        best_starts_note=starts_note,
+        closed_note=all_closed_note(ws),
+        warnings=tuple(dict.fromkeys(ws.warnings + warnings)),
+        notice=FORECAST_NOT_PROMISE,
+    )
+
+
+def season_chart(outlook: plans.SeasonOutlook) -> plans.SeasonChart:
+    """The season chart's series from a season outlook."""
+    return plans.SeasonChart(
+        title=f"{outlook.base.name}: outlook per night, {outlook.from_} to {outlook.to}",
+        dates=tuple(n.date for n in outlook.nights),
+        chance=tuple(n.chance for n in outlook.nights),
+        dark_hours=tuple(n.dark_hours for n in outlook.nights),
+        kinds=tuple(n.kind for n in outlook.nights),
+        moon_illumination=tuple(n.moon_illumination for n in outlook.nights),
+        south=outlook.base.lat < 0,
+    )
 
 
 def best_starts(dates, chance, trip_nights, count=5, min_gap_days=3, dark_night=None):
@@ -1179,13 +1200,13 @@ def best_starts(dates, chance, trip_nights, count=5, min_gap_days=3, dark_night=
             picked.append(int(i))
         if len(picked) == count:
             break
-    return [{
-        "start": dates[i].isoformat(),
-        "end": (dates[i] + dt.timedelta(days=trip_nights)).isoformat(),
-        "nights": trip_nights,
-        "chance_any": _num(score[i], 3),
-        "expected_nights": _num(expected[i], 2),
-    } for i in picked]
+    return [plans.BestStart(
+        start=dates[i].isoformat(),
+        end=(dates[i] + dt.timedelta(days=trip_nights)).isoformat(),
+        nights=trip_nights,
+        chance_any=_num(score[i], 3),
+        expected_nights=_num(expected[i], 2),
+    ) for i in picked]
 
 
 BASEMAP_FILES = ("basemap.gpkg", "basemap.geojson")
@@ -1236,10 +1257,68 @@ def _magnetic_midnight(op, date: dt.date) -> dt.datetime:
     times, _ = nights.night_times(date, 1, op.timezone, 10)
     _, mlon = magnetic.geo_to_aacgm(np.array([op.base_lat]), np.array([op.base_lon]), 0.0,
                                     times[len(times) // 2].astype(object))
-    mlt = magnetic.mlt(np.atleast_1d(mlon), times)[0]
-    distance = np.minimum(mlt % 24.0, 24.0 - mlt % 24.0)
-    t = times[int(np.argmin(distance))].astype(object)
+    t = magnetic.time_nearest_mlt(mlon, 0.0, times)[0].astype(object)
     return t.replace(tzinfo=dt.UTC)
+
+
+SITE_TABLE_NOTE = (
+    "Kp needed at magnetic midnight (MLT 0); null = not reached by Kp 9. "
+    "best_mlt is the night-side magnetic local time needing the least Kp. "
+    "kp_lost_horizon: the Kp at which a storm has carried the band out of view again "
+    "(polar-cap sites); null = it stays in view.")
+
+
+def site_table(ws, date: dt.date | None = None) -> plans.SiteTable:
+    """Each site's magnetic position, the Kp it needs at magnetic midnight
+    (:func:`auroraplan.view.kp_needed_table`), the night-side MLT needing the least Kp
+    (:func:`auroraplan.view.best_night_mlt`) and the local clock time on the evening of
+    ``date`` (default today) when the site passes that MLT
+    (:func:`auroraplan.magnetic.time_nearest_mlt`, 5-minute steps from local noon)."""
+    from auroraplan import magnetic, view
+
+    op = ws.operator
+    zone = ZoneInfo(op.timezone)
+    date = date or dt.datetime.now(zone).date()
+    evening = dt.datetime.combine(date, dt.time(12, 0), tzinfo=zone).astimezone(dt.UTC)
+    sites = ws.sites
+    viewing = ws.settings.viewing
+    table = view.kp_needed_table(
+        [s.lat for s in sites], [s.lon for s in sites], [s.height_m for s in sites],
+        [s.horizon for s in sites], min_elevation_deg=viewing.min_elevation_deg,
+        emission_height_km=viewing.emission_height_km, model=viewing.oval_model,
+        when=evening, names=[s.name for s in sites],
+    )
+    best_mlt, best_kp = view.best_night_mlt(table)
+    start = np.datetime64(evening.replace(tzinfo=None), "s")
+    times = start + np.arange(0, 24 * 3600, 300).astype("timedelta64[s]")
+    at = magnetic.time_nearest_mlt(table.mlon, best_mlt, times) if sites else times[:0]
+    rows = []
+    for i, s in enumerate(sites):
+        az = table.look_azimuth_deg[i, 0]
+        rows.append(plans.SiteKp(
+            name=s.name,
+            mlat=round(float(table.mlat[i]), 2),
+            mlon=round(float(table.mlon[i]), 2),
+            kp_needed_overhead=_num(table.kp_overhead[i, 0], 2),
+            kp_needed_horizon=_num(table.kp_horizon[i, 0], 2),
+            kp_lost_horizon=_num(table.kp_lost[i, 0], 2),
+            look_azimuth=_num(az, 1),
+            look_compass=compass_point(az) if np.isfinite(az) else None,
+            look_elevation=_num(table.look_elevation_deg[i, 0], 1),
+            best_mlt=float(best_mlt[i]),
+            kp_needed_best=_num(best_kp[i], 2),
+            best_local_time=local_iso(at[i], op.timezone) if np.isfinite(best_kp[i]) else None,
+            closed=bool(s.closed),
+        ))
+    return plans.SiteTable(
+        workspace=str(ws.path),
+        date=date.isoformat(),
+        model=table.model,
+        min_elevation_deg=viewing.min_elevation_deg,
+        emission_height_km=viewing.emission_height_km,
+        note=SITE_TABLE_NOTE,
+        sites=tuple(rows),
+    )
 
 
 NOWCAST_STEP_MIN = 10
@@ -1314,7 +1393,7 @@ def nowcast_report(ws, solar_wind, hours: int = 2, at: dt.datetime | None = None
     p = np.stack([chance.p_display_seen(shown[:, sl], grid.p_clear[:, sl], grid.step_min,
                                         cfg.decorrelation_min) for sl in by_hour], axis=1)
     rows = []
-    for i in (_rank(p[:, 0]) if sites else []):
+    for i in (rank_sites(p[:, 0]) if sites else []):
         rows.append({
             "name": sites[i].name,
             "chance_in_hour": [_num(x, 3) for x in p[i]],

@@ -14,6 +14,7 @@ from auroraplan.cautions import CAUTIONS
 from auroraplan.cli import main
 from auroraplan.commands.itinerary import itinerary_file_names
 from auroraplan.errors import InputError
+from auroraplan.plans import WeekPlan
 from auroraplan.render.itinerary_pdf import KIT_LIST, itinerary_pdf, printable
 from auroraplan.workspace import Operator, Trip, Workspace
 
@@ -168,7 +169,7 @@ def fake_workspace(week, tmp_path, monkeypatch):
 
     def fake_week_report(workspace, start, nights=7, **kw):
         calls.append((start, nights))
-        return week
+        return WeekPlan.from_json(week)
 
     monkeypatch.setattr("auroraplan.workspace.load_workspace", lambda path: ws)
     monkeypatch.setattr("auroraplan.report.week_report", fake_week_report)

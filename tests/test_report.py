@@ -313,10 +313,10 @@ def test_a_gap_inside_tonights_forecast_is_named_by_its_hours(ws):
     assert gap.sum() == 1
     holed = dataclasses.replace(ws, activity=ws.activity.to_frame()[~gap].reset_index(drop=True))
     info = report.tonight_report(holed, STORM_NIGHT)["forecast"]
-    assert info["gaps"] == ["22:00–01:00"]
+    assert info.gaps == ("22:00–01:00",)
     assert "22:00–01:00" in info["note"] and "outlook" in info["note"]
     assert "later nights" not in info["note"]
-    assert report.tonight_report(ws, STORM_NIGHT)["forecast"]["gaps"] == []
+    assert report.tonight_report(ws, STORM_NIGHT)["forecast"]["gaps"] == ()
 
 
 # --- the three chance figures -------------------------------------------------------------

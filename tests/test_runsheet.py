@@ -127,7 +127,7 @@ def test_unknown_trip_names_the_known_ones(demo):
 
 def test_run_sheet_escapes_group_names(demo):
     ws, tonight, plan = demo
-    nasty = copy.deepcopy(plan)
+    nasty = copy.deepcopy(plan.to_json())
     nasty["trips"][0]["group"] = "<b>Club</b> & co"
     page = run_sheet_html(runsheet.run_sheet(tonight, nasty, "T01", None), tonight)
     assert "<b>Club" not in page and "&lt;b&gt;Club&lt;/b&gt; &amp; co" in page

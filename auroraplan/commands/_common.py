@@ -165,8 +165,12 @@ def json_text(obj, ascii_only: bool = False) -> str:
 
 def _finite(value):
     """``value`` with every non-finite float (and numpy float) replaced by None."""
+    from auroraplan.plans import Record
+
     if isinstance(value, float):
         return value if math.isfinite(value) else None
+    if isinstance(value, Record):
+        return _finite(value.to_json())
     if isinstance(value, dict):
         return {k: _finite(v) for k, v in value.items()}
     if isinstance(value, list | tuple):

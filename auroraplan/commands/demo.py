@@ -32,8 +32,8 @@ def add_arguments(parser):
 
 def run(args):
     from auroraplan import store
+    from auroraplan.commands._outputs import OutputSet, check_names, check_out_folder
     from auroraplan.commands._progress import progress_bar
-    from auroraplan.commands.publish import OutputSet, check_names, check_out_folder
     from auroraplan.errors import InputError
     from auroraplan.outfiles import protect
     from auroraplan.workspace import load_workspace
@@ -76,15 +76,14 @@ def demo_extras(builder):
                     "where the aurora band lies at local midnight, with the sites")
 
     def season():
-        from auroraplan.commands.publish import _json
-        from auroraplan.commands.season import season_chart_data
+        from auroraplan.commands._common import json_text
         from auroraplan.render.charts import season_calendar_png
 
         result = report.season_report(ws, dt.date(2026, 9, 1), dt.date(2027, 4, 15), 5)
-        builder.add("season-outlook.png", season_calendar_png(season_chart_data(result)),
+        builder.add("season-outlook.png", season_calendar_png(report.season_chart(result)),
                     "Season outlook, September to mid-April",
                     "long-range chance per night from climatology (outlook)")
-        builder.add("season.json", _json(result), "Season outlook (JSON)",
+        builder.add("season.json", json_text(result), "Season outlook (JSON)",
                     "chance per night and the best start dates for 5 nights")
 
     return [oval, season]

@@ -47,7 +47,7 @@ def run(args):
     if png:
         from auroraplan.render.charts import season_calendar_png
 
-        write_bytes_atomic(png, season_calendar_png(season_chart_data(result)))
+        write_bytes_atomic(png, season_calendar_png(report.season_chart(result)))
     if args.json:
         print_json(result)
     else:
@@ -55,19 +55,6 @@ def run(args):
         if png:
             print(f"wrote {png}")
     return 0
-
-
-def season_chart_data(result):
-    """The season chart's input from a season report."""
-    return {
-        "title": f"{result['base']['name']}: outlook per night, {result['from']} to {result['to']}",
-        "dates": [n["date"] for n in result["nights"]],
-        "chance": [n["chance"] for n in result["nights"]],
-        "dark_hours": [n["dark_hours"] for n in result["nights"]],
-        "kinds": [n["kind"] for n in result["nights"]],
-        "moon_illumination": [n.get("moon_illumination") for n in result["nights"]],
-        "south": result["base"]["lat"] < 0,
-    }
 
 
 def print_season(result):

@@ -98,7 +98,7 @@ def run(args):
             result = report.tonight_report(ws, date, top=args.top, solar_wind=solar_wind,
                                           keep_chances=keep)
         if what_if:
-            result["what_if"] = what_if
+            result = result.replace(what_if=tuple(what_if))
         payloads = {}
         if "html" in outputs:
             payloads["html"] = page_for(ws, result, sheet).encode("utf-8")
@@ -106,7 +106,7 @@ def run(args):
             payloads["png"] = timeline_png(ws, result, date, sheet)
     write_files({path: payloads[key] for key, path in outputs.items()})  # all or none
     if args.json:
-        print_json(dict(result, run_sheet=sheet) if sheet else result)
+        print_json(dict(result.to_json(), run_sheet=sheet) if sheet else result)
     else:
         if sheet:
             print_run_sheet(sheet)
