@@ -367,8 +367,9 @@ def compute_grid(
     p_reach, p_strong = activity_parts(p_at_least, kp_needed_w, kp_lost_w, cfg)
     activity = display_probability(p_reach, p_strong, cfg)
 
-    if cloud is None:
-        cloud = weather.cloud_grid(sites, clouds, times_utc, tz=tz, settings=settings.weather)
+    if cloud is None:  # worked out where the chance is, like the factors above
+        cloud = at.cloud(weather.cloud_grid(sites, clouds, times_w, tz=tz,
+                                            settings=settings.weather))
     p_clear, cloud_pct = cloud.p_clear, cloud.cloud_pct
     warnings.extend(cloud.warnings)
 
@@ -420,6 +421,19 @@ class _StepsAt:
     def __init__(self, work):
         self.work = np.asarray(work, bool)
         self.every = bool(self.work.all())
+
+    def cloud(self, grid):
+        """A weather.CloudGrid worked out at the steps, on the whole time axis: no chance
+        of a clear sky (0), no cloud figure (NaN) and no source elsewhere."""
+        import dataclasses
+
+        if self.every:
+            return grid
+        return dataclasses.replace(
+            grid, p_clear=self.full(grid.p_clear, 0.0), cloud_pct=self.full(grid.cloud_pct, np.nan),
+            source=self.full(grid.source, None), model_pct=self.full(grid.model_pct, np.nan),
+            model_weight=self.full(grid.model_weight, 0.0),
+            spread_pct=self.full(grid.spread_pct, np.nan))
 
     def full(self, values, fill):
         """``values`` (N, W) on the time axis, ``fill`` at the steps not worked out."""

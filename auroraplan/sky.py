@@ -151,6 +151,30 @@ class _Geocentre:
         return v[:, 0:3], v[:, 3:6], v[:, 6]
 
 
+_GEOCENTRES: list = []  # the last few _Geocentre made, reused for times they cover
+
+
+def _geocentre_for(seconds: np.ndarray) -> _Geocentre:
+    """A _Geocentre whose nodes cover ``seconds`` with the interpolation margins."""
+    first, last = float(seconds.min()), float(seconds.max())
+    for geo in _GEOCENTRES:
+        low = geo.t0 + geo.step
+        high = geo.t0 + geo.step * (geo.values.shape[0] - 3)
+        if low <= first and last <= high:
+            return geo
+    geo = _Geocentre(np.array([first, last]))
+    _GEOCENTRES[:] = [geo, *_GEOCENTRES[:2]]
+    return geo
+
+
+def keep_geocentre(first_utc, last_utc) -> None:
+    """Work out the geocentric sun and moon from ``first_utc`` to ``last_utc`` at once, for
+    a long run asked for in chunks (the season outlook): each chunk then interpolates them
+    instead of asking Skyfield again. The nodes lie on a fixed 3-hour grid, so the values
+    are the same either way."""
+    _geocentre_for(_unix_seconds(np.array([first_utc, last_utc])))
+
+
 def lagrange4(values: np.ndarray, x: np.ndarray) -> np.ndarray:
     """Cubic (four-point Lagrange) interpolation of rows of ``values`` at grid positions x.
 
@@ -271,7 +295,7 @@ def sun_moon_altaz(lat_deg, lon_deg, height_m, times_utc, chunk_size=2_000_000) 
     out = {name: np.empty((n_sites, n_times)) for name in ("sa", "sz", "ma", "mz")}
     phase = np.empty(n_times)
     if n_times:
-        geo = _Geocentre(seconds)
+        geo = _geocentre_for(seconds)
         step = max(1, chunk_size // max(n_sites, 1))
         for start in range(0, n_times, step):
             part = slice(start, start + step)

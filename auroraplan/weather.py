@@ -348,6 +348,11 @@ def models_at_reports(series, names, reports, settings=WeatherSettings()):
     return out
 
 
+SOURCES = np.array(["clouds.csv", "models", "climatology", "default"], dtype=object)
+"""The names ``CloudGrid.source`` holds (an object array of these four strings: a tenth of
+the memory of a fixed-width text array over many sites and steps)."""
+
+
 def cloud_grid(sites, clouds_df, times_utc, tz=None, reading=None, reports=(),
                settings=WeatherSettings(), report_reading=None):
     """Cloud and P(clear sky) per site and time, from every source, with provenance.
@@ -428,8 +433,8 @@ def cloud_grid(sites, clouds_df, times_utc, tz=None, reading=None, reports=(),
     from_models = ~from_csv & np.isfinite(model_cloud)
     cloud = np.where(from_csv, csv_cloud, model_cloud)
     p_clear = np.where(np.isnan(cloud), fallback, clear_fraction(cloud))
-    source = np.where(from_csv, "clouds.csv", np.where(
-        from_models, "models", np.where(np.isnan(monthly), "default", "climatology")))
+    code = np.where(from_csv, 0, np.where(from_models, 1, np.where(np.isnan(monthly), 3, 2)))
+    source = SOURCES[code.astype(np.uint8)]
     overlap = from_csv & np.isfinite(model_cloud)
     if overlap.any():
         warnings.append(f"clouds.csv overrides the weather-model files at "

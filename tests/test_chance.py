@@ -254,7 +254,10 @@ def test_working_only_the_dark_outing_steps_gives_the_same_nights_as_every_step(
                                    rtol=0, atol=1e-12, err_msg=name)
     np.testing.assert_array_equal(fast.chance, full.chance)
     a, b = (chance.summarise_nights(g, 4, ws.settings.chance) for g in (fast, full))
-    for name in ("p_any", "expected_min", "peak", "window_start", "window_end", "limiting"):
+    for name in ("p_any", "expected_min", "peak"):  # sums in another order: 1e-12
+        np.testing.assert_allclose(getattr(a, name), getattr(b, name), rtol=0, atol=1e-12,
+                                   err_msg=name)
+    for name in ("window_start", "window_end", "limiting"):
         np.testing.assert_array_equal(getattr(a, name), getattr(b, name), err_msg=name)
     assert np.isnan(fast.kp_needed[:, ~work]).all()
 
