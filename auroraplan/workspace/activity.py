@@ -1,0 +1,60 @@
+"""activity.csv: the Kp forecast in 3-hour blocks."""
+
+from __future__ import annotations
+
+import math
+
+from auroraplan import checks, csvcolumns
+from auroraplan.activity import BLOCK_HOURS, parse_kp
+from auroraplan.csvcolumns import ActivityTable
+from auroraplan.errors import ProblemList
+from auroraplan.workspace.files import CSV_COLUMNS, _check_field, _read_csv_rows, _read_text
+
+KP_SD_RANGE = (0.0, 5.0)
+
+def _kp_sd(text):
+    if not str(text).strip():
+        return math.nan
+    return checks.cell_number(*KP_SD_RANGE, "Kp")(text)
+
+def _block_start(text):
+    start = checks.file_time(text)
+    if start.minute or start.second or start.microsecond or start.hour % BLOCK_HOURS:
+        raise ValueError(
+            f"{checks.quote(str(text).strip())} is not the start of a 3-hour Kp block; "
+            "give 00, 03, 06, ... 21 h UTC"
+        )
+    return start
+
+def _load_activity(path, label, problems: ProblemList):
+    """ActivityTable, or None with the problems added. A large file is read column-wise
+    (auroraplan.csvcolumns); one it cannot vouch for is read row by row, which names
+    each bad row."""
+    table = csvcolumns.read_activity(path, *CSV_COLUMNS["activity"], parse_kp, _kp_sd,
+                                     BLOCK_HOURS * 3600)
+    if table is not None:
+        return table
+    text = _read_text(path, label, problems)
+    if text is None:
+        return None
+    starts, kps, sds = [], [], []
+    first_line = {}
+    for line, row in _read_csv_rows(text, label, "activity", problems):
+        where = f"{label} line {line}"
+        before = len(problems)
+        start = _check_field(problems, where, "start_utc", _block_start, row["start_utc"])
+        kp = _check_field(problems, where, "kp", parse_kp, row["kp"])
+        sd = _check_field(problems, where, "kp_sd", _kp_sd, row.get("kp_sd", ""))
+        if len(problems) > before:
+            continue
+        if start in first_line:
+            problems.add(
+                f"{where}, start_utc: block {start:%Y-%m-%dT%H:%MZ} is also on line "
+                f"{first_line[start]}; give each block once"
+            )
+            continue
+        first_line[start] = line
+        starts.append(start)
+        kps.append(kp)
+        sds.append(sd)
+    return None if problems else ActivityTable.from_rows(starts, kps, sds)

@@ -1,0 +1,97 @@
+"""clouds.csv: cloud cover per site and hour."""
+
+from __future__ import annotations
+
+from auroraplan import checks, csvcolumns
+from auroraplan.csvcolumns import CloudTable
+from auroraplan.errors import ProblemList
+from auroraplan.workspace.files import (
+    CSV_COLUMNS,
+    FILE_NAMES,
+    _check_field,
+    _read_csv_rows,
+    _read_text,
+)
+
+CLOUD_UNITS = {"%": "percent", "percent": "percent", "pct": "percent", "fraction": "fraction",
+               "1": "fraction", "0-1": "fraction"}
+
+"""Words allowed in the ``unit`` column of clouds.csv, and what they mean."""
+
+def _cloud_unit(text):
+    word = str(text).strip().lower()
+    if word not in CLOUD_UNITS:
+        raise ValueError(f"{checks.quote(str(text).strip())} is not known; give percent (or %) or "
+                         "fraction")
+    return CLOUD_UNITS[word]
+
+def _cloud_value(unit):
+    """Checker of one cloud cell in ``unit``: returns percent."""
+    if unit == "fraction":
+        fraction = checks.cell_number(0, 1, "(a fraction)")
+        return lambda text: 100.0 * fraction(text)
+    return checks.cell_number(0, 100, "%")
+
+def _load_clouds(path, label, site_names, problems: ProblemList, default_unit="percent"):
+    """CloudTable, or None with the problems added. A large file is read column-wise
+    (auroraplan.csvcolumns); one it cannot vouch for is read row by row, which names
+    each bad row.
+
+    ``cloud_pct`` is percent unless the row's ``unit`` column or ``[weather] clouds_unit``
+    says fraction. A file whose values all lie within 0-1 (and are not all 0) with no unit
+    saying fraction is rejected: 0.7 % is far likelier to be a fraction typed as percent.
+    """
+    table = csvcolumns.read_clouds(path, *CSV_COLUMNS["clouds"], site_names, _cloud_unit,
+                                   _cloud_value, default_unit)
+    if table is not None:
+        return table
+    text = _read_text(path, label, problems)
+    if text is None:
+        return None
+    names, times, clouds = [], [], []
+    unit_said = default_unit == "fraction"
+    largest = 0.0
+    unknown = {}  # site name -> (first line, rows)
+    first_line = {}
+    for line, row in _read_csv_rows(text, label, "clouds", problems):
+        where = f"{label} line {line}"
+        before = len(problems)
+        name = _check_field(problems, where, "site", checks.text, row["site"])
+        when = _check_field(problems, where, "time_utc", checks.file_time, row["time_utc"])
+        unit = default_unit
+        if str(row.get("unit", "")).strip():
+            unit = _check_field(problems, where, "unit", _cloud_unit, row["unit"])
+            unit_said = True
+        cloud = _check_field(problems, where, "cloud_pct", _cloud_value(unit), row["cloud_pct"])
+        if cloud is not None:
+            largest = max(largest, cloud if unit == "percent" else 100.0)
+        if name is not None and site_names is not None and name not in site_names:
+            first, count = unknown.get(name, (line, 0))
+            unknown[name] = (first, count + 1)
+            continue
+        if len(problems) > before:
+            continue
+        if (name, when) in first_line:
+            problems.add(
+                f"{where}, time_utc: {name} at {when:%Y-%m-%dT%H:%MZ} is also on line "
+                f"{first_line[(name, when)]}; give each hour once"
+            )
+            continue
+        first_line[(name, when)] = line
+        names.append(name)
+        times.append(when)
+        clouds.append(cloud)
+    for name, (first, count) in unknown.items():
+        listed = sorted(site_names)
+        shown = ", ".join(listed[:12]) + (", ..." if len(listed) > 12 else "")
+        problems.add(
+            f"{label} line {first}, site: {checks.quote(name)} is not a site in {FILE_NAMES['sites']} "
+            f"({count} row{'s' if count > 1 else ''}); known sites: {shown}"
+        )
+    if clouds and not unit_said and 0.0 < largest <= 1.0 and not problems:
+        problems.add(
+            f"{label}, cloud_pct: every value lies within 0-1 (largest {largest:g}), which "
+            "looks like fractions; write percent 0-100, or add a column unit with "
+            "'fraction', or set clouds_unit = \"fraction\" in [weather] of operator.toml"
+        )
+    return None if problems else CloudTable.from_rows(names, times, clouds)
