@@ -204,21 +204,24 @@ def _columns(path: Path, required, optional):
         raise _NotVouched from None
     if table.num_rows == 0:
         raise _NotVouched
-    return {c: table.column(c).combine_chunks() for c in wanted}
+    return {c: table.column(c) for c in wanted}
 
 
 def _distinct(column, checker, dtype=float):
     """``checker`` applied to each distinct text of a column: (values (K,), index (R,)).
 
     The checker strips the cell itself, as it does in the row reader."""
-    encoded = column.dictionary_encode()
+    import pyarrow.compute as pc
+
+    distinct = pc.unique(column)
     values = []
-    for text in encoded.dictionary.to_pylist():
+    for text in distinct.to_pylist():
         try:
             values.append(checker(text))
         except ValueError:
             raise _NotVouched from None
-    return np.array(values, dtype=dtype), encoded.indices.to_numpy(zero_copy_only=False)
+    index = pc.index_in(column, value_set=distinct)
+    return np.array(values, dtype=dtype), index.to_numpy()
 
 
 def _by_value(column, checker, dtype=float) -> np.ndarray:
@@ -261,9 +264,18 @@ def _times(column) -> np.ndarray:
     """
     import pyarrow as pa
 
+    if isinstance(column, pa.ChunkedArray):
+        parts = [_times(chunk) for chunk in column.chunks]
+        return np.concatenate(parts) if parts else np.empty(0, dtype="datetime64[s]")
+    return _times_of(column)
+
+
+def _times_of(array) -> np.ndarray:
+    """:func:`_times` of one Arrow string array."""
+    import pyarrow as pa
+
     from auroraplan.checks import FILE_YEARS
 
-    array = column.combine_chunks() if isinstance(column, pa.ChunkedArray) else column
     if array.null_count or not isinstance(array, pa.StringArray):
         raise _NotVouched
     _, offsets, data = array.buffers()
@@ -317,14 +329,19 @@ def read_activity(path: Path, required, optional, kp, kp_sd, block_s) -> Activit
     try:
         columns = _columns(path, required, optional)
         starts = _times(columns["start_utc"])
-        if np.any(starts.astype(np.int64) % block_s) or len(np.unique(starts)) < len(starts):
+        seconds = starts.astype(np.int64)
+        if np.any(seconds % block_s):
             return None
+        order = None if np.all(np.diff(seconds) > 0) else np.argsort(seconds, kind="stable")
+        if order is not None and np.any(np.diff(seconds[order]) == 0):
+            return None  # a repeated block: the row reader names both lines
         kps = _by_value(columns["kp"], kp)
         sds = (_by_value(columns["kp_sd"], kp_sd) if "kp_sd" in columns
                else np.full(len(starts), np.nan))
     except _NotVouched:
         return None
-    return ActivityTable(start_utc=starts, kp=kps, kp_sd=sds).sorted()
+    table = ActivityTable(start_utc=starts, kp=kps, kp_sd=sds)
+    return table if order is None else table.take(order)
 
 
 def read_clouds(path: Path, required, optional, site_names, unit_of, cloud_in,

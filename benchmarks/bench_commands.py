@@ -1,19 +1,25 @@
 """Whole-command wall time and peak memory, each against a floor measured in the same run.
 
 Every figure is a fresh process, as an operator would start it: the median wall
-time of several runs and the largest peak resident memory (``ru_maxrss`` of that
-one child, from ``os.wait4``). Two floors are measured alongside:
+time of at least five runs with the fastest and slowest, and the largest peak resident
+memory (``ru_maxrss`` of that one child, from ``os.wait4``). Floors are measured
+alongside, five runs each:
 
 - interpreter start (``python -c pass``) for ``auroraplan --help``;
-- the import floor (``python -c "import numpy, pandas, ..."`` with the libraries
-  the command needs) for the working commands: the part of the time no code of
-  ours can remove.
+- the import floor (``python -c "import numpy, ..."`` with the third-party libraries
+  the command was seen to load, no more) for the working commands: the part of the
+  time no code of ours can remove. A large clouds.csv brings Arrow's CSV reader
+  (which loads pandas itself), so those rows have a floor with them.
 
-Large inputs come from ``make_workspace`` (invented data) in a temporary folder.
-With ``quick`` the repeats drop to one and the largest inputs shrink; a shrunken
-figure has no target, since the targets are stated for the full sizes.
+Large inputs come from ``make_workspace`` (invented data, clouds.csv and activity.csv
+included where the row says cloud rows) in a temporary folder. A target given as a
+multiple of another row (``linear_to``) is checked against that row's median of the
+same run. ``memory_growth`` doubles the sites, then the hours, and prints each ratio of
+peak memory. With ``quick`` the repeats drop to one and the largest inputs shrink; a
+shrunken figure has no target, since the targets are stated for the full sizes.
 
-Run ``python benchmarks/bench_commands.py`` (``--quick`` for the short version).
+Run ``python benchmarks/bench_commands.py [--quick] [--only TEXT]`` (``--only`` runs the
+rows whose name holds TEXT).
 """
 
 from __future__ import annotations
@@ -34,16 +40,22 @@ ROOT = Path(__file__).resolve().parents[1]
 DEMO = ROOT / "demo_sites"
 PY = sys.executable
 
+LARGE_FILES = "pyarrow.csv, pyarrow.compute, pandas"
 FLOORS = {
     # name: the command run for it. The import lists are the third-party packages each
     # command was seen to load (sys.modules after a run), so the floor is what it must pay.
     "interpreter start": [PY, "-c", "pass"],
-    "imports: tonight": [PY, "-c", "import numpy, pandas, skyfield.api, aacgmv2, rich.table"],
-    "imports: week": [PY, "-c", "import numpy, pandas, scipy.optimize, scipy.sparse, "
-                      "skyfield.api, aacgmv2"],
-    "imports: season": [PY, "-c", "import numpy, pandas, skyfield.api, aacgmv2"],
-    "imports: sites": [PY, "-c", "import numpy, pandas, aacgmv2"],
+    "imports: tonight": [PY, "-c", "import numpy, skyfield.api, aacgmv2, rich.table"],
+    "imports: tonight, large files": [PY, "-c", "import numpy, skyfield.api, aacgmv2, "
+                                      f"rich.table, {LARGE_FILES}"],
+    "imports: week": [PY, "-c", "import numpy, scipy.optimize, scipy.sparse, skyfield.api, "
+                      "aacgmv2"],
+    "imports: week, large files": [PY, "-c", "import numpy, scipy.optimize, scipy.sparse, "
+                                   f"skyfield.api, aacgmv2, {LARGE_FILES}"],
+    "imports: season": [PY, "-c", "import numpy, skyfield.api, aacgmv2"],
+    "imports: sites": [PY, "-c", "import numpy, aacgmv2"],
 }
+FLOOR_REPEATS = 5
 
 
 @dataclass(frozen=True)
@@ -72,33 +84,49 @@ class Case:
     memory_target_mb: float | None = None
     quick_workspace: Generated | None = None  # smaller stand-in when quick (no target then)
     repeats: int = 5
+    floor_factor: float | None = None  # target: the larger of target_s and this x the floor
+    linear_to: str | None = None  # target: target_s x the median of the row of this name
 
 
 JAN = dt.date(2027, 1, 11)
 SEP = dt.date(2026, 9, 1)
+SEASON = ("season", "{ws}", "--from", "2026-09-01", "--to", "2027-04-13", "--json")
+BIG = Generated(10_000, 6, JAN, 7)  # with 720,000 hourly cloud rows (3 nights x 24 h)
 CASES = (
     Case("auroraplan --help", ("--help",), 0.5, "interpreter start", repeats=7),
-    Case("tonight demo_sites", ("tonight", "{ws}", "--date", "2027-01-12"), 2.5,
-         "imports: tonight"),
+    Case("tonight demo_sites", ("tonight", "{ws}", "--date", "2027-01-12"), 0.8,
+         "imports: tonight", floor_factor=3.0),
     Case("week demo_sites --json", ("week", "{ws}", "--start", "2027-01-11", "--json"), 3.0,
          "imports: week"),
     Case("week 50 sites x 7 nights x 6 trips", ("week", "{ws}", "--start", "2027-01-11",
          "--json"), 3.0, "imports: week", workspace=Generated(50, 6, JAN, 7)),
     Case("week 200 sites x 7 nights x 20 trips", ("week", "{ws}", "--start", "2027-01-11",
          "--json"), 10.0, "imports: week", workspace=Generated(200, 20, JAN, 7),
-         quick_workspace=Generated(50, 20, JAN, 7), repeats=3),
+         quick_workspace=Generated(50, 20, JAN, 7)),
     Case("week 100 sites x 7 nights x 100 trips", ("week", "{ws}", "--start", "2027-01-11",
          "--json"), 15.0, "imports: week", workspace=Generated(100, 100, JAN, 7),
          quick_workspace=Generated(50, 30, JAN, 7)),
+    Case("tonight 10,000 sites, 720,000 cloud rows", ("tonight", "{ws}", "--date",
+         "2027-01-12"), 5.0, "imports: tonight, large files", workspace=BIG,
+         memory_target_mb=1024.0, quick_workspace=Generated(1_000, 6, JAN, 7)),
+    Case("week 10,000 sites, 720,000 cloud rows", ("week", "{ws}", "--start", "2027-01-11",
+         "--json"), 10.0, "imports: week, large files", workspace=BIG,
+         memory_target_mb=1536.0, quick_workspace=Generated(1_000, 6, JAN, 7)),
     Case("season demo_sites 2026-09-01..2027-04-15", ("season", "{ws}", "--from", "2026-09-01",
-         "--to", "2027-04-15", "--json"), 15.0, "imports: season", repeats=3),
-    Case("season 100 sites x 225 nights", ("season", "{ws}", "--from", "2026-09-01", "--to",
-         "2027-04-13", "--json"), 20.0, "imports: season",
+         "--to", "2027-04-15", "--json"), 15.0, "imports: season"),
+    Case("season 100 sites x 225 nights", SEASON, 3.0, "imports: season",
          workspace=Generated(100, 6, SEP, 225, forecasts=False), memory_target_mb=1536.0,
-         quick_workspace=Generated(20, 6, SEP, 225, forecasts=False), repeats=3),
+         quick_workspace=Generated(20, 6, SEP, 225, forecasts=False)),
+    Case("season 1,000 sites x 225 nights", SEASON, 15.0, "imports: season",
+         workspace=Generated(1_000, 6, SEP, 225, forecasts=False), memory_target_mb=1536.0,
+         quick_workspace=Generated(100, 6, SEP, 225, forecasts=False)),
+    Case("season 3,000 sites x 225 nights", SEASON, 3.0, "imports: season",
+         workspace=Generated(3_000, 6, SEP, 225, forecasts=False), memory_target_mb=1536.0,
+         quick_workspace=Generated(300, 6, SEP, 225, forecasts=False),
+         linear_to="season 1,000 sites x 225 nights"),
     Case("sites, 10,000 sites", ("sites", "{ws}", "--date", "2027-01-12", "--json"), 15.0,
          "imports: sites", workspace=Generated(10_000, 6, JAN, 7, forecasts=False),
-         quick_workspace=Generated(1_000, 6, JAN, 7, forecasts=False), repeats=3),
+         quick_workspace=Generated(1_000, 6, JAN, 7, forecasts=False)),
 )
 
 
@@ -142,15 +170,18 @@ def time_process(argv) -> tuple[float, float, int, str]:
 
 
 def median_run(argv, repeats: int) -> dict:
-    """Median wall time and largest peak memory over repeats; stops at the first failure."""
+    """Median, fastest and slowest wall time and largest peak memory over repeats; stops
+    at the first failure."""
     times, peaks = [], []
     for _ in range(repeats):
         seconds, peak, code, last = time_process(argv)
         if code != 0:
-            return {"seconds": None, "peak_mb": peak, "error": f"exit {code}: {last}"}
+            return {"seconds": None, "min_s": None, "max_s": None, "peak_mb": peak,
+                    "error": f"exit {code}: {last}", "runs": len(times)}
         times.append(seconds)
         peaks.append(peak)
-    return {"seconds": statistics.median(times), "peak_mb": max(peaks), "error": None}
+    return {"seconds": statistics.median(times), "min_s": min(times), "max_s": max(times),
+            "peak_mb": max(peaks), "error": None, "runs": len(times)}
 
 
 def _workspace_for(case: Case, quick: bool, scratch: Path, made: dict) -> tuple[Path, bool]:
@@ -166,9 +197,20 @@ def _workspace_for(case: Case, quick: bool, scratch: Path, made: dict) -> tuple[
     return made[spec], spec == case.workspace
 
 
-def _row(case: Case, result: dict, floor: dict, full_size: bool, quick: bool, size: str) -> dict:
+def _target(case: Case, floor: dict, done: dict, full_size: bool) -> float | None:
+    """The row's target in seconds: fixed, a multiple of the floor, or of another row."""
+    if not full_size:
+        return None
+    if case.linear_to is not None:
+        other = done.get(case.linear_to)
+        return None if other is None else case.target_s * other
+    if case.floor_factor is not None and floor["seconds"] is not None:
+        return max(case.target_s, case.floor_factor * floor["seconds"])
+    return case.target_s
+
+
+def _row(case: Case, result: dict, floor: dict, target, full_size: bool, size: str) -> dict:
     seconds = result["seconds"]
-    target = case.target_s if full_size else None
     met = None if target is None or seconds is None else seconds <= target
     if met is not None and case.memory_target_mb is not None:
         met = met and result["peak_mb"] < case.memory_target_mb
@@ -176,35 +218,41 @@ def _row(case: Case, result: dict, floor: dict, full_size: bool, quick: bool, si
     return {
         "name": name,
         "seconds": seconds,
+        "min_s": result["min_s"],
+        "max_s": result["max_s"],
         "target_seconds": target,
         "ok": met,
         "peak_mb": result["peak_mb"],
         "memory_target_mb": case.memory_target_mb if full_size else None,
         "baseline": case.floor,
         "baseline_seconds": floor["seconds"],
+        "baseline_min_s": floor["min_s"],
+        "baseline_max_s": floor["max_s"],
         "ratio": None if seconds is None else seconds / floor["seconds"],
-        "repeats": 1 if quick else case.repeats,
+        "repeats": result["runs"],
         "error": result["error"],
     }
 
 
-def run(quick: bool = False, cases=CASES) -> list[dict]:
+def run(quick: bool = False, cases=CASES, only: str | None = None) -> list[dict]:
     """Time every case and its floor; one dict per case.
 
     Returns
     -------
     list of dict
-        ``name``, ``seconds`` (median wall time, None when the command failed),
-        ``target_seconds`` (None for a shrunken quick input), ``ok``, ``peak_mb``,
-        ``memory_target_mb``, ``baseline`` (floor name), ``baseline_seconds``,
-        ``ratio`` (seconds / floor), ``repeats`` and ``error`` (None or the last line
-        the command wrote to stderr).
+        ``name``, ``seconds`` (median wall time, None when the command failed), ``min_s``
+        and ``max_s``, ``target_seconds`` (None for a shrunken quick input), ``ok``,
+        ``peak_mb``, ``memory_target_mb``, ``baseline`` (floor name), ``baseline_seconds``
+        (its median, with ``baseline_min_s`` and ``baseline_max_s``), ``ratio`` (seconds /
+        floor), ``repeats`` and ``error`` (None or the last line the command wrote to
+        stderr).
     """
+    cases = [c for c in cases if only is None or only in c.name]
     command = auroraplan_command()
     floors = {}
     for name in sorted({case.floor for case in cases}):
-        floors[name] = median_run(FLOORS[name], 3 if quick else 7)
-    rows = []
+        floors[name] = median_run(FLOORS[name], 3 if quick else FLOOR_REPEATS)
+    rows, done = [], {}
     with tempfile.TemporaryDirectory(prefix="auroraplan-bench-") as scratch:
         made = {}
         for case in cases:
@@ -212,8 +260,44 @@ def run(quick: bool = False, cases=CASES) -> list[dict]:
             spec = case.quick_workspace if not full_size else case.workspace
             argv = command + [a.format(ws=folder) for a in case.args]
             result = median_run(argv, 1 if quick else case.repeats)
-            rows.append(_row(case, result, floors[case.floor], full_size, quick,
+            done[case.name] = result["seconds"]
+            target = _target(case, floors[case.floor], done, full_size)
+            rows.append(_row(case, result, floors[case.floor], target, full_size,
                              spec.label() if spec else "demo"))
+        if only is None or "memory" in only:
+            rows.extend(memory_growth(quick, Path(scratch), command))
+    return rows
+
+
+def memory_growth(quick: bool, scratch: Path, command) -> list[dict]:
+    """Peak memory as the sites double, then as the hours double, with the ratio.
+
+    ``tonight`` on N and 2N sites (clouds.csv included), then ``week`` over 3 and 6 nights
+    on the N sites: a ratio near 2 or below means memory grows no faster than the work.
+    """
+    n = 250 if quick else 2_500
+    folders = {k: make_workspace(scratch / f"grow{k}", k, 6, JAN, 7, seed=k)
+               for k in (n, 2 * n)}
+    steps = (
+        (f"tonight, {n:,} -> {2 * n:,} sites", [
+            ["tonight", str(folders[k]), "--date", "2027-01-12"] for k in (n, 2 * n)]),
+        (f"week, {n:,} sites, 3 -> 6 nights", [
+            ["week", str(folders[n]), "--start", "2027-01-11", "--nights", str(k), "--json"]
+            for k in (3, 6)]),
+    )
+    rows = []
+    for name, (small, large) in steps:
+        a = median_run(command + small, 1 if quick else 5)
+        b = median_run(command + large, 1 if quick else 5)
+        rows.append({"name": f"memory growth: {name}", "seconds": b["seconds"],
+                     "min_s": b["min_s"], "max_s": b["max_s"], "target_seconds": None,
+                     "ok": None, "peak_mb": b["peak_mb"], "memory_target_mb": None,
+                     "baseline": "the half-size run", "baseline_seconds": a["seconds"],
+                     "baseline_min_s": a["min_s"], "baseline_max_s": a["max_s"],
+                     "ratio": None if not (a["seconds"] and b["seconds"])
+                     else b["seconds"] / a["seconds"],
+                     "memory_ratio": b["peak_mb"] / a["peak_mb"], "baseline_peak_mb": a["peak_mb"],
+                     "repeats": b["runs"], "error": a["error"] or b["error"]})
     return rows
 
 
@@ -223,14 +307,20 @@ def _fmt(value, pattern="{:.2f}"):
 
 def main(argv=None) -> int:
     argv = sys.argv[1:] if argv is None else argv
-    rows = run(quick="--quick" in argv)
-    print(f"{'command':<48} {'median s':>9} {'target':>7} {'met':>4} {'peak MB':>8} "
-          f"{'floor s':>8} {'ratio':>6}")
+    only = argv[argv.index("--only") + 1] if "--only" in argv else None
+    rows = run(quick="--quick" in argv, only=only)
+    print(f"{'command':<48} {'median s':>9} {'min-max s':>13} {'target':>7} {'met':>4} "
+          f"{'peak MB':>8} {'floor s':>8} {'ratio':>6}")
     for r in rows:
         met = {True: "yes", False: "NO", None: "-"}[r["ok"]]
-        print(f"{r['name']:<48} {_fmt(r['seconds']):>9} {_fmt(r['target_seconds'], '{:.1f}'):>7} "
-              f"{met:>4} {_fmt(r['peak_mb'], '{:.0f}'):>8} {_fmt(r['baseline_seconds']):>8} "
+        spread = "-" if r["min_s"] is None else f"{r['min_s']:.2f}-{r['max_s']:.2f}"
+        print(f"{r['name']:<48} {_fmt(r['seconds']):>9} {spread:>13} "
+              f"{_fmt(r['target_seconds'], '{:.1f}'):>7} {met:>4} "
+              f"{_fmt(r['peak_mb'], '{:.0f}'):>8} {_fmt(r['baseline_seconds']):>8} "
               f"{_fmt(r['ratio'], '{:.1f}'):>6}")
+        if "memory_ratio" in r:
+            print(f"    peak memory {r['baseline_peak_mb']:.0f} -> {r['peak_mb']:.0f} MB: "
+                  f"ratio {r['memory_ratio']:.2f} (time ratio {_fmt(r['ratio'])})")
         if r["error"]:
             print(f"    failed: {r['error']}")
     return 0 if all(r["error"] is None for r in rows) else 1
