@@ -118,15 +118,25 @@ def local_month_index(lon_deg, times_utc, tz=None):
     return local.astype("datetime64[M]").astype(np.int64) % 12
 
 
-def _forecast_by_site(clouds_df):
-    """Site name -> (times in seconds, cloud percent), ascending in time; one pass."""
+def _forecast_by_site(clouds_df, window=None):
+    """Site name -> (times in seconds, cloud percent), ascending in time; one pass.
+
+    ``window`` (first, last seconds): only rows within it are kept (the nights asked for,
+    widened by the longest gap bridged and the end hold, so every value is as from the
+    whole file). A ``csvcolumns.CloudTable`` is already in site and time order."""
     if clouds_df is None or len(clouds_df) == 0:
         return {}
     times = utc_datetime64(clouds_df["time_utc"]).astype(np.int64)
     names = np.asarray(clouds_df["site"], dtype=object)
     pct = np.asarray(clouds_df["cloud_pct"], dtype=float)
-    order = np.lexsort((times, names))
-    names, times, pct = names[order], times[order], pct[order]
+    if window is not None:
+        keep = (times >= window[0]) & (times <= window[1])
+        names, times, pct = names[keep], times[keep], pct[keep]
+        if not len(names):
+            return {}
+    if getattr(clouds_df, "SORT", None) != ("site", "time_utc"):
+        order = np.lexsort((times, names))
+        names, times, pct = names[order], times[order], pct[order]
     cuts = np.flatnonzero(names[1:] != names[:-1]) + 1
     starts = np.concatenate([[0], cuts])
     ends = np.concatenate([cuts, [len(names)]])
@@ -384,7 +394,9 @@ def cloud_grid(sites, clouds_df, times_utc, tz=None, reading=None, reports=(),
     times = utc_datetime64(times_utc)
     times_s = times.astype(np.int64)
     n = len(sites)
-    forecasts = _forecast_by_site(clouds_df)
+    reach = 3600 * max(settings.max_gap_h, END_HOLD_H)
+    forecasts = _forecast_by_site(clouds_df, (times_s.min() - reach, times_s.max() + reach)
+                                  if times_s.size else None)
     empty = (np.array([], dtype=np.int64), np.array([], dtype=float))
     csv_cloud = np.stack(
         [cloud_at(times_s, *forecasts.get(site.name, empty), settings.max_gap_h)

@@ -26,7 +26,7 @@ from pathlib import Path
 HERE = Path(__file__).resolve().parent
 OUT = HERE / "_out"
 MODULES = ("bench_sky", "bench_view", "bench_planner", "bench_climatology", "bench_week",
-           "bench_commands", "bench_nowcast", "bench_weather")
+           "bench_commands", "bench_readers", "bench_nowcast", "bench_weather")
 
 FAIRNESS = ("Fairness: each baseline gets the same inputs and must reach the same accuracy "
             "(sky: within 0.01 deg sun, 0.02 deg moon of per-site Skyfield; planner: greedy "
@@ -56,11 +56,12 @@ with open(sys.argv[4], "w") as out:
 
 
 def _row(figure, seconds, baseline=None, baseline_seconds=None, target=None, met=None,
-         peak_mb=None, note=""):
+         peak_mb=None, note="", spread=None, baseline_spread=None):
     ratio = seconds / baseline_seconds if seconds and baseline_seconds else None
     return {"figure": figure, "seconds": seconds, "baseline": baseline,
             "baseline_seconds": baseline_seconds, "ratio": ratio, "target_seconds": target,
-            "met": met, "peak_mb": peak_mb, "note": note}
+            "met": met, "peak_mb": peak_mb, "note": note, "spread": spread,
+            "baseline_spread": baseline_spread}
 
 
 def _sky_rows(r: dict, peak_mb: float) -> list[dict]:
@@ -84,13 +85,19 @@ def _generic_rows(result, peak_mb: float, baseline="same-run baseline") -> list[
         size = r.get("size") or (f"{r['sites']:,} sites" if r.get("sites") else "")
         figure = r.get("name", "?") + (f", {size}" if size else "")
         note = r.get("error") or ""
+        if "memory_ratio" in r:
+            note = (f"peak memory {r['baseline_peak_mb']:.0f} -> {r['peak_mb']:.0f} MB, "
+                    f"ratio {r['memory_ratio']:.2f}")
         if "gap" in r:
             note = f"total chance {r['objective']:.3f} vs baseline {r['baseline_objective']:.3f}"
         own_peak = r.get("peak_mb")
         met = r.get("ok", r.get("met"))
         row = _row(figure, r.get("seconds"), r.get("baseline", baseline),
                    r.get("baseline_seconds"), r.get("target_seconds"), met,
-                   own_peak if own_peak is not None else peak_mb, note)
+                   own_peak if own_peak is not None else peak_mb, note,
+                   (r["min_s"], r["max_s"]) if r.get("min_s") is not None else None,
+                   (r["baseline_min_s"], r["baseline_max_s"])
+                   if r.get("baseline_min_s") is not None else None)
         if r.get("ratio") is not None and row["ratio"] is None:
             row["ratio"] = r["ratio"]
         rows.append(row)
@@ -99,7 +106,7 @@ def _generic_rows(result, peak_mb: float, baseline="same-run baseline") -> list[
 
 BASELINE_NAMES = {
     # module: what its baseline_seconds measure, when the module does not say
-    "bench_view": "per-site loop, same code",
+    "bench_view": "floor: AACGM-v2 of sites and meridians",
     "bench_climatology": "read + split the file",
 }
 
@@ -157,18 +164,22 @@ def machine() -> dict:
 # The table
 # ---------------------------------------------------------------------------------------
 
-COLUMNS = ("figure", "median s", "baseline", "baseline s", "ratio", "target s", "met",
-           "peak MB")
+COLUMNS = ("figure", "median s", "min-max s", "baseline", "baseline s", "min-max s",
+           "ratio", "target s", "met", "peak MB")
 
 
 def _cells(row: dict) -> list[str]:
     def num(value, pattern):
         return "-" if value is None else pattern.format(value)
 
+    def span(pair):
+        return "-" if not pair else f"{pair[0]:.3f}-{pair[1]:.3f}"
+
     met = {True: "yes", False: "NO", None: "-"}[row["met"]]
-    return [row["figure"], num(row["seconds"], "{:.3f}"), row["baseline"] or "-",
-            num(row["baseline_seconds"], "{:.3f}"), num(row["ratio"], "{:.2f}"),
-            num(row["target_seconds"], "{:g}"), met, num(row["peak_mb"], "{:.0f}")]
+    return [row["figure"], num(row["seconds"], "{:.3f}"), span(row.get("spread")),
+            row["baseline"] or "-", num(row["baseline_seconds"], "{:.3f}"),
+            span(row.get("baseline_spread")), num(row["ratio"], "{:.2f}"),
+            num(row["target_seconds"], "{:.3g}"), met, num(row["peak_mb"], "{:.0f}")]
 
 
 def text_table(rows: list[dict]) -> str:
@@ -176,7 +187,7 @@ def text_table(rows: list[dict]) -> str:
     widths = [max(len(c[i]) for c in cells) for i in range(len(COLUMNS))]
     lines = []
     for i, line in enumerate(cells):
-        lines.append("  ".join(c.ljust(w) if j in (0, 2) else c.rjust(w)
+        lines.append("  ".join(c.ljust(w) if j in (0, 3) else c.rjust(w)
                                for j, (c, w) in enumerate(zip(line, widths, strict=True))))
         if i == 0:
             lines.append("  ".join("-" * w for w in widths))
@@ -185,7 +196,7 @@ def text_table(rows: list[dict]) -> str:
 
 def markdown_table(rows: list[dict]) -> str:
     lines = ["| " + " | ".join(COLUMNS) + " |",
-             "|" + "|".join(":--" if i in (0, 2) else "--:" for i in range(len(COLUMNS))) + "|"]
+             "|" + "|".join(":--" if i in (0, 3) else "--:" for i in range(len(COLUMNS))) + "|"]
     lines += ["| " + " | ".join(_cells(r)) + " |" for r in rows]
     return "\n".join(lines)
 

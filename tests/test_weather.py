@@ -1,5 +1,8 @@
 """P(clear sky) per site: hourly cloud forecast, else the site's month, else a default."""
 
+import datetime as dt
+from pathlib import Path
+
 import numpy as np
 import pandas as pd
 import pytest
@@ -149,3 +152,26 @@ def test_demo_storm_night_is_clearer_inland(demo_dir):
     at_2210 = p[by_name["Delta Flats"], 19]  # 22:10Z
     lo, hi = sorted(raw[["2027-01-12T22:00Z", "2027-01-12T23:00Z"]].to_numpy())
     assert 1 - hi / 100 <= at_2210 <= 1 - lo / 100
+
+
+def test_only_the_rows_near_the_nights_asked_for_are_used_and_give_the_same_cloud():
+    # Reference: cloud_at on every row of each site's forecast (the whole file), against
+    # cloud_grid, which keeps only the rows within the longest bridged gap of the nights;
+    # also a pandas frame in shuffled row order, which cloud_grid sorts itself.
+    from auroraplan.nights import night_times
+    from auroraplan.weather import cloud_at, cloud_grid
+    from auroraplan.workspace import load_workspace
+
+    ws = load_workspace(Path(__file__).resolve().parents[1] / "demo_sites")
+    times, _ = night_times(dt.date(2027, 1, 13), 2, ws.operator.timezone, 10)
+    grid = cloud_grid(ws.sites, ws.clouds, times, tz=ws.operator.timezone)
+    shuffled = ws.clouds.to_frame().sample(frac=1.0, random_state=3)
+    again = cloud_grid(ws.sites, shuffled, times, tz=ws.operator.timezone)
+    np.testing.assert_array_equal(again.cloud_pct, grid.cloud_pct)
+    seconds = times.astype("datetime64[s]").astype(np.int64)
+    for i, site in enumerate(ws.sites):
+        rows = ws.clouds["site"] == site.name
+        expected = cloud_at(seconds, ws.clouds["time_utc"][rows].astype(np.int64),
+                            ws.clouds["cloud_pct"][rows])
+        np.testing.assert_array_equal(grid.cloud_pct[i], expected, err_msg=site.name)
+    assert np.isfinite(grid.cloud_pct).any() and np.isnan(grid.cloud_pct).any()
