@@ -560,17 +560,46 @@ def look_for_forecast(table, kp_needed, kp_lost, kp_mean, mlt):
     return out
 
 
+KEEP_TABLES_FROM_SITES = 200
+"""Kp-needed tables of this many sites or more are kept in the user's cache directory
+(folder ``kptables``, ``auroraplan.usercache``), since 10,000 sites take seconds to
+compute; a table depends on the sites, the viewing settings and the time, all in its key."""
+KEEP_TABLES = 6
+"""Most tables kept (each night asked for has its own, a week one)."""
+TABLE_VERSION = 1
+"""Bumped whenever view.kp_needed_table or KpNeeded changes."""
+
+
 def kp_table(sites, when_utc, viewing):
-    """The Kp-needed table (sites × MLT) for the viewing settings (view.ViewingSettings)."""
-    from auroraplan import view
+    """The Kp-needed table (sites × MLT) for the viewing settings (view.ViewingSettings).
+
+    A table of KEEP_TABLES_FROM_SITES sites or more is kept between runs, keyed by every
+    input (positions, heights, horizon masks, settings, the instant, aacgmv2's version):
+    the guide's repeated check of a large list of sites skips the table."""
+    import aacgmv2
+
+    from auroraplan import usercache, view
 
     arr = site_arrays(sites)
     when = np.datetime64(when_utc, "s").astype(object)
-    return view.kp_needed_table(
-        arr["lat"], arr["lon"], arr["height_m"], arr["horizons"],
-        min_elevation_deg=viewing.min_elevation_deg,
-        emission_height_km=viewing.emission_height_km, model=viewing.oval_model, when=when,
-    )
+
+    def build():
+        return view.kp_needed_table(
+            arr["lat"], arr["lon"], arr["height_m"], arr["horizons"],
+            min_elevation_deg=viewing.min_elevation_deg,
+            emission_height_km=viewing.emission_height_km, model=viewing.oval_model, when=when,
+        )
+
+    if len(sites) < KEEP_TABLES_FROM_SITES:
+        return build()
+    masks = [b"-" if h is None else np.ascontiguousarray(h, float).tobytes()
+             for h in arr["horizons"]]
+    key = usercache.digest(
+        (TABLE_VERSION, aacgmv2.__version__, when.isoformat(), viewing.min_elevation_deg,
+         viewing.emission_height_km, viewing.oval_model,
+         usercache.digest([m.hex() for m in masks])),
+        (arr["lat"], arr["lon"], arr["height_m"]))
+    return usercache.kept("kptables", key, TABLE_VERSION, build, keep=KEEP_TABLES)
 
 
 @dataclass

@@ -48,11 +48,12 @@ def digest(parts, arrays=()) -> str:
     return out.hexdigest()
 
 
-def kept(kind: str, key: str, version: int, compute):
+def kept(kind: str, key: str, version: int, compute, keep: int | None = None):
     """``compute()``, kept in ``cache_folder(kind)`` under ``key`` for format ``version``.
 
     A missing, unreadable or older entry is computed afresh and written whole (a part file
-    renamed into place), so a run stopped halfway leaves no broken entry.
+    renamed into place), so a run stopped halfway leaves no broken entry. With ``keep``,
+    only that many entries of the kind stay (the most recently written).
     """
     import pickle
 
@@ -76,4 +77,16 @@ def kept(kind: str, key: str, version: int, compute):
         part.replace(entry)
     except OSError:
         part.unlink(missing_ok=True)
+    if keep is not None:
+        _prune(folder, keep)
     return value
+
+
+def _prune(folder: Path, keep: int) -> None:
+    """Remove all but the ``keep`` most recently written entries of a folder."""
+    try:
+        entries = sorted(folder.glob("*.pickle"), key=lambda p: p.stat().st_mtime_ns)
+        for old in entries[:-keep] if keep > 0 else entries:
+            old.unlink(missing_ok=True)
+    except OSError:
+        pass

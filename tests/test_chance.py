@@ -268,3 +268,37 @@ def test_working_steps_reach_an_hour_around_the_dark_outing_steps():
     work = chance.working_steps(darkness, 10)
     assert np.flatnonzero(work).tolist() == list(range(14, 29))
     assert not chance.working_steps(np.zeros((2, 5)), 10).any()
+
+
+def test_a_large_kp_needed_table_is_kept_in_the_user_cache_and_equal_to_a_fresh_one(
+        tmp_path, monkeypatch):
+    # Reference: view.kp_needed_table computed afresh for the same sites and settings.
+    import dataclasses
+
+    from auroraplan import view
+    from auroraplan.settings import Settings
+    from auroraplan.workspace import Site
+
+    monkeypatch.setenv("AURORAPLAN_CACHE", str(tmp_path / "cache"))
+    monkeypatch.setattr(chance, "KEEP_TABLES_FROM_SITES", 20)
+    rng = np.random.default_rng(4)
+    ridge = np.array([[0.0, 8.0], [90.0, 1.0], [270.0, 1.0], [360.0, 8.0]])
+    sites = [Site(name=f"s{i}", lat=float(rng.uniform(66, 71)), lon=float(rng.uniform(14, 24)),
+                  height_m=float(rng.uniform(0, 400)), horizon=ridge if i % 3 == 0 else None)
+             for i in range(30)]
+    viewing = Settings().viewing
+    when = np.datetime64("2027-01-12T23:00", "s")
+    built = []
+    real = view.kp_needed_table
+    monkeypatch.setattr(view, "kp_needed_table", lambda *a, **k: built.append(1) or real(*a, **k))
+    first = chance.kp_table(sites, when, viewing)
+    kept = chance.kp_table(sites, when, viewing)
+    assert len(built) == 1
+    for name in ("kp_horizon", "kp_overhead", "kp_lost", "look_azimuth_deg", "mlat", "mlon"):
+        np.testing.assert_array_equal(getattr(kept, name), getattr(first, name), err_msg=name)
+    chance.kp_table(sites, when + np.timedelta64(86400, "s"), viewing)  # another night
+    chance.kp_table(sites[:-1] + [dataclasses.replace(sites[-1], lat=70.5)], when, viewing)
+    higher = dataclasses.replace(viewing, min_elevation_deg=10.0)
+    chance.kp_table(sites, when, higher)
+    assert len(built) == 4
+    assert len(list((tmp_path / "cache" / "kptables").glob("*.pickle"))) == 4
