@@ -23,6 +23,28 @@ def spreadsheet_cell(value):
     return value
 
 
+def spreadsheet_text(header, rows) -> str:
+    """CSV text (RFC 4180 quoting, ``\\n`` line ends) with every cell passed through
+    :func:`spreadsheet_cell`: the one writer of the CSV files the tool makes."""
+    import csv
+    import io
+
+    buf = io.StringIO()
+    writer = csv.writer(buf, lineterminator="\n")
+    writer.writerow([spreadsheet_cell(h) for h in header])
+    writer.writerows([spreadsheet_cell(v) for v in row] for row in rows)
+    return buf.getvalue()
+
+
+def cell_as_written(text: str) -> str:
+    """The text of a cell :func:`spreadsheet_cell` quoted, as it was before: a leading
+    ``'`` in front of one of FORMULA_STARTS is dropped (for reading back a file the tool
+    wrote, such as an exported logbook); any other text is unchanged."""
+    if isinstance(text, str) and text.startswith("'") and text[1:].startswith(FORMULA_STARTS):
+        return text[1:]
+    return text
+
+
 def markup(text) -> str:
     """Text shown literally by the terminal-table library (rich): its ``[...]`` markup and a
     trailing backslash are escaped."""

@@ -206,8 +206,12 @@ def read_logbook_csv(path, site_names=None) -> list[Entry]:
         path, "logbook", f"give a logbook CSV file with the columns {', '.join(COLUMNS)}")
     problems.raise_if_any()
     entries = []
+    from auroraplan.escape import cell_as_written
+
     for line, row in rows:
-        entry, bad = make_entry(row, site_names)
+        # A cell written with a leading quote so that no spreadsheet runs it (by
+        # entries_csv or the run sheet's form) is read as it was before.
+        entry, bad = make_entry({k: cell_as_written(v) for k, v in row.items()}, site_names)
         if bad:
             problems.add(f"{label} line {line}: " + "; ".join(f"{f}: {msg}" for f, msg in bad))
         else:
@@ -217,18 +221,13 @@ def read_logbook_csv(path, site_names=None) -> list[Entry]:
 
 
 def entries_csv(entries) -> str:
-    """Entries as logbook CSV text (the format `read_logbook_csv` reads)."""
-    import csv
-    import io
+    """Entries as logbook CSV text (the format `read_logbook_csv` reads); a cell a
+    spreadsheet would run as a formula has a leading single quote, which the reader drops."""
+    from auroraplan.escape import spreadsheet_text
 
-    buf = io.StringIO()
-    w = csv.writer(buf, lineterminator="\n")
-    w.writerow(list(COLUMNS))
-    for e in entries:
-        span = f"{e.out_from}-{e.out_until}" if e.out_from else ""
-        cloud = "" if e.cloud_pct is None else f"{e.cloud_pct:g}"
-        w.writerow([e.site, e.night, e.aurora, span, cloud, e.note, e.source])
-    return buf.getvalue()
+    return spreadsheet_text(list(COLUMNS), [
+        [e.site, e.night, e.aurora, f"{e.out_from}-{e.out_until}" if e.out_from else "",
+         "" if e.cloud_pct is None else f"{e.cloud_pct:g}", e.note, e.source] for e in entries])
 
 
 # --------------------------------------------------------------------------------------

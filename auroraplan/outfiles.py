@@ -29,6 +29,7 @@ from auroraplan.errors import InputError
 INPUT_NAMES = (
     "operator.toml", "sites.geojson", "sites.gpkg", "trips.csv", "activity.csv",
     "clouds.csv", "basemap.gpkg", "basemap.geojson", "logbook.csv", "auroraplan.sqlite",
+    "solarwind.csv",
 )
 """Files the workspace loaders read when present: refused as outputs even while missing,
 since a file written there would be read as input by the next run."""

@@ -7,7 +7,7 @@ import numpy as np
 import pytest
 
 from auroraplan.commands._common import json_text
-from auroraplan.escape import markup, spreadsheet_cell
+from auroraplan.escape import cell_as_written, markup, spreadsheet_cell, spreadsheet_text
 from auroraplan.render.index_page import index_html
 
 
@@ -20,6 +20,36 @@ from auroraplan.render.index_page import index_html
 ])
 def test_spreadsheet_cells(cell, written):
     assert spreadsheet_cell(cell) == written
+
+
+def test_every_cell_of_a_written_csv_is_inert_and_reads_back_as_written():
+    import csv
+    import io
+
+    header = ["site", "note"]
+    rows = [["=cmd|' /C calc'!A0", "+1"], ["Gullwing Point", "-2 degrees, @ the pier"],
+            ["Lake\nshore", "'quoted already"]]
+    text = spreadsheet_text(header, rows)
+    read = list(csv.reader(io.StringIO(text)))
+    assert read[0] == header
+    # OWASP "CSV Injection": no cell begins with = + - @ tab or a line break.
+    assert all(not cell.startswith(("=", "+", "-", "@", "\t", "\r", "\n"))
+               for row in read for cell in row)
+    assert [[cell_as_written(c) for c in row] for row in read[1:]] == rows
+
+
+def test_the_logbook_export_reads_back_formula_notes_and_sites_as_written(tmp_path):
+    from auroraplan.logbook import entries_csv, make_entry, read_logbook_csv
+
+    site = "=Delta Flats"
+    entry, bad = make_entry({"site": site, "night": "2027-01-12", "aurora": "clear",
+                             "note": "@once, -5 C", "source": "+guide"}, {site})
+    assert not bad
+    path = tmp_path / "logbook.csv"
+    path.write_text(entries_csv([entry]), encoding="utf-8")
+    assert path.read_text(encoding="utf-8").splitlines()[1].startswith("'=Delta Flats,")
+    (back,) = read_logbook_csv(path, {site})
+    assert (back.site, back.note, back.source) == (site, "@once, -5 C", "+guide")
 
 
 @pytest.mark.parametrize("name", ["Delta [/] Flats", "Fjord [west side]",

@@ -45,6 +45,15 @@ def test_every_input_a_workspace_may_read_is_listed(ws, tmp_path):
     assert Path(os.path.realpath(ws / "weather")) in folders
 
 
+def test_every_file_name_a_loader_reads_is_an_input_even_while_missing():
+    from auroraplan.report import BASEMAP_FILES
+    from auroraplan.store import DATABASE_NAME
+    from auroraplan.workspace import FILE_NAMES, SOLARWIND_FILE
+
+    read = {*FILE_NAMES.values(), SOLARWIND_FILE, *BASEMAP_FILES, DATABASE_NAME}
+    assert read <= set(outfiles.INPUT_NAMES), read - set(outfiles.INPUT_NAMES)
+
+
 def test_a_replaced_file_keeps_its_mode_and_a_new_file_gets_the_usual_one(tmp_path):
     old = tmp_path / "plan.csv"
     old.write_text("old\n")

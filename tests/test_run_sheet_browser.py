@@ -248,6 +248,13 @@ def test_logbook_form_keeps_entries_offline_and_exports_the_import_format(sheet_
             assert "1 entries kept" in page.inner_text("#log-count")
             kept = page.inner_text("#log-saved")
             assert sheet["site_name"] in kept and "21:15-23:40" in kept
+            # A note a spreadsheet would run as a formula (OWASP, "CSV Injection").
+            page.click("form.log .levels label:has(input[value=faint])")
+            page.fill("input[name=out_from]", "")
+            page.fill("input[name=out_until]", "")
+            page.fill("textarea[name=note]", '=HYPERLINK("http://x.example","open")')
+            page.click("#log-save")
+            assert "2 entries kept" in page.inner_text("#log-count")
             with page.expect_download() as info:
                 page.click("#log-export")
             exported = tmp_path / info.value.suggested_filename
@@ -258,7 +265,11 @@ def test_logbook_form_keeps_entries_offline_and_exports_the_import_format(sheet_
     assert exported.name == f"logbook-T01-{tonight['date']}.csv"
     ws = load_workspace(DEMO)
     entries = read_logbook_csv(exported, {s.name for s in ws.sites})
-    assert len(entries) == 1
+    assert len(entries) == 2
+    # The formula cell is written with a leading single quote, and read back as typed.
+    assert "'=HYPERLINK" in exported.read_text(encoding="utf-8")
+    assert entries[1].note == '=HYPERLINK("http://x.example","open")'
+    assert entries[1].aurora == "faint"
     e = entries[0]
     assert (e.site, e.night, e.aurora) == (sheet["site_name"], tonight["date"], "clear")
     assert (e.out_from, e.out_until, e.cloud_pct) == ("21:15", "23:40", 25.0)

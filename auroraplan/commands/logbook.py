@@ -11,7 +11,7 @@ any bad row imports nothing.
 
 import argparse
 
-from auroraplan.commands._common import iso_date
+from auroraplan.commands._common import iso_date, output_file
 
 
 def add_arguments(parser):
@@ -39,7 +39,8 @@ def add_arguments(parser):
     show.add_argument("workspace", help="the workspace folder")
     show.add_argument("--from", dest="first", type=iso_date, help="first night, YYYY-MM-DD")
     show.add_argument("--to", dest="last", type=iso_date, help="last night, YYYY-MM-DD")
-    show.add_argument("--csv", metavar="FILE", help="write the entries as a logbook CSV file")
+    show.add_argument("--csv", metavar="FILE", type=output_file,
+                      help="write the entries as a logbook CSV file")
     show.add_argument("--json", action="store_true", help="print the entries as JSON")
     for p in (add, imp, show):
         p.add_argument("--debug", action="store_true", default=argparse.SUPPRESS,
@@ -97,6 +98,7 @@ def _import(ws, args):
 def _list(ws, args):
     from auroraplan.commands._common import console, print_json
     from auroraplan.commands._common import table as new_table
+    from auroraplan.escape import markup
     from auroraplan.logbook import entries_csv, stored_entries
     from auroraplan.outfiles import check_output_path, write_text_atomic
     from auroraplan.store import database_path, protected_files
@@ -119,8 +121,10 @@ def _list(ws, args):
     for col in ("night", "site", "aurora", "out", "cloud", "source", "note"):
         table.add_column(col, no_wrap=col in ("night", "aurora", "out"))
     for e in entries:
-        table.add_row(e.night, e.site, e.aurora, f"{e.out_from}-{e.out_until}" if e.out_from else "",
-                      "" if e.cloud_pct is None else f"{e.cloud_pct:.0f}%", e.source, e.note)
+        table.add_row(e.night, markup(e.site), e.aurora,
+                      f"{e.out_from}-{e.out_until}" if e.out_from else "",
+                      "" if e.cloud_pct is None else f"{e.cloud_pct:.0f}%", markup(e.source),
+                      markup(e.note))
     console().print(table)
     if out_path:
         print(f"wrote {out_path}")

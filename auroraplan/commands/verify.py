@@ -192,6 +192,7 @@ def print_verify(result):
     """Scores per kind and the reliability table, on the terminal."""
     from auroraplan.commands._common import console
     from auroraplan.commands._common import table as new_table
+    from auroraplan.escape import markup
 
     out = console()
     out.print(f"[bold]Verification[/] · {result['logged_site_nights']} logged site-nights, "
@@ -236,7 +237,7 @@ def print_verify(result):
         for col in ("model", "site-nights", "mean abs. error", "bias", "closest"):
             models.add_column(col, justify="left" if col == "model" else "right", no_wrap=True)
         for name, s in cloud["by_model"].items():
-            models.add_row(name, str(s["count"]), f"{s['mae_pct']:.0f} %",
+            models.add_row(markup(name), str(s["count"]), f"{s['mae_pct']:.0f} %",
                            f"{s['bias_pct']:+.0f} %", f"{100 * s['closest_share']:.0f} %")
         out.print(models)
         out.print("[dim]bias above 0: the model forecast more cloud than was seen; closest: share "

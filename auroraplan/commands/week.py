@@ -116,25 +116,18 @@ def week_csv(result) -> str:
     """Ranked nights × sites per trip as CSV (one row per trip, night and ranked site).
 
     A trip id or site name that a spreadsheet would read as a formula (starting with
-    ``=``, ``+``, ``-``, ``@``) is written with a leading single quote
-    (``auroraplan.escape.spreadsheet_cell``).
+    ``=``, ``+``, ``-``, ``@``, a tab or a line break) is written with a leading single
+    quote (``auroraplan.escape.spreadsheet_text``).
     """
-    import csv
-    import io
+    from auroraplan.escape import spreadsheet_text
 
-    from auroraplan.escape import spreadsheet_cell as cell
-
-    buf = io.StringIO()
-    w = csv.writer(buf, lineterminator="\n")
-    w.writerow(["trip", "date", "rank", "site", "chance", "kind", "blocked", "planned"])
     planned = {(p["trip"], p["date"], p["site"]) for p in result["plan"]}
-    for trip in result["trips"]:
-        for night in trip["nights"]:
-            for rank, item in enumerate(night["ranked"], start=1):
-                w.writerow([cell(trip["trip"]), night["date"], rank, cell(item["site"]), item["chance"],
-                            night["kind"], int(night["blocked"]),
-                            int((trip["trip"], night["date"], item["site"]) in planned)])
-    return buf.getvalue()
+    rows = [[trip["trip"], night["date"], rank, item["site"], item["chance"], night["kind"],
+             int(night["blocked"]), int((trip["trip"], night["date"], item["site"]) in planned)]
+            for trip in result["trips"] for night in trip["nights"]
+            for rank, item in enumerate(night["ranked"], start=1)]
+    return spreadsheet_text(["trip", "date", "rank", "site", "chance", "kind", "blocked",
+                             "planned"], rows)
 
 
 def print_week(result):

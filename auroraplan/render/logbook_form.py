@@ -14,8 +14,10 @@ from __future__ import annotations
 
 import json
 
+from auroraplan.escape import FORMULA_STARTS
 from auroraplan.i18n import Words
 from auroraplan.logbook import AURORA_LEVELS, COLUMNS, MAX_TEXT
+from auroraplan.names import safe_name
 from auroraplan.render.style import html_escape as _e
 
 STORE_KEY = "auroraplan-logbook"
@@ -74,7 +76,7 @@ SCRIPT = (
     "lvl.checked=false;e.note.value='';st.textContent=msg('saved');show();});"
     "document.getElementById('log-export').addEventListener('click',function(){var a=load();"
     "if(!a.length){st.textContent=msg('empty');return;}"
-    "function q(v){v=v==null?'':String(v);"
+    "function q(v){v=v==null?'':String(v);if(v&&JSON.parse(msg('formula')).indexOf(v.charAt(0))>=0)v=\"'\"+v;"
     "return/[\",\\r\\n]/.test(v)?'\"'+v.replace(/\"/g,'\"\"')+'\"':v;}"
     "var t=[cols.join(',')].concat(a.map(function(r){return cols.map(function(c){"
     "return q(r[c]);}).join(',');})).join('\\r\\n')+'\\r\\n',"
@@ -125,7 +127,9 @@ def logbook_form_html(sheet: dict, report: dict, words: Words) -> str:
         "key": STORE_KEY,
         "columns": json.dumps(list(COLUMNS)),
         "source": f"run sheet {trip}".strip(),
-        "file": f"logbook-{trip}-{night}.csv" if trip else f"logbook-{night}.csv",
+        "file": f"logbook-{safe_name(trip, 'trip')}-{night}.csv" if trip else f"logbook-{night}.csv",
+        # First characters of a cell a spreadsheet would run (auroraplan.escape).
+        "formula": json.dumps(list(FORMULA_STARTS)),
         "count": w("{n} entries kept on this phone"),
         "empty": w("No entries kept on this phone yet."),
         "saved": w("Saved on this phone."),
