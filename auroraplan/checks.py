@@ -15,6 +15,7 @@ import datetime as dt
 import math
 import re
 import zoneinfo
+from pathlib import Path
 
 SHOWN_CHARS = 60
 """Longest piece of a bad value quoted back in an error line."""
@@ -175,6 +176,29 @@ def latitude_off_pole(value):
         raise ValueError(f"{lat:g} is a geographic pole, where no direction to look can be "
                          "given; give a latitude between -89.999 and 89.999")
     return lat
+
+
+def not_a_file(path) -> str | None:
+    """Why an input path that exists is not a file that can be read, or None.
+
+    A folder, a pipe, a device or a broken link where a file is expected is named in one
+    line; reading a pipe or device could wait for ever, so none is opened.
+    """
+    import os
+    import stat
+
+    try:
+        if not os.path.lexists(path):
+            return None
+        mode = os.stat(path).st_mode
+    except FileNotFoundError:
+        return f"{path}: is not a regular file (a broken link); point it at a file or remove it"
+    except OSError as exc:
+        return f"{path}: cannot be examined ({exc.strerror}); check the file"
+    if stat.S_ISREG(mode):
+        return None
+    kind = "a folder" if stat.S_ISDIR(mode) else "not a regular file (a pipe or device)"
+    return f"{path}: is {kind}; {Path(path).name} must be a file"
 
 
 def zone(value):

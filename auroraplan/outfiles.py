@@ -44,6 +44,7 @@ DATABASE_COMPANIONS = ("-wal", "-shm", "-journal")
 
 _registered: set[Path] = set()
 _registered_folders: set[Path] = set()
+_registered_workspaces: set[Path] = set()
 written: list[Path] = []
 """Outputs written whole during this run, in order (the CLI names them when interrupted)."""
 
@@ -133,6 +134,7 @@ def protect(*paths) -> None:
             files, folders = workspace_inputs(path)
             _registered.update(files)
             _registered_folders.update(folders)
+            _registered_workspaces.add(_real(path))
         elif path.exists():
             _registered.update({_real(path), path.absolute()})
 
@@ -147,6 +149,7 @@ def reset() -> None:
     """Forget the registered inputs and the written outputs (a new run in the same process)."""
     _registered.clear()
     _registered_folders.clear()
+    _registered_workspaces.clear()
     written.clear()
 
 
@@ -244,7 +247,8 @@ def _probe(folder: Path, out: Path) -> None:
 
 
 def check_output_folder(path, protected=()) -> Path:
-    """Refuse an output folder that is a file, an input folder or cannot be written.
+    """Refuse an output folder that is a file, an input folder, a workspace of this run (or
+    inside one), or cannot be written.
 
     A missing folder is fine when its parent exists (it is created when written).
     """
@@ -256,6 +260,11 @@ def check_output_folder(path, protected=()) -> Path:
         if real == folder or folder in real.parents:
             raise InputError(f"{out}: is inside {folder}, whose files are inputs; "
                              "choose another folder")
+    for folder in _registered_workspaces:
+        if real == folder or folder in real.parents:
+            raise InputError(f"{out}: is the workspace or inside it ({folder}); choose a "
+                             "folder outside it so that your input files are never mixed with "
+                             "outputs")
     if out.exists() and not out.is_dir():
         raise InputError(f"{out}: is a file; give a folder")
     if out.is_dir():

@@ -115,14 +115,19 @@ def weather_files(workspace_folder, extra=()) -> list[Path]:
     list of Path
         Sorted by name within the folder; no path twice.
     """
+    from auroraplan.checks import not_a_file
+
     folder = Path(workspace_folder) / WEATHER_FOLDER
-    found = sorted(p for p in folder.iterdir() if p.is_file()
-                   and p.suffix.lower() in SUFFIXES) if folder.is_dir() else []
-    problems = []
+    listed = sorted(p for p in folder.iterdir() if p.suffix.lower() in SUFFIXES) \
+        if folder.is_dir() else []
+    # A pipe, device, folder or broken link named like a weather file is said, not skipped.
+    problems = [why for p in listed if (why := not_a_file(p))]
+    found = [p for p in listed if p.is_file()]
     for given in extra:
         path = Path(given).expanduser()
         if not path.is_file():
-            problems.append(f"{path}: weather file not found; give a GRIB or NetCDF file")
+            problems.append(not_a_file(path)
+                            or f"{path}: weather file not found; give a GRIB or NetCDF file")
             continue
         found.append(path)
     if problems:

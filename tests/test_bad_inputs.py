@@ -283,7 +283,8 @@ def test_case(results, name):
     lines = got["stderr"].splitlines()
     assert len(lines) == 1, lines
     line = lines[0]
-    assert line.startswith(f"auroraplan {command}: "), line
+    # "auroraplan week: ..." or, for an action's own option, "auroraplan logbook list: ..."
+    assert re.match(rf"auroraplan {re.escape(command)}( [a-z]+)?: ", line), line
     for fragment in case["where"] + case.get("field", []) + case.get("says", []):
         assert fragment in line, (fragment, line)
     assert got["stdout"] == "", got["stdout"]

@@ -180,3 +180,45 @@ def test_season_chart_is_months_by_nights_with_the_moon():
     season["moon_illumination"] = list((1 - np.cos(2 * np.pi * days / 29.53)) / 2)
     with_moon = _pixels(charts.season_calendar_png(season))
     assert (np.abs(with_moon - plain).sum(axis=2) > 0.1).sum() > 1000
+
+
+def test_a_name_no_chart_font_has_is_one_line_or_drawn_with_the_operators_font(tmp_path):
+    """U+1D81 (LATIN SMALL LETTER D WITH PALATAL HOOK) is in STIX General but not in
+    DejaVu Sans (both fonts ship with matplotlib): without a font named in operator.toml the
+    chart is refused in one line naming the character; with STIX General named as the
+    operator's font it is drawn, with no missing-glyph warning."""
+    import os
+    import shutil
+    import subprocess
+    import sys
+
+    from auroraplan.pdffonts import dejavu_folder
+
+    repo = Path(__file__).resolve().parents[1]
+    ws = tmp_path / "ws"
+    shutil.copytree(repo / "tests" / "bad_inputs" / "base", ws)
+    for name in ("sites.geojson", "clouds.csv"):
+        path = ws / name
+        path.write_text(path.read_text().replace("Gullwing Point", "Gullwing \u1d81"))
+
+    def week_png():
+        out = tmp_path / "week.png"
+        proc = subprocess.run(
+            [sys.executable, "-m", "auroraplan.cli", "week", str(ws), "--start", "2027-01-11",
+             "--nights", "1", "--no-record", "--png", str(out)],
+            capture_output=True, text=True, env=dict(os.environ, PYTHONPATH=str(repo)),
+            timeout=300)
+        return proc, out
+
+    proc, out = week_png()
+    assert proc.returncode == 2 and not out.exists()
+    (line,) = proc.stderr.splitlines()
+    assert "\u1d81 (U+1D81)" in line and "[print] font" in line
+
+    stix = dejavu_folder() / "STIXGeneral.ttf"
+    with open(ws / "operator.toml", "a", encoding="utf-8") as fh:
+        fh.write(f'\n[print]\nfont = "{stix}"\n')
+    proc, out = week_png()
+    assert proc.returncode == 0, proc.stderr
+    assert "Warning" not in proc.stderr and "missing" not in proc.stderr
+    assert _png_size(out.read_bytes()) == (1600, 900)

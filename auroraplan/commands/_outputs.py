@@ -33,12 +33,16 @@ def run_sheet_file_name(trip_id: str, date: str) -> str:
 
 def check_names(ws):
     """Before any work (and before the database is opened): refuse trip ids that would
-    share a file once cleaned, and names the itinerary fonts cannot print; return the fonts."""
+    share a file once cleaned, and names the itinerary or chart fonts cannot show; return
+    the itinerary fonts."""
     from auroraplan.commands.itinerary import ITINERARY_FILE, itinerary_fonts
     from auroraplan.names import file_names
+    from auroraplan.render.charts import check_workspace_names
 
     file_names([t.trip for t in ws.trips], ITINERARY_FILE)
-    return itinerary_fonts(ws, ws.trips)
+    fonts = itinerary_fonts(ws, ws.trips)
+    check_workspace_names(ws)
+    return fonts
 
 
 class OutputSet:

@@ -13,10 +13,11 @@ from auroraplan.commands._common import int_range
 
 
 def add_arguments(parser):
+    from auroraplan.commands._common import output_file
     from auroraplan.commands.verify import add_outcome_arguments
 
     add_outcome_arguments(parser)
-    parser.add_argument("--out", metavar="FILE", default="chance-suggestion.toml",
+    parser.add_argument("--out", metavar="FILE", default="chance-suggestion.toml", type=output_file,
                         help="where to write the suggested [chance] block "
                              "(default chance-suggestion.toml; never operator.toml)")
     parser.add_argument("--resamples", type=int_range(20, 5000), default=200,

@@ -42,6 +42,10 @@ def run(args):
         raise InputError(f"--trip-nights {args.trip_nights} is longer than the range ({nights} nights)")
     ws = load_workspace(args.workspace)
     png = check_output_path(args.png, protected_inputs(ws)) if args.png else None
+    if png:
+        from auroraplan.render.charts import check_workspace_names
+
+        check_workspace_names(ws)  # before the long computation
     with progress_bar(nights, "Season outlook (nights)", quiet=args.json) as bar:
         result = report.season_report(ws, args.first, args.last, args.trip_nights, progress=bar)
     if png:

@@ -66,6 +66,10 @@ def run(args):
                  + ([solar_wind.path] if solar_wind else []))
     outputs = {k: check_output_path(v, protected)
                for k, v in (("html", args.html), ("png", args.png)) if v}
+    if "png" in outputs:
+        from auroraplan.render.charts import check_workspace_names
+
+        check_workspace_names(ws)  # before tonight's chances are made and kept
     date = args.date or tonight(ws.operator.timezone)
     assumed = whatif.from_args(args)
     ws, what_if = whatif.apply(ws, assumed, date, date)

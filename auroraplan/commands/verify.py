@@ -9,7 +9,7 @@ decomposition and the ROC area (auroraplan.verify). Where the logbook gives the
 cloud seen, each weather model's cloud kept with the same run is scored against it.
 """
 
-from auroraplan.commands._common import iso_date
+from auroraplan.commands._common import iso_date, output_file
 
 
 def add_outcome_arguments(parser):
@@ -26,7 +26,8 @@ def add_outcome_arguments(parser):
 def add_arguments(parser):
     add_outcome_arguments(parser)
     parser.add_argument("--json", action="store_true", help="print everything as JSON")
-    parser.add_argument("--png", metavar="FILE", help="also write the reliability diagram to FILE")
+    parser.add_argument("--png", metavar="FILE", type=output_file,
+                        help="also write the reliability diagram to FILE")
 
 
 def run(args):
@@ -75,7 +76,9 @@ def run(args):
     }
     if png_path:
         from auroraplan.outfiles import write_bytes_atomic
-        from auroraplan.render.charts import reliability_png
+        from auroraplan.render.charts import reliability_png, use_workspace_fonts
+
+        use_workspace_fonts(ws)
 
         write_bytes_atomic(png_path, reliability_png(
             result["overall"], f"Reliability of the chances, {len(pairs)} logged site-nights"))

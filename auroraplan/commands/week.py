@@ -38,7 +38,7 @@ def add_arguments(parser):
     parser.add_argument("--csv", metavar="FILE", type=output_file, help="also write ranked nights × sites as CSV")
     parser.add_argument("--ics", metavar="FILE", type=output_file,
                         help="also write the planned outings as an iCalendar file")
-    parser.add_argument("--png", metavar="FILE",
+    parser.add_argument("--png", metavar="FILE", type=output_file,
                         help="also write the chart of the chance per night and site (PNG)")
     add_record_options(parser, who=True)
     whatif.add_arguments(parser)
@@ -62,6 +62,10 @@ def run(args):
     protected = protected_inputs(ws, args.database)
     outputs = {k: check_output_path(v, protected)
                for k, v in (("csv", args.csv), ("ics", args.ics), ("png", args.png)) if v}
+    if "png" in outputs:
+        from auroraplan.render.charts import check_workspace_names
+
+        check_workspace_names(ws)  # before the plan is made and kept
     assumptions = whatif.from_args(args)
     ws, what_if = whatif.apply(ws, assumptions, *_evenings(ws, args.start, args.nights))
     with working(f"Planning {args.nights} nights for {len(ws.trips)} trips at {len(ws.sites)} sites",

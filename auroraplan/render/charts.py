@@ -58,7 +58,88 @@ def _figure(kind: str):
     return fig
 
 
+CHART_FONT = "DejaVu Sans"
+"""The charts' font (matplotlib's own, Bitstream Vera licence with DejaVu changes): Latin,
+Greek and Cyrillic; an operator's TrueType font named in operator.toml [print] (see
+:mod:`auroraplan.pdffonts`) is added after it for the characters it lacks."""
+
+_fallbacks: dict = {}  # font file -> (family name, code points it has)
+
+
+def use_workspace_fonts(ws) -> None:
+    """Draw with the operator's itinerary fonts (operator.toml [print] font, font_bold)
+    after DejaVu Sans, so a name in a script DejaVu lacks is drawn, not boxed."""
+    from auroraplan.pdffonts import workspace_font
+
+    for path in workspace_font(ws):
+        if path is None or str(path) in _fallbacks:
+            continue
+        from matplotlib import font_manager
+
+        font_manager.fontManager.addfont(str(path))
+        name = font_manager.FontProperties(fname=str(path)).get_name()
+        _fallbacks[str(path)] = (name, _code_points(path))
+        RC["font.family"] = [CHART_FONT, *dict.fromkeys(n for n, _ in _fallbacks.values())]
+
+
+def _code_points(path) -> frozenset:
+    from matplotlib.ft2font import FT2Font
+
+    return frozenset(FT2Font(str(path)).get_charmap())
+
+
+def _covered() -> frozenset:
+    """Code points the chart fonts have: DejaVu Sans and the operator's fonts."""
+    from auroraplan.pdffonts import DEJAVU, dejavu_folder
+
+    if "dejavu" not in _fallbacks:
+        _fallbacks["dejavu"] = (None, _code_points(dejavu_folder() / DEJAVU[0]))
+    return frozenset().union(*(cps for _, cps in _fallbacks.values()))
+
+
+def _undrawable_line(where: str, text: str, covered: frozenset) -> str | None:
+    """One error line for the characters of ``text`` no chart font has, or None."""
+    import unicodedata
+
+    bad = [c for c in dict.fromkeys(str(text)) if ord(c) not in covered and not c.isspace()
+           and unicodedata.category(c)[0] != "C"]
+    if not bad:
+        return None
+    shown = ", ".join(f"{c} (U+{ord(c):04X})" for c in bad[:8])
+    return (f"{where}: the chart font {CHART_FONT} cannot draw {shown}; name a TrueType font "
+            'that has them in operator.toml [print] font = "FILE.ttf", or write the name '
+            "without them")
+
+
+def check_workspace_names(ws) -> None:
+    """Before any work: every name of the workspace a chart may draw can be drawn.
+
+    Raises
+    ------
+    InputError
+        One line per name naming the characters no chart font has (never an empty box).
+    """
+    from auroraplan.errors import InputError
+    from auroraplan.pdffonts import itinerary_texts
+
+    use_workspace_fonts(ws)
+    covered = _covered()
+    problems = [line for where, text in itinerary_texts(ws, ws.trips).items()
+                if (line := _undrawable_line(where, text, covered))]
+    if problems:
+        raise InputError(problems)
+
+
 def _png(fig) -> bytes:
+    from matplotlib.text import Text
+
+    from auroraplan.errors import InputError
+
+    covered = _covered()
+    for artist in fig.findobj(match=Text):
+        line = _undrawable_line(repr(artist.get_text()[:60]), artist.get_text(), covered)
+        if line:
+            raise InputError(line)
     buf = io.BytesIO()
     fig.savefig(buf, format="png", dpi=DPI, facecolor=fig.get_facecolor())
     return buf.getvalue()

@@ -5,6 +5,7 @@ from __future__ import annotations
 import os
 from pathlib import Path
 
+from auroraplan import checks
 from auroraplan.csvcolumns import ActivityTable, CloudTable
 from auroraplan.errors import InputError, ProblemList
 from auroraplan.workspace.activity import _load_activity
@@ -42,11 +43,8 @@ def _folder(path) -> Path:
 def _find_files(folder: Path) -> tuple[dict, list]:
     """Role -> path of the files present, and the problems for required ones missing."""
     found, missing = {}, []
-    for role in ("operator", "trips", "activity", "clouds", "sites", "sites_gpkg"):
-        candidate = folder / FILE_NAMES[role]
-        if os.path.lexists(candidate) and not candidate.is_file():
-            kind = "a folder" if candidate.is_dir() else "not a regular file (a pipe, device or broken link)"
-            missing.append(f"{candidate}: is {kind}; {FILE_NAMES[role]} must be a file")
+    missing = [why for role in ("operator", "trips", "activity", "clouds", "sites", "sites_gpkg")
+               if (why := checks.not_a_file(folder / FILE_NAMES[role]))]
     if missing:
         return found, missing
     for role in ("operator", "trips", "activity", "clouds"):

@@ -169,4 +169,7 @@ def solar_wind_for(ws: Workspace, given=None) -> SolarWindFile | None:
     if given:
         return load_solarwind(given)
     own = Path(ws.path) / SOLARWIND_FILE
+    why = checks.not_a_file(own)
+    if why:
+        raise InputError(why)
     return load_solarwind(own) if own.is_file() else None
