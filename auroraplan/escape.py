@@ -46,8 +46,17 @@ def cell_as_written(text: str) -> str:
 
 
 def markup(text) -> str:
-    """Text shown literally by the terminal-table library (rich): its ``[...]`` markup and a
-    trailing backslash are escaped."""
+    """Text shown literally by the terminal-table library (rich), wherever it is put: a
+    table cell on its own or inside ``[bold]...[/]``.
+
+    rich reads ``[...]`` as markup and halves backslashes in front of a tag, so its own
+    ``escape`` leaves a trailing backslash right only when a tag follows. Trailing
+    backslashes are therefore doubled and followed by an empty styled span, which is a
+    tag in every context and draws nothing.
+    """
     from rich.markup import escape
 
-    return escape(str(text))
+    text = str(text)
+    body = text.rstrip("\\")
+    trailing = len(text) - len(body)
+    return escape(body) + ("\\" * (2 * trailing) + "[dim][/dim]" if trailing else "")

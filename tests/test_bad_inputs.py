@@ -288,3 +288,24 @@ def test_case(results, name):
     for fragment in case["where"] + case.get("field", []) + case.get("says", []):
         assert fragment in line, (fragment, line)
     assert got["stdout"] == "", got["stdout"]
+
+
+def test_an_unreadable_workspace_folder_is_one_line(tmp_path, monkeypatch, capsys):
+    """chmod 000 on the workspace folder (simulated: the suite may run as root, who can
+    read any folder): one line naming the folder and what to do, exit 2."""
+    from auroraplan import cli
+
+    ws = tmp_path / "workspace"
+    shutil.copytree(BASE, ws)
+    real_listdir = os.listdir
+
+    def listdir(path="."):
+        if Path(path) == ws:
+            raise PermissionError(13, "Permission denied", str(path))
+        return real_listdir(path)
+
+    monkeypatch.setattr("auroraplan.workspace.os.listdir", listdir)
+    assert cli.main(["week", str(ws), "--start", "2027-01-11", "--nights", "1"]) == 2
+    (line,) = capsys.readouterr().err.splitlines()
+    assert line.startswith(f"auroraplan week: {ws}: the folder cannot be read")
+    assert "chmod u+rx" in line

@@ -53,13 +53,21 @@ def test_the_logbook_export_reads_back_formula_notes_and_sites_as_written(tmp_pa
 
 
 @pytest.mark.parametrize("name", ["Delta [/] Flats", "Fjord [west side]",
-                                  "[link=https://x.invalid]Delta[/link]", "ends in \\"])
+                                  "[link=https://x.invalid]Delta[/link]", "ends in \\",
+                                  "ends in two \\\\", "\\[b]\\", "Trail \\end"])
 def test_terminal_markup_is_shown_as_written(name):
     from rich.console import Console
+    from rich.table import Table
 
     console = Console(width=200, color_system=None, record=True)
     console.print(f"[bold]{markup(name)}[/] after")
     assert console.export_text().rstrip("\n") == f"{name} after"
+    # Alone in a table cell, as the commands' tables hold names.
+    table = Table(box=None, show_header=False, pad_edge=False)
+    table.add_column()
+    table.add_row(markup(name))
+    console.print(table)
+    assert console.export_text().rstrip() == name
 
 
 @pytest.mark.parametrize("href, encoded", [

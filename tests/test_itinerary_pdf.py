@@ -157,13 +157,15 @@ def test_page_one_renders_with_poppler(pdf_a4, tmp_path):
 @pytest.fixture
 def fake_workspace(week, tmp_path, monkeypatch):
     """A workspace whose week plan is the fixture (the planning itself is tested elsewhere)."""
-    trips_csv = tmp_path / "trips.csv"
+    folder = tmp_path / "ws"
+    folder.mkdir()
+    trips_csv = folder / "trips.csv"
     trips_csv.write_text("trip,group,guests,arrive,depart,outings,blocked\n", encoding="utf-8")
     trips = [Trip(t["trip"], t["group"], t["guests"], dt.date.fromisoformat(t["arrive"]),
                   dt.date.fromisoformat(t["depart"]), t["outings"]) for t in week["trips"]]
     operator = Operator(name="Lanternfjell Excursions", base_name="Nordvik harbour",
                         base_lat=69.65, base_lon=18.96, timezone="Europe/Oslo")
-    ws = Workspace(path=tmp_path, operator=operator, sites=[], trips=trips, activity=None,
+    ws = Workspace(path=folder, operator=operator, sites=[], trips=trips, activity=None,
                    clouds=None, files={"trips": trips_csv})
     calls = []
 
