@@ -304,7 +304,7 @@ def test_an_unreadable_workspace_folder_is_one_line(tmp_path, monkeypatch, capsy
             raise PermissionError(13, "Permission denied", str(path))
         return real_listdir(path)
 
-    monkeypatch.setattr("auroraplan.workspace.os.listdir", listdir)
+    monkeypatch.setattr("auroraplan.workspace.loader.os.listdir", listdir)
     assert cli.main(["week", str(ws), "--start", "2027-01-11", "--nights", "1"]) == 2
     (line,) = capsys.readouterr().err.splitlines()
     assert line.startswith(f"auroraplan week: {ws}: the folder cannot be read")
