@@ -225,18 +225,6 @@ class NoDarkNight(Record):
 
 
 @record
-class Look(Record):
-    """Where to look (``report.look_fields``): azimuth (° east of true north), compass
-    point, elevation (°), whether the band is overhead, and the phrase for a guide."""
-
-    look_azimuth: float | None
-    look_compass: str | None
-    look_elevation: float | None
-    overhead: bool
-    look_words: str | None
-
-
-@record
 class OutingHoursUsed(Record):
     """The outing hours a report counted (``report.outing_hours_info``): local
     "HH:MM–HH:MM" of its first night, the operator's ``outing_from``/``outing_until``
@@ -249,9 +237,10 @@ class OutingHoursUsed(Record):
     derived: bool
 
 
-NO_LOOK = Look(None, None, None, False, None)
-LOOK_NAMES = Look.public_names()
-CLOUD_NAMES = ("cloud_pct", "cloud_source", "cloud_models", "cloud_spread_pct")
+NO_LOOK = {"look_azimuth": None, "look_compass": None, "look_elevation": None,
+           "overhead": False, "look_words": None}
+"""The look fields (``report.look_fields``: azimuth ° east of true north, compass point,
+elevation °, whether the band is overhead, the phrase for a guide) where there is none."""
 
 
 # ---------------------------------------------------------------------------

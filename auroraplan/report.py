@@ -813,7 +813,7 @@ def week_report(ws, start: dt.date, nights: int = 7, now=None,
             backup_lat=sites[b].lat if b is not None else None,
             backup_lon=sites[b].lon if b is not None else None,
             **(look_fields(grid, s, summary.peak_step[s, d]) if summary.peak_step[s, d] >= 0
-               else plans.NO_LOOK.to_json()),
+               else plans.NO_LOOK),
             kind=summary.kind[d],
             state=fixed_at.get((r, d), (None, "proposed"))[1],
         ))

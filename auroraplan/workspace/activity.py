@@ -12,10 +12,12 @@ from auroraplan.workspace.files import CSV_COLUMNS, _check_field, _read_csv_rows
 
 KP_SD_RANGE = (0.0, 5.0)
 
+
 def _kp_sd(text):
     if not str(text).strip():
         return math.nan
     return checks.cell_number(*KP_SD_RANGE, "Kp")(text)
+
 
 def _block_start(text):
     start = checks.file_time(text)
@@ -25,6 +27,7 @@ def _block_start(text):
             "give 00, 03, 06, ... 21 h UTC"
         )
     return start
+
 
 def _load_activity(path, label, problems: ProblemList):
     """ActivityTable, or None with the problems added. A large file is read column-wise

@@ -18,6 +18,7 @@ CLOUD_UNITS = {"%": "percent", "percent": "percent", "pct": "percent", "fraction
 
 """Words allowed in the ``unit`` column of clouds.csv, and what they mean."""
 
+
 def _cloud_unit(text):
     word = str(text).strip().lower()
     if word not in CLOUD_UNITS:
@@ -25,12 +26,14 @@ def _cloud_unit(text):
                          "fraction")
     return CLOUD_UNITS[word]
 
+
 def _cloud_value(unit):
     """Checker of one cloud cell in ``unit``: returns percent."""
     if unit == "fraction":
         fraction = checks.cell_number(0, 1, "(a fraction)")
         return lambda text: 100.0 * fraction(text)
     return checks.cell_number(0, 100, "%")
+
 
 def _load_clouds(path, label, site_names, problems: ProblemList, default_unit="percent"):
     """CloudTable, or None with the problems added. A large file is read column-wise

@@ -24,6 +24,7 @@ MAX_ZONE_HOURS_FROM_SOLAR = 3.5
 / 15° per hour). Civil zones stray up to about 3 hours from solar time (western China);
 a wider gap means the zone of another place (common practice, no source)."""
 
+
 def _check_zone_near_base(lat: float, lon: float, zone: str, label: str,
                           problems: ProblemList) -> None:
     """One problem when the base's time zone is far from its solar time (a zone of another
@@ -47,6 +48,7 @@ def _check_zone_near_base(lat: float, lon: float, zone: str, label: str,
         f"{label} [base] timezone: {zone} ({shown}) is {gap:.1f} h from the solar time of a "
         f"base at {abs(lon):.1f}° {'E' if lon >= 0 else 'W'} (UTC{solar:+.1f}){hint}; give "
         "the time zone of the base")
+
 
 def _sites_near_base(operator, sites, label, problems: ProblemList, warnings: list):
     """Sites checked against the base: none beyond MAX_SITE_KM (with a hint when latitude

@@ -4,6 +4,8 @@ from __future__ import annotations
 
 import csv
 import io
+import json
+import tomllib
 from pathlib import Path
 
 from auroraplan.errors import ProblemList
@@ -17,6 +19,7 @@ FILE_NAMES = {
     "clouds": "clouds.csv",
 }
 
+
 CSV_COLUMNS = {
     # role: (required columns, optional columns)
     "trips": (("trip", "group", "guests", "arrive", "depart", "outings"), ("blocked",)),
@@ -24,6 +27,7 @@ CSV_COLUMNS = {
     "clouds": (("site", "time_utc", "cloud_pct"), ("unit",)),
     "logbook": (("site", "night", "aurora"), ("hours_out", "cloud_seen", "note", "source")),
 }
+
 
 def _read_text(path: Path, label: str, problems: ProblemList) -> str | None:
     """The file's text, or None with a problem added (not UTF-8, empty, unreadable)."""
@@ -52,6 +56,7 @@ def _read_text(path: Path, label: str, problems: ProblemList) -> str | None:
         )
         return None
     return text
+
 
 def _read_csv_rows(text: str, label: str, role: str, problems: ProblemList):
     """(line number, {column: text}) for each data row; header problems are added.
@@ -99,6 +104,7 @@ def _read_csv_rows(text: str, label: str, role: str, problems: ProblemList):
         problems.add(f"{label} line {end + 1}: cannot be read as CSV ({exc})")
     return rows
 
+
 def _check_field(problems, where, name, checker, value):
     """checker(value), or None with one problem line naming where and the field."""
     try:
@@ -106,6 +112,7 @@ def _check_field(problems, where, name, checker, value):
     except ValueError as exc:
         problems.add(f"{where}, {name}: {exc}" if name else f"{where}: {exc}")
         return None
+
 
 def _repeated(first_seen: dict, key, where, problems, message: str) -> bool:
     """True (and one problem) when ``key`` was seen before; else remember where it was seen.
@@ -117,3 +124,29 @@ def _repeated(first_seen: dict, key, where, problems, message: str) -> bool:
         return True
     first_seen[key] = where
     return False
+
+
+def _unique(made, key, problems: ProblemList, message):
+    """(where, record) for each record made, leaving out the None ones and those whose
+    ``key(record)`` repeats an earlier one's (one problem each, ``message(where, record)``,
+    which may hold ``{first}``: where the first one stands)."""
+    first_seen: dict = {}
+    for where, rec in made:
+        if rec is None or _repeated(first_seen, key(rec), where, problems, message(where, rec)):
+            continue
+        yield where, rec
+
+
+def _parse_document(text: str, label: str, problems: ProblemList, kind: str):
+    """A TOML (``kind`` "toml") or JSON document parsed, or None with one problem line
+    that names the line where the file can say it (JSON) and what to check."""
+    try:
+        return tomllib.loads(text) if kind == "toml" else json.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        problems.add(f"{label}: not valid TOML ({exc}); check quotes and [table] headers")
+    except json.JSONDecodeError as exc:
+        problems.add(f"{label} line {exc.lineno}: not valid JSON ({exc.msg}, column {exc.colno})")
+    except RecursionError:
+        nested = "arrays or tables" if kind == "toml" else "lists or objects"
+        problems.add(f"{label}: {nested} nested too deeply to read; check the brackets")
+    return None

@@ -40,6 +40,7 @@ def _folder(path) -> Path:
         )
     return folder
 
+
 def _find_files(folder: Path) -> tuple[dict, list]:
     """Role -> path of the files present, and the problems for required ones missing."""
     found, missing = {}, []
@@ -64,6 +65,7 @@ def _find_files(folder: Path) -> tuple[dict, list]:
             "(or sites.gpkg)"
         )
     return found, missing
+
 
 def load_workspace(path) -> Workspace:
     """Read and check every file of a workspace folder.

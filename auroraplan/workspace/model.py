@@ -23,6 +23,7 @@ class Operator:
     vehicles: int = 1
     fleet: object = None  # planner.Fleet: vehicles (seats, dates away) and guides
 
+
 @dataclass(frozen=True)
 class Site:
     """One viewing site from sites.geojson."""
@@ -38,6 +39,7 @@ class Site:
     clear_by_month: tuple | None = None  # 12 fractions, January first
     closed: bool = False
     notes: str = ""
+
 
 @dataclass(frozen=True)
 class Trip:
@@ -55,6 +57,7 @@ class Trip:
         """Local dates of the evenings of the stay (the night of depart is not included)."""
         n = (self.depart - self.arrive).days
         return [self.arrive + dt.timedelta(days=i) for i in range(n)]
+
 
 @dataclass
 class Workspace:

@@ -4,7 +4,6 @@ from __future__ import annotations
 
 import dataclasses
 import datetime as dt
-import tomllib
 from pathlib import Path
 
 from auroraplan import checks
@@ -12,7 +11,7 @@ from auroraplan.errors import ProblemList
 from auroraplan.planner import Fleet, Guide, Vehicle
 from auroraplan.settings import TABLES, Settings
 from auroraplan.workspace.crosschecks import _check_zone_near_base
-from auroraplan.workspace.files import _check_field, _read_text
+from auroraplan.workspace.files import _check_field, _parse_document, _read_text
 from auroraplan.workspace.model import Operator
 
 OPERATOR_SCHEMA = {
@@ -34,6 +33,7 @@ OPERATOR_SCHEMA = {
     },
 }
 
+
 def _unavailable(value, where):
     """A list of dates (TOML dates or "YYYY-MM-DD") on which a vehicle or guide is away."""
     if not isinstance(value, list):
@@ -49,7 +49,9 @@ def _unavailable(value, where):
             raise ValueError(f"{where} unavailable: {exc}") from None
     return tuple(sorted(set(dates)))
 
+
 FLEET_MEMBER_KEYS = {"vehicle": ("name", "seats", "unavailable"), "guide": ("name", "unavailable")}
+
 
 def _fleet_members(value, kind):
     """A count (1-100), or a list of tables for each vehicle or guide; a tuple of dicts."""
@@ -80,6 +82,7 @@ def _fleet_members(value, kind):
         members.append(member)
     return tuple(members)
 
+
 def _fleet_record(values, label, problems):
     """The planner's Fleet from the checked [fleet] keys (plain `vehicles = N` by default)."""
     vehicles = values.get(("fleet", "vehicles"), 1)
@@ -100,6 +103,7 @@ def _fleet_record(values, label, problems):
     elif guides is not None:
         guides = tuple(Guide(g["name"], g["unavailable"]) for g in guides)
     return Fleet(fleet_vehicles, guides)
+
 
 def _read_settings(doc: dict, label: str, problems: ProblemList) -> Settings | None:
     """The stage settings records filled from their operator.toml tables (auroraplan.settings).
@@ -150,18 +154,14 @@ def _read_settings(doc: dict, label: str, problems: ProblemList) -> Settings | N
         return None
     return Settings(**filled)
 
+
 def _load_operator(path: Path, label: str, problems: ProblemList):
     """(Operator, Settings) from operator.toml, or None with the problems added."""
     text = _read_text(path, label, problems)
     if text is None:
         return None
-    try:
-        doc = tomllib.loads(text)
-    except tomllib.TOMLDecodeError as exc:
-        problems.add(f"{label}: not valid TOML ({exc}); check quotes and [table] headers")
-        return None
-    except RecursionError:
-        problems.add(f"{label}: arrays or tables nested too deeply to read; check the brackets")
+    doc = _parse_document(text, label, problems, "toml")
+    if doc is None:
         return None
     known = tuple(OPERATOR_SCHEMA) + tuple(TABLES)
     values = {}

@@ -11,7 +11,7 @@ import numpy as np
 from auroraplan import checks
 from auroraplan.errors import ProblemList
 from auroraplan.view import MASK_ELEVATION_RANGE
-from auroraplan.workspace.files import _check_field, _read_text, _repeated
+from auroraplan.workspace.files import _check_field, _parse_document, _read_text, _unique
 from auroraplan.workspace.model import Site
 
 SITE_LIMITS = {
@@ -22,6 +22,7 @@ SITE_LIMITS = {
     "height_m": (-500.0, 9000.0, "m"),
 }
 
+
 SITE_DEFAULTS = {"sky_mag": 21.5}
 
 """sky_mag 21.5: a dark rural sky; the natural zenith sky is about 21.9-22.0 V mag/arcsec²
@@ -29,16 +30,19 @@ SITE_DEFAULTS = {"sky_mag": 21.5}
 an error: the tool cannot guess how many guests a site holds) and a missing ``drive_min``
 is estimated from the distance to the base (`estimated_drive_min`) with a warning."""
 
+
 ROAD_FACTOR = 1.3
 
 """Road distance over straight-line distance for a missing drive_min. Circuity factors
 of road networks lie near 1.2-1.4 (Ballou, Rahardja & Sakai 2002, Transportation Research
 Part A 36, 843-848; from memory); coastal and fjord roads are at the high end."""
 
+
 WINTER_ROAD_KMH = 60.0
 
 """Mean speed on winter roads at night for a missing drive_min (common practice, no
 source): below the 80 km/h limit of most rural roads in the Nordic countries."""
+
 
 MAX_SITE_KM = 1000.0
 
@@ -46,11 +50,13 @@ MAX_SITE_KM = 1000.0
 most (common practice, no source). Farther usually means latitude and longitude swapped
 (GeoJSON is [longitude, latitude], RFC 7946 section 3.1.1) or a typo."""
 
+
 def estimated_drive_min(km_straight: float) -> float:
     """One-way drive in minutes from the straight-line distance: ROAD_FACTOR × km at
     WINTER_ROAD_KMH, rounded up to 5 minutes."""
     minutes = km_straight * ROAD_FACTOR / WINTER_ROAD_KMH * 60.0
     return float(math.ceil(minutes / 5.0) * 5.0)
+
 
 def _json_list(value, problem: str):
     """A list property as given, or parsed from JSON text (GeoPackage columns hold text)."""
@@ -60,6 +66,7 @@ def _json_list(value, problem: str):
         return json.loads(value)
     except json.JSONDecodeError:
         raise ValueError(problem) from None
+
 
 def _horizon(value):
     """A horizon polyline [[azimuth°, elevation°], ...] as an (M, 2) array sorted by azimuth."""
@@ -87,6 +94,7 @@ def _horizon(value):
     arr = np.array(points, dtype=float)
     return arr[np.argsort(arr[:, 0], kind="stable")]
 
+
 def _clear_by_month(value):
     if checks.is_missing(value):
         return None
@@ -96,12 +104,14 @@ def _clear_by_month(value):
     check = checks.number(0, 1)
     return tuple(check(v) for v in value)
 
+
 def _closed(value):
     if checks.is_missing(value):
         return False
     if isinstance(value, bool) or value in (0, 1):
         return bool(value)
     raise ValueError(f"{checks.quote(value)} is not true or false")
+
 
 def _notes(value):
     if checks.is_missing(value):
@@ -112,6 +122,7 @@ def _notes(value):
         raise ValueError(f"is {len(value)} characters long; notes may have at most "
                          f"{checks.MAX_NOTES_CHARS}, shorten them")
     return checks.printable(value.replace("\r\n", "\n").replace("\r", "\n"), checks.CONTROL_IN_NOTES_RE)
+
 
 SITE_PROPERTIES = {
     # property: checker; name and coordinates are checked separately
@@ -124,14 +135,10 @@ SITE_PROPERTIES = {
     "notes": _notes,
 }
 
+
 def _site_features_geojson(text: str, label: str, problems: ProblemList):
-    try:
-        doc = json.loads(text)
-    except json.JSONDecodeError as exc:
-        problems.add(f"{label} line {exc.lineno}: not valid JSON ({exc.msg}, column {exc.colno})")
-        return None
-    except RecursionError:
-        problems.add(f"{label}: lists or objects nested too deeply to read; check the brackets")
+    doc = _parse_document(text, label, problems, "json")
+    if doc is None:
         return None
     if not isinstance(doc, dict) or doc.get("type") != "FeatureCollection":
         problems.add(f"{label}: must be a GeoJSON FeatureCollection (RFC 7946)")
@@ -142,6 +149,7 @@ def _site_features_geojson(text: str, label: str, problems: ProblemList):
         return None
     return features
 
+
 def _plain(value):
     """A numpy value from a GIS reader as plain Python, so it checks like GeoJSON."""
     if isinstance(value, np.ndarray):
@@ -149,6 +157,7 @@ def _plain(value):
     if isinstance(value, np.generic):
         return value.item()
     return value
+
 
 def _site_features_gpkg(path: Path, label: str, problems: ProblemList):
     """Features of a GeoPackage layer in the same shape as GeoJSON features."""
@@ -175,6 +184,7 @@ def _site_features_gpkg(path: Path, label: str, problems: ProblemList):
                          "properties": props})
     return features
 
+
 def _point(geometry):
     """(lon, lat, height_m) of a GeoJSON Point; ValueError saying what is allowed."""
     allowed = "give a Point with coordinates [longitude, latitude] or [lon, lat, height m]"
@@ -184,6 +194,7 @@ def _point(geometry):
     if not isinstance(coords, list) or len(coords) not in (2, 3):
         raise ValueError(allowed)
     return coords
+
 
 def _site_from_feature(i, feature, label, problems: ProblemList) -> Site | None:
     props = feature.get("properties") if isinstance(feature, dict) else None
@@ -221,6 +232,7 @@ def _site_from_feature(i, feature, label, problems: ProblemList) -> Site | None:
         return None
     return Site(name=name, lat=lat, lon=lon, height_m=height, **values)
 
+
 def _load_sites(path: Path, label: str, problems: ProblemList) -> list[Site] | None:
     if path.suffix == ".gpkg":
         features = _site_features_gpkg(path, label, problems)
@@ -232,15 +244,10 @@ def _load_sites(path: Path, label: str, problems: ProblemList) -> list[Site] | N
     if not features:
         problems.add(f"{label}: holds no sites; add at least one Point feature")
         return None
-    sites = []
-    first_of = {}
-    for i, feature in enumerate(features, start=1):
-        site = _site_from_feature(i, feature, label, problems)
-        if site is None:
-            continue
-        if _repeated(first_of, site.name, i, problems,
-                     f"{label} feature {i} {site.name!r}, name: also used by feature {{first}}; "
-                     "site names must be unique"):
-            continue
-        sites.append(site)
+    made = ((i, _site_from_feature(i, feature, label, problems))
+            for i, feature in enumerate(features, start=1))
+    sites = [site for _, site in _unique(
+        made, lambda site: site.name, problems,
+        lambda i, site: f"{label} feature {i} {site.name!r}, name: also used by feature "
+                        "{first}; site names must be unique")]
     return None if problems else sites

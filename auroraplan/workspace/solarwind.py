@@ -15,6 +15,7 @@ from auroraplan.workspace.model import Workspace
 
 SOLARWIND_FILE = "solarwind.csv"
 
+
 SOLARWIND_COLUMNS = (
     ("time_utc", "by_gsm_nt", "bz_gsm_nt", "speed_km_s", "density_cm3"),
     ("bx_gsm_nt", "distance_km"),
@@ -26,10 +27,12 @@ spacecraft's distance upstream of the Earth (km; default: L1, 1.5 million km).""
 
 CSV_COLUMNS["solarwind"] = SOLARWIND_COLUMNS
 
+
 SOLARWIND_GAP_MIN = 10.0
 
 """A pause of more than this between good measurements (and more than three times the
 file's usual cadence) is reported as a gap (common practice, no source)."""
+
 
 @dataclass(frozen=True)
 class SolarWindFile:
@@ -49,6 +52,7 @@ class SolarWindFile:
     left_out: list
     rows: int
 
+
 def _measured(text) -> float:
     """A measurement cell: a number, or empty (NaN, a gap)."""
     raw = str(text).strip()
@@ -61,6 +65,7 @@ def _measured(text) -> float:
     if math.isinf(value):
         raise ValueError(f"{checks.quote(raw)} is not a finite number; leave the cell empty for a gap")
     return value
+
 
 def read_command_csv(path, role: str, what: str):
     """A CSV file read only by the commands that use it (the logbook, solar wind).
@@ -78,6 +83,7 @@ def read_command_csv(path, role: str, what: str):
     text = _read_text(path, label, problems)
     rows = [] if text is None else _read_csv_rows(text, label, role, problems)
     return label, rows, problems
+
 
 def load_solarwind(path) -> SolarWindFile:
     """Read a solar-wind file of upstream measurements.
@@ -162,6 +168,7 @@ def load_solarwind(path) -> SolarWindFile:
         distance_km=None if distance is None else distance[good],
         left_out=left_out, rows=len(lines),
     )
+
 
 def solar_wind_for(ws: Workspace, given=None) -> SolarWindFile | None:
     """The solar-wind file a command uses: ``given`` (an option), else the workspace's own

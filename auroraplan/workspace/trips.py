@@ -6,12 +6,13 @@ import datetime as dt
 
 from auroraplan import checks
 from auroraplan.errors import ProblemList
-from auroraplan.workspace.files import _check_field, _read_csv_rows, _read_text, _repeated
+from auroraplan.workspace.files import _check_field, _read_csv_rows, _read_text, _unique
 from auroraplan.workspace.model import Trip
 
 MAX_STAY_NIGHTS = 366
 
 """A stay longer than a year in trips.csv is a typo in a date (common practice, no source)."""
+
 
 TRIP_DATES = (dt.date(1900, 1, 1), dt.date(2053, 1, 1))
 
@@ -19,11 +20,14 @@ TRIP_DATES = (dt.date(1900, 1, 1), dt.date(2053, 1, 1))
 sky.LAST_NIGHT, inside the span of the JPL DE421 ephemeris (Skyfield reports de421.bsp
 as covering 1899-07-29 to 2053-10-09)."""
 
+
 _TRIP_DATE = checks.date_within(*TRIP_DATES)
+
 
 def _blocked(text):
     parts = [p.strip() for p in str(text).split(";") if p.strip()]
     return tuple(checks.date(p) for p in parts)
+
 
 def _trip_from_row(line, row, label, largest, problems: ProblemList) -> Trip | None:
     where = f"{label} line {line}"
@@ -65,6 +69,7 @@ def _trip_from_row(line, row, label, largest, problems: ProblemList) -> Trip | N
     return Trip(trip=trip, group=group, guests=guests, arrive=arrive, depart=depart,
                 outings=outings, blocked=tuple(sorted(blocked)))
 
+
 def _load_trips(path, label, sites, problems: ProblemList, warnings: list) -> list[Trip] | None:
     text = _read_text(path, label, problems)
     if text is None:
@@ -73,15 +78,12 @@ def _load_trips(path, label, sites, problems: ProblemList, warnings: list) -> li
     biggest = max(open_sites, key=lambda s: s.capacity, default=None)
     largest = (biggest.capacity, biggest.name) if biggest else None
     trips = []
-    first_line = {}
-    for line, row in _read_csv_rows(text, label, "trips", problems):
-        trip = _trip_from_row(line, row, label, largest, problems)
-        if trip is None:
-            continue
-        if _repeated(first_line, trip.trip, line, problems,
-                     f"{label} line {line}, trip: {trip.trip!r} is also on line {{first}}; "
-                     "trip ids must be unique"):
-            continue
+    made = ((line, _trip_from_row(line, row, label, largest, problems))
+            for line, row in _read_csv_rows(text, label, "trips", problems))
+    for line, trip in _unique(made, lambda trip: trip.trip, problems,
+                              lambda line, trip: f"{label} line {line}, trip: {trip.trip!r} "
+                                                 "is also on line {first}; trip ids must be "
+                                                 "unique"):
         free = len(trip.nights()) - len(set(trip.blocked))
         if trip.outings > free:
             warnings.append(
