@@ -8,7 +8,7 @@ import json
 from pathlib import Path
 
 import pytest
-from browser_check import ARGS, CHROMIUM, browser_or_skip
+from browser_check import browser_or_skip, refusing_context
 
 from auroraplan.render.phone import phone_page_html
 from auroraplan.render.style import NIGHT_BG, PAPER
@@ -35,56 +35,44 @@ def test_phone_page_at_360_by_740_offline_with_night_mode(page_file, tmp_path):
     sync_api = browser_or_skip()
     ARTIFACTS.mkdir(exist_ok=True)
     requests = []
-    with sync_api.sync_playwright() as pw:
-        browser = pw.chromium.launch(executable_path=CHROMIUM, args=ARGS)
-        try:
-            context = browser.new_context(viewport=PHONE, device_scale_factor=2)
+    with refusing_context(sync_api, PHONE, requests) as context:
+        page = context.new_page()
 
-            def refuse(route):
-                requests.append(route.request.url)
-                route.abort()
+        # The counter works: a page that asks for an outside image is caught.
+        control = tmp_path / "control.html"
+        control.write_text('<img src="https://example.invalid/a.png">', encoding="utf-8")
+        page.goto(control.as_uri())
+        page.wait_for_load_state("load")
+        assert len(requests) == 1
+        requests.clear()
 
-            # Everything except the page file itself counts as a network request.
-            context.route(lambda url: not url.startswith("file://"), refuse)
-            page = context.new_page()
+        page.goto(page_file.as_uri())
+        page.wait_for_load_state("load")
 
-            # The counter works: a page that asks for an outside image is caught.
-            control = tmp_path / "control.html"
-            control.write_text('<img src="https://example.invalid/a.png">', encoding="utf-8")
-            page.goto(control.as_uri())
-            page.wait_for_load_state("load")
-            assert len(requests) == 1
-            requests.clear()
+        # A roadside phone: nothing fetched, nothing wider than the screen.
+        assert requests == []
+        assert page.evaluate("document.documentElement.scrollWidth") <= PHONE["width"]
+        body_bg = "getComputedStyle(document.body).backgroundColor"
+        assert page.evaluate(body_bg) == _rgb(PAPER)
+        page.screenshot(path=str(ARTIFACTS / "phone-360x740-day.png"))
 
-            page.goto(page_file.as_uri())
-            page.wait_for_load_state("load")
+        page.click("#night")
+        assert page.evaluate(body_bg) == _rgb(NIGHT_BG)
+        assert page.get_attribute("#night", "aria-pressed") == "true"
+        shot = ARTIFACTS / "phone-360x740.png"
+        page.screenshot(path=str(shot))
 
-            # A roadside phone: nothing fetched, nothing wider than the screen.
-            assert requests == []
-            assert page.evaluate("document.documentElement.scrollWidth") <= PHONE["width"]
-            body_bg = "getComputedStyle(document.body).backgroundColor"
-            assert page.evaluate(body_bg) == _rgb(PAPER)
-            page.screenshot(path=str(ARTIFACTS / "phone-360x740-day.png"))
+        # The choice stays on the device: night colours again after a reload.
+        page.reload()
+        assert page.evaluate(body_bg) == _rgb(NIGHT_BG)
+        assert page.evaluate("document.documentElement.scrollWidth") <= PHONE["width"]
 
-            page.click("#night")
-            assert page.evaluate(body_bg) == _rgb(NIGHT_BG)
-            assert page.get_attribute("#night", "aria-pressed") == "true"
-            shot = ARTIFACTS / "phone-360x740.png"
-            page.screenshot(path=str(shot))
-
-            # The choice stays on the device: night colours again after a reload.
-            page.reload()
-            assert page.evaluate(body_bg) == _rgb(NIGHT_BG)
-            assert page.evaluate("document.documentElement.scrollWidth") <= PHONE["width"]
-
-            # Tap targets: the toggle and every maps link at least 44 CSS px high.
-            heights = page.evaluate(
-                "Array.from(document.querySelectorAll('button, a.tap'))"
-                ".map(e => e.getBoundingClientRect().height)"
-            )
-            assert heights and min(heights) >= 44
-        finally:
-            browser.close()
+        # Tap targets: the toggle and every maps link at least 44 CSS px high.
+        heights = page.evaluate(
+            "Array.from(document.querySelectorAll('button, a.tap'))"
+            ".map(e => e.getBoundingClientRect().height)"
+        )
+        assert heights and min(heights) >= 44
     assert requests == []
     assert shot.exists() and shot.stat().st_size > 10_000
 

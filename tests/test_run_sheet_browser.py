@@ -9,7 +9,7 @@ import datetime as dt
 from pathlib import Path
 
 import pytest
-from browser_check import ARGS, CHROMIUM, browser_or_skip
+from browser_check import ARGS, CHROMIUM, browser_or_skip, refusing_context
 
 from auroraplan import report, runsheet
 from auroraplan.render import style
@@ -107,87 +107,75 @@ def test_run_sheet_first_screen_legible_in_both_modes_and_offline(sheet_page, tm
     path, sheet, tonight = sheet_page
     ARTIFACTS.mkdir(exist_ok=True)
     requests = []
-    with sync_api.sync_playwright() as pw:
-        browser = pw.chromium.launch(executable_path=CHROMIUM, args=ARGS)
-        try:
-            context = browser.new_context(viewport=PHONE, device_scale_factor=2)
-            context.set_offline(True)
+    with refusing_context(sync_api, PHONE, requests, offline=True) as context:
+        page = context.new_page()
+        page.on("request", lambda r: None if r.url.startswith("file://")
+                else requests.append(r.url))
+        # The counter works: a page that asks for an outside image is caught.
+        control = tmp_path / "control.html"
+        control.write_text('<img src="https://example.invalid/a.png">', encoding="utf-8")
+        page.goto(control.as_uri())
+        page.wait_for_load_state("load")
+        assert requests
+        requests.clear()
 
-            def refuse(route):
-                requests.append(route.request.url)
-                route.abort()
+        # Daytime on the device clock: the page opens in day colours.
+        page.clock.set_fixed_time(dt.datetime.fromisoformat(tonight["date"] + "T12:00+01:00"))
+        page.goto(path.as_uri())
+        page.wait_for_load_state("load")
+        assert not page.evaluate("document.documentElement.classList.contains('night')")
 
-            context.route(lambda url: not url.startswith("file://"), refuse)
-            page = context.new_page()
-            page.on("request", lambda r: None if r.url.startswith("file://")
-                    else requests.append(r.url))
-            # The counter works: a page that asks for an outside image is caught.
-            control = tmp_path / "control.html"
-            control.write_text('<img src="https://example.invalid/a.png">', encoding="utf-8")
-            page.goto(control.as_uri())
-            page.wait_for_load_state("load")
-            assert requests
-            requests.clear()
+        # The first screen holds the group's outing and the call.
+        first = {}
+        for key in ("call", "pickup", "site", "backup", "window", "look"):
+            box = page.locator(f"#{key}").bounding_box()
+            assert box is not None, key
+            assert box["y"] >= 0 and box["y"] + box["height"] <= PHONE["height"], key
+            first[key] = page.inner_text(f"#{key}")
+        assert sheet["site_name"] in first["site"]
+        assert page.inner_text("h1").count(str(sheet["guests"])) == 1
+        assert sheet["pickup"][11:16] in first["pickup"]
+        assert style.time_span(sheet["window_start"], sheet["window_end"]) in first["window"]
+        site = sheet["site"]
+        if site.get("overhead"):  # a storm band over the site: the whole sky
+            assert "overhead" in first["look"]
+        else:
+            assert f"{round(site['look_azimuth']) % 360}° true ({site['look_compass']})" \
+                in first["look"]
+        verdict = {"go": "Go:", "wait": "Wait", "swap": "Swap to the backup"}
+        assert first["call"].startswith(verdict[sheet["decision"]["call"]])
+        # The compass is at least 96 CSS px across.
+        compass = page.locator("#look svg").bounding_box()
+        assert compass["width"] >= 96 and compass["height"] >= 96
+        # The full site list is there but collapsed.
+        assert page.locator("details.all").get_attribute("open") is None
+        assert not page.locator("ol.sites").is_visible()
+        page.screenshot(path=str(ARTIFACTS / "run-sheet-390x844-day.png"))
+        _check_legible(page, "day")
+        page.click("details.all > summary")
+        assert page.locator("ol.sites").is_visible()
+        _check_legible(page, "day, list open")
+        assert page.evaluate("document.documentElement.scrollWidth") <= PHONE["width"]
 
-            # Daytime on the device clock: the page opens in day colours.
-            page.clock.set_fixed_time(dt.datetime.fromisoformat(tonight["date"] + "T12:00+01:00"))
-            page.goto(path.as_uri())
-            page.wait_for_load_state("load")
-            assert not page.evaluate("document.documentElement.classList.contains('night')")
+        page.click("#night")
+        assert page.evaluate("document.documentElement.classList.contains('night')")
+        _check_legible(page, "night, list open")
+        page.click("details.all > summary")
+        page.evaluate("window.scrollTo(0, 0)")
+        page.screenshot(path=str(ARTIFACTS / "run-sheet-390x844-night.png"))
 
-            # The first screen holds the group's outing and the call.
-            first = {}
-            for key in ("call", "pickup", "site", "backup", "window", "look"):
-                box = page.locator(f"#{key}").bounding_box()
-                assert box is not None, key
-                assert box["y"] >= 0 and box["y"] + box["height"] <= PHONE["height"], key
-                first[key] = page.inner_text(f"#{key}")
-            assert sheet["site_name"] in first["site"]
-            assert page.inner_text("h1").count(str(sheet["guests"])) == 1
-            assert sheet["pickup"][11:16] in first["pickup"]
-            assert style.time_span(sheet["window_start"], sheet["window_end"]) in first["window"]
-            site = sheet["site"]
-            if site.get("overhead"):  # a storm band over the site: the whole sky
-                assert "overhead" in first["look"]
-            else:
-                assert f"{round(site['look_azimuth']) % 360}° true ({site['look_compass']})" \
-                    in first["look"]
-            verdict = {"go": "Go:", "wait": "Wait", "swap": "Swap to the backup"}
-            assert first["call"].startswith(verdict[sheet["decision"]["call"]])
-            # The compass is at least 96 CSS px across.
-            compass = page.locator("#look svg").bounding_box()
-            assert compass["width"] >= 96 and compass["height"] >= 96
-            # The full site list is there but collapsed.
-            assert page.locator("details.all").get_attribute("open") is None
-            assert not page.locator("ol.sites").is_visible()
-            page.screenshot(path=str(ARTIFACTS / "run-sheet-390x844-day.png"))
-            _check_legible(page, "day")
-            page.click("details.all > summary")
-            assert page.locator("ol.sites").is_visible()
-            _check_legible(page, "day, list open")
-            assert page.evaluate("document.documentElement.scrollWidth") <= PHONE["width"]
-
-            page.click("#night")
-            assert page.evaluate("document.documentElement.classList.contains('night')")
-            _check_legible(page, "night, list open")
-            page.click("details.all > summary")
-            page.evaluate("window.scrollTo(0, 0)")
-            page.screenshot(path=str(ARTIFACTS / "run-sheet-390x844-night.png"))
-
-            # In the darkness window a page never toggled opens in night colours.
-            fresh = context.new_page()
-            fresh.clock.set_fixed_time(
-                dt.datetime.fromisoformat(tonight["dark_start"]) + dt.timedelta(hours=2))
-            fresh.goto(path.as_uri())
-            fresh.evaluate("localStorage.clear()")
-            fresh.reload()
-            assert fresh.evaluate("document.documentElement.classList.contains('night')")
-            # ... and the guide's own choice wins until that darkness ends.
-            fresh.click("#night")
-            fresh.reload()
-            assert not fresh.evaluate("document.documentElement.classList.contains('night')")
-        finally:
-            browser.close()
+        # In the darkness window a page never toggled opens in night colours.
+        fresh = context.new_page()
+        fresh.clock.set_fixed_time(
+            dt.datetime.fromisoformat(tonight["dark_start"]) + dt.timedelta(hours=2))
+        fresh.goto(path.as_uri())
+        fresh.evaluate("localStorage.clear()")
+        fresh.reload()
+        assert fresh.evaluate("document.documentElement.classList.contains('night')")
+        # ... and the guide's own choice wins until that darkness ends.
+        fresh.click("#night")
+        fresh.reload()
+        assert not fresh.evaluate("document.documentElement.classList.contains('night')")
     assert requests == []
 
 
