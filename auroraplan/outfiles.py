@@ -164,6 +164,9 @@ def _input_hit(out: Path, protected) -> str | None:
     for folder in _registered_folders:
         if real == folder or folder in real.parents:
             return f"is inside {folder}, whose files are inputs"
+    if real.parent in _registered_workspaces:  # the next run would read it as the operator's data
+        return (f"is in the workspace folder {real.parent}, whose files are inputs; write "
+                "outputs outside it")
     return None
 
 
