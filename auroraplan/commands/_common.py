@@ -157,6 +157,16 @@ def print_json(obj) -> None:
     sys.stdout.write(json_text(obj, ascii_only=not _can_encode(sys.stdout, "\u00e9\u2014\u0416")))
 
 
+def present(result, as_json: bool, printer) -> int:
+    """Show a result: strict JSON with ``--json``, else ``printer(result)`` for the
+    terminal; the command's exit code (0)."""
+    if as_json:
+        print_json(result)
+    else:
+        printer(result)
+    return 0
+
+
 def json_text(obj, ascii_only: bool = False) -> str:
     """``obj`` as strict JSON text with a final line break (see :func:`print_json`)."""
     return json.dumps(_finite(obj), indent=2, ensure_ascii=ascii_only, allow_nan=False,

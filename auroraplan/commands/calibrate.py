@@ -34,7 +34,7 @@ def run(args):
 
     from auroraplan import calibrate
     from auroraplan.archive import chance_settings_of
-    from auroraplan.commands._common import print_json
+    from auroraplan.commands._common import present
     from auroraplan.commands._progress import working
     from auroraplan.commands.verify import logged_pairs
     from auroraplan.outfiles import check_output_path, write_text_atomic
@@ -61,11 +61,7 @@ def run(args):
     if result.get("method"):
         made = dt.datetime.now(dt.UTC).isoformat(timespec="minutes")
         write_text_atomic(out_path, calibrate.suggestion_toml(result, ws.operator.name, made, span))
-    if args.json:
-        print_json(result)
-    else:
-        print_calibration(result)
-    return 0
+    return present(result, args.json, print_calibration)
 
 
 def print_calibration(result):

@@ -25,7 +25,7 @@ def add_arguments(parser):
 
 def run(args):
     from auroraplan import report
-    from auroraplan.commands._common import print_json
+    from auroraplan.commands._common import present
     from auroraplan.errors import InputError
     from auroraplan.workspace import SOLARWIND_FILE, load_workspace, solar_wind_for
 
@@ -35,11 +35,7 @@ def run(args):
         raise InputError(f"{ws.path / SOLARWIND_FILE}: not found; give upstream measurements "
                          "in that file or with --solarwind FILE")
     result = report.nowcast_report(ws, solar_wind, hours=args.hours, at=args.at)
-    if args.json:
-        print_json(result)
-    else:
-        print_next_hours(result)
-    return 0
+    return present(result, args.json, print_next_hours)
 
 
 def print_next_hours(result):

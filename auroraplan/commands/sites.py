@@ -1,6 +1,6 @@
 """Each site's magnetic latitude and the Kp it needs to see the aurora overhead or on its horizon."""
 
-from auroraplan.commands._common import console, iso_date, print_json
+from auroraplan.commands._common import console, iso_date, present
 
 
 def mlt_clock(hours: float) -> str:
@@ -22,11 +22,7 @@ def run(args):
 
     ws = load_workspace(args.workspace)
     report = site_table(ws, args.date)
-    if args.json:
-        print_json(report)
-    else:
-        _print_table(report)
-    return 0
+    return present(report, args.json, _print_table)
 
 
 def _print_table(report) -> None:
