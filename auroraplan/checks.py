@@ -12,6 +12,7 @@ from __future__ import annotations
 
 import dataclasses
 import datetime as dt
+import json
 import math
 import re
 import zoneinfo
@@ -333,6 +334,172 @@ def cell_number(low, high, unit=""):
 def cell_whole(low, high, unit=""):
     """Checker: a CSV cell holding a whole number from ``low`` to ``high``."""
     return cell(whole(low, high, unit), "a whole number", low, high)
+
+
+# ---------------------------------------------------------------------------------------
+# Fields of the workspace files (the loader in auroraplan/workspace/ says which field)
+# ---------------------------------------------------------------------------------------
+
+
+def optional(checker):
+    """Checker of a CSV cell that may be left empty: NaN for an empty cell, else ``checker``."""
+
+    def check(value):
+        if not str(value).strip():
+            return math.nan
+        return checker(value)
+
+    return check
+
+
+def measurement(value) -> float:
+    """Checker: a measurement cell, any finite number, or empty (NaN: a gap)."""
+    raw = str(value).strip()
+    if not raw:
+        return math.nan
+    try:
+        number_read = float(raw)
+    except ValueError:
+        raise ValueError(f"{quote(raw)} is not a number; leave the cell empty for a gap") from None
+    if math.isinf(number_read):
+        raise ValueError(f"{quote(raw)} is not a finite number; leave the cell empty for a gap")
+    return number_read
+
+
+def block_start(hours: int, what: str):
+    """Checker: a UTC time (:func:`file_time`) at the start of an ``hours``-hour block."""
+    starts = ", ".join(f"{h:02d}" for h in range(0, 3 * hours, hours))
+    allowed = f"give {starts}, ... {24 - hours:02d} h UTC"
+
+    def check(value):
+        start = file_time(value)
+        if start.minute or start.second or start.microsecond or start.hour % hours:
+            raise ValueError(f"{quote(str(value).strip())} is not the start of a {hours}-hour "
+                             f"{what} block; {allowed}")
+        return start
+
+    return check
+
+
+def word(meanings: dict, allowed: str):
+    """Checker: a word (any case) among the keys of ``meanings``; returns its meaning."""
+
+    def check(value):
+        key = str(value).strip().lower()
+        if key not in meanings:
+            raise ValueError(f"{quote(str(value).strip())} is not known; {allowed}")
+        return meanings[key]
+
+    return check
+
+
+def percent_cell(unit: str):
+    """Checker of a CSV cell in ``unit`` ("percent" or "fraction"): returns percent."""
+    if unit == "fraction":
+        fraction = cell_number(0, 1, "(a fraction)")
+        return lambda value: 100.0 * fraction(value)
+    return cell_number(0, 100, "%")
+
+
+def json_list(value, problem: str):
+    """A list value as given, or parsed from JSON text (GeoPackage columns hold text)."""
+    if not isinstance(value, str):
+        return value
+    try:
+        return json.loads(value)
+    except json.JSONDecodeError:
+        raise ValueError(problem) from None
+
+
+def horizon(elevation_range):
+    """Checker: a horizon polyline [[azimuth°, elevation°], ...] (elevations within
+    ``elevation_range``), returned as an (M, 2) array sorted by azimuth; None if missing."""
+    low, high = elevation_range
+    allowed = f"give a list of [azimuth 0-360, elevation {low} to {high}] pairs in degrees"
+
+    def check(value):
+        import numpy as np
+
+        if is_missing(value):
+            return None
+        value = json_list(value, "is not a list of [azimuth, elevation] pairs")
+        if not isinstance(value, list) or len(value) < 2:
+            raise ValueError(f"needs at least two points; {allowed}")
+        points = []
+        for i, point in enumerate(value, start=1):
+            if (
+                not isinstance(point, list | tuple)
+                or len(point) != 2
+                or not all(isinstance(v, int | float) and not isinstance(v, bool) for v in point)
+            ):
+                raise ValueError(f"point {i} ({quote(point)}) is not an [azimuth, elevation] "
+                                 f"pair; {allowed}")
+            az, el = as_float(point[0]), as_float(point[1])
+            if not (math.isfinite(az) and 0.0 <= az <= 360.0):
+                raise ValueError(f"point {i}: azimuth {az:g} is outside 0 to 360 degrees")
+            if not (math.isfinite(el) and low <= el <= high):
+                raise ValueError(f"point {i}: elevation {el:g} is outside {low} to {high} degrees")
+            points.append((az, el))
+        arr = np.array(points, dtype=float)
+        return arr[np.argsort(arr[:, 0], kind="stable")]
+
+    return check
+
+
+def monthly_fractions(value):
+    """Checker: 12 fractions 0-1, January first (a list, or JSON text); None if missing."""
+    if is_missing(value):
+        return None
+    value = json_list(value, "is not a list of 12 fractions")
+    if not isinstance(value, list) or len(value) != 12:
+        raise ValueError("give 12 fractions 0 to 1, January first")
+    check = number(0, 1)
+    return tuple(check(v) for v in value)
+
+
+def yes_no(value) -> bool:
+    """Checker: true or false (or 1/0); False if missing."""
+    if is_missing(value):
+        return False
+    if isinstance(value, bool) or value in (0, 1):
+        return bool(value)
+    raise ValueError(f"{quote(value)} is not true or false")
+
+
+def notes(value) -> str:
+    """Checker: notes for the guide, text of at most MAX_NOTES_CHARS characters that may run
+    over several lines; "" if missing."""
+    if is_missing(value):
+        return ""
+    if not isinstance(value, str):
+        raise ValueError("must be text")
+    if len(value) > MAX_NOTES_CHARS:
+        raise ValueError(f"is {len(value)} characters long; notes may have at most "
+                         f"{MAX_NOTES_CHARS}, shorten them")
+    return printable(value.replace("\r\n", "\n").replace("\r", "\n"), CONTROL_IN_NOTES_RE)
+
+
+def date_cells(value) -> tuple:
+    """Checker of a CSV cell: dates separated by semicolons (may be empty)."""
+    parts = [p.strip() for p in str(value).split(";") if p.strip()]
+    return tuple(date(p) for p in parts)
+
+
+def date_list(value, where: str) -> tuple:
+    """Checker: a TOML list of dates (TOML dates or "YYYY-MM-DD"), sorted, without repeats;
+    ``where`` starts each error line."""
+    if not isinstance(value, list):
+        raise ValueError(f"{where}: give a list of dates such as [2027-01-12]")
+    dates = []
+    for item in value:
+        if isinstance(item, dt.datetime) or not isinstance(item, dt.date | str):
+            raise ValueError(f"{where}: {quote(item)} is not a date; "
+                             "give YYYY-MM-DD, for example 2027-01-12")
+        try:
+            dates.append(item if isinstance(item, dt.date) else date(item))
+        except ValueError as exc:
+            raise ValueError(f"{where}: {exc}") from None
+    return tuple(sorted(set(dates)))
 
 
 # ---------------------------------------------------------------------------------------

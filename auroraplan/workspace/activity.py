@@ -2,8 +2,6 @@
 
 from __future__ import annotations
 
-import math
-
 from auroraplan import checks, csvcolumns
 from auroraplan.activity import BLOCK_HOURS, parse_kp
 from auroraplan.csvcolumns import ActivityTable
@@ -12,21 +10,8 @@ from auroraplan.workspace.files import CSV_COLUMNS, _check_field, _read_csv_rows
 
 KP_SD_RANGE = (0.0, 5.0)
 
-
-def _kp_sd(text):
-    if not str(text).strip():
-        return math.nan
-    return checks.cell_number(*KP_SD_RANGE, "Kp")(text)
-
-
-def _block_start(text):
-    start = checks.file_time(text)
-    if start.minute or start.second or start.microsecond or start.hour % BLOCK_HOURS:
-        raise ValueError(
-            f"{checks.quote(str(text).strip())} is not the start of a 3-hour Kp block; "
-            "give 00, 03, 06, ... 21 h UTC"
-        )
-    return start
+_kp_sd = checks.optional(checks.cell_number(*KP_SD_RANGE, "Kp"))
+_block_start = checks.block_start(BLOCK_HOURS, "Kp")
 
 
 def _load_activity(path, label, problems: ProblemList):

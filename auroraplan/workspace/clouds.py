@@ -19,20 +19,8 @@ CLOUD_UNITS = {"%": "percent", "percent": "percent", "pct": "percent", "fraction
 """Words allowed in the ``unit`` column of clouds.csv, and what they mean."""
 
 
-def _cloud_unit(text):
-    word = str(text).strip().lower()
-    if word not in CLOUD_UNITS:
-        raise ValueError(f"{checks.quote(str(text).strip())} is not known; give percent (or %) or "
-                         "fraction")
-    return CLOUD_UNITS[word]
-
-
-def _cloud_value(unit):
-    """Checker of one cloud cell in ``unit``: returns percent."""
-    if unit == "fraction":
-        fraction = checks.cell_number(0, 1, "(a fraction)")
-        return lambda text: 100.0 * fraction(text)
-    return checks.cell_number(0, 100, "%")
+_cloud_unit = checks.word(CLOUD_UNITS, "give percent (or %) or fraction")
+_cloud_value = checks.percent_cell
 
 
 def _load_clouds(path, label, site_names, problems: ProblemList, default_unit="percent"):

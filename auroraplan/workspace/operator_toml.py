@@ -3,7 +3,6 @@
 from __future__ import annotations
 
 import dataclasses
-import datetime as dt
 from pathlib import Path
 
 from auroraplan import checks
@@ -34,22 +33,6 @@ OPERATOR_SCHEMA = {
 }
 
 
-def _unavailable(value, where):
-    """A list of dates (TOML dates or "YYYY-MM-DD") on which a vehicle or guide is away."""
-    if not isinstance(value, list):
-        raise ValueError(f"{where} unavailable: give a list of dates such as [2027-01-12]")
-    dates = []
-    for item in value:
-        if isinstance(item, dt.datetime) or not isinstance(item, dt.date | str):
-            raise ValueError(f"{where} unavailable: {checks.quote(item)} is not a date; "
-                             "give YYYY-MM-DD, for example 2027-01-12")
-        try:
-            dates.append(item if isinstance(item, dt.date) else checks.date(item))
-        except ValueError as exc:
-            raise ValueError(f"{where} unavailable: {exc}") from None
-    return tuple(sorted(set(dates)))
-
-
 FLEET_MEMBER_KEYS = {"vehicle": ("name", "seats", "unavailable"), "guide": ("name", "unavailable")}
 
 
@@ -73,7 +56,7 @@ def _fleet_members(value, kind):
         if name in names:
             raise ValueError(f"{where}: the name {checks.quote(name)} is used twice; name each once")
         names.add(name)
-        member = {"name": name, "unavailable": _unavailable(item.get("unavailable", []), where)}
+        member = {"name": name, "unavailable": checks.date_list(item.get("unavailable", []), f"{where} unavailable")}
         if kind == "vehicle" and "seats" in item:
             try:
                 member["seats"] = checks.whole(1, 100, "seats")(item["seats"])

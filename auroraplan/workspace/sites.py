@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import json
 import math
 from pathlib import Path
 
@@ -58,81 +57,15 @@ def estimated_drive_min(km_straight: float) -> float:
     return float(math.ceil(minutes / 5.0) * 5.0)
 
 
-def _json_list(value, problem: str):
-    """A list property as given, or parsed from JSON text (GeoPackage columns hold text)."""
-    if not isinstance(value, str):
-        return value
-    try:
-        return json.loads(value)
-    except json.JSONDecodeError:
-        raise ValueError(problem) from None
-
-
-def _horizon(value):
-    """A horizon polyline [[azimuth°, elevation°], ...] as an (M, 2) array sorted by azimuth."""
-    if checks.is_missing(value):
-        return None
-    value = _json_list(value, "is not a list of [azimuth, elevation] pairs")
-    allowed = "give a list of [azimuth 0-360, elevation -5 to 90] pairs in degrees"
-    if not isinstance(value, list) or len(value) < 2:
-        raise ValueError(f"needs at least two points; {allowed}")
-    points = []
-    for i, point in enumerate(value, start=1):
-        if (
-            not isinstance(point, list | tuple)
-            or len(point) != 2
-            or not all(isinstance(v, int | float) and not isinstance(v, bool) for v in point)
-        ):
-            raise ValueError(f"point {i} ({checks.quote(point)}) is not an [azimuth, elevation] pair; {allowed}")
-        az, el = checks.as_float(point[0]), checks.as_float(point[1])
-        if not (math.isfinite(az) and 0.0 <= az <= 360.0):
-            raise ValueError(f"point {i}: azimuth {az:g} is outside 0 to 360 degrees")
-        low, high = MASK_ELEVATION_RANGE
-        if not (math.isfinite(el) and low <= el <= high):
-            raise ValueError(f"point {i}: elevation {el:g} is outside {low} to {high} degrees")
-        points.append((az, el))
-    arr = np.array(points, dtype=float)
-    return arr[np.argsort(arr[:, 0], kind="stable")]
-
-
-def _clear_by_month(value):
-    if checks.is_missing(value):
-        return None
-    value = _json_list(value, "is not a list of 12 fractions")
-    if not isinstance(value, list) or len(value) != 12:
-        raise ValueError("give 12 fractions 0 to 1, January first")
-    check = checks.number(0, 1)
-    return tuple(check(v) for v in value)
-
-
-def _closed(value):
-    if checks.is_missing(value):
-        return False
-    if isinstance(value, bool) or value in (0, 1):
-        return bool(value)
-    raise ValueError(f"{checks.quote(value)} is not true or false")
-
-
-def _notes(value):
-    if checks.is_missing(value):
-        return ""
-    if not isinstance(value, str):
-        raise ValueError("must be text")
-    if len(value) > checks.MAX_NOTES_CHARS:
-        raise ValueError(f"is {len(value)} characters long; notes may have at most "
-                         f"{checks.MAX_NOTES_CHARS}, shorten them")
-    return checks.printable(value.replace("\r\n", "\n").replace("\r", "\n"), checks.CONTROL_IN_NOTES_RE)
-
-
 SITE_PROPERTIES = {
     # property: checker; name and coordinates are checked separately
     "drive_min": checks.number(*SITE_LIMITS["drive_min"]),
     "capacity": checks.whole(*SITE_LIMITS["capacity"]),
     "sky_mag": checks.number(*SITE_LIMITS["sky_mag"]),
-    "horizon": _horizon,
-    "clear_by_month": _clear_by_month,
-    "closed": _closed,
-    "notes": _notes,
+    "horizon": checks.horizon(MASK_ELEVATION_RANGE),
+    "clear_by_month": checks.monthly_fractions,
+    "closed": checks.yes_no,
+    "notes": checks.notes,
 }
 
 

@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import math
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -51,20 +50,6 @@ class SolarWindFile:
     distance_km: np.ndarray | None
     left_out: list
     rows: int
-
-
-def _measured(text) -> float:
-    """A measurement cell: a number, or empty (NaN, a gap)."""
-    raw = str(text).strip()
-    if not raw:
-        return math.nan
-    try:
-        value = float(raw)
-    except ValueError:
-        raise ValueError(f"{checks.quote(raw)} is not a number; leave the cell empty for a gap") from None
-    if math.isinf(value):
-        raise ValueError(f"{checks.quote(raw)} is not a finite number; leave the cell empty for a gap")
-    return value
 
 
 def read_command_csv(path, role: str, what: str):
@@ -118,7 +103,7 @@ def load_solarwind(path) -> SolarWindFile:
         where = f"{label} line {line}"
         before = len(problems)
         when = _check_field(problems, where, "time_utc", checks.file_time, row["time_utc"])
-        cells = {name: _check_field(problems, where, name, _measured, row.get(name, ""))
+        cells = {name: _check_field(problems, where, name, checks.measurement, row.get(name, ""))
                  for name in names}
         if len(problems) > before:
             continue

@@ -24,11 +24,6 @@ as covering 1899-07-29 to 2053-10-09)."""
 _TRIP_DATE = checks.date_within(*TRIP_DATES)
 
 
-def _blocked(text):
-    parts = [p.strip() for p in str(text).split(";") if p.strip()]
-    return tuple(checks.date(p) for p in parts)
-
-
 def _trip_from_row(line, row, label, largest, problems: ProblemList) -> Trip | None:
     where = f"{label} line {line}"
     before = len(problems)
@@ -44,7 +39,7 @@ def _trip_from_row(line, row, label, largest, problems: ProblemList) -> Trip | N
     arrive = _check_field(problems, where, "arrive", _TRIP_DATE, row["arrive"])
     depart = _check_field(problems, where, "depart", _TRIP_DATE, row["depart"])
     outings = _check_field(problems, where, "outings", checks.cell_whole(1, 60, "outings"), row["outings"])
-    blocked = _check_field(problems, where, "blocked", _blocked, row.get("blocked", ""))
+    blocked = _check_field(problems, where, "blocked", checks.date_cells, row.get("blocked", ""))
     if arrive and depart and depart <= arrive:
         problems.add(f"{where}, depart: {depart} is not after arrive {arrive}; give a later date")
     elif arrive and depart and outings and outings > (depart - arrive).days:
