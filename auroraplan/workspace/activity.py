@@ -6,7 +6,7 @@ from auroraplan import checks, csvcolumns
 from auroraplan.activity import BLOCK_HOURS, parse_kp
 from auroraplan.csvcolumns import ActivityTable
 from auroraplan.errors import ProblemList
-from auroraplan.workspace.files import CSV_COLUMNS, _check_field, _read_csv_rows, _read_text
+from auroraplan.workspace.files import CSV_COLUMNS, _check_field, _table_or_rows
 
 KP_SD_RANGE = (0.0, 5.0)
 
@@ -18,16 +18,14 @@ def _load_activity(path, label, problems: ProblemList):
     """ActivityTable, or None with the problems added. A large file is read column-wise
     (auroraplan.csvcolumns); one it cannot vouch for is read row by row, which names
     each bad row."""
-    table = csvcolumns.read_activity(path, *CSV_COLUMNS["activity"], parse_kp, _kp_sd,
-                                     BLOCK_HOURS * 3600)
-    if table is not None:
+    table, rows = _table_or_rows(
+        csvcolumns.read_activity(path, *CSV_COLUMNS["activity"], parse_kp, _kp_sd,
+                                 BLOCK_HOURS * 3600), path, label, "activity", problems)
+    if rows is None:
         return table
-    text = _read_text(path, label, problems)
-    if text is None:
-        return None
     starts, kps, sds = [], [], []
     first_line = {}
-    for line, row in _read_csv_rows(text, label, "activity", problems):
+    for line, row in rows:
         where = f"{label} line {line}"
         before = len(problems)
         start = _check_field(problems, where, "start_utc", _block_start, row["start_utc"])

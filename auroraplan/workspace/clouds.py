@@ -9,8 +9,7 @@ from auroraplan.workspace.files import (
     CSV_COLUMNS,
     FILE_NAMES,
     _check_field,
-    _read_csv_rows,
-    _read_text,
+    _table_or_rows,
 )
 
 CLOUD_UNITS = {"%": "percent", "percent": "percent", "pct": "percent", "fraction": "fraction",
@@ -32,19 +31,17 @@ def _load_clouds(path, label, site_names, problems: ProblemList, default_unit="p
     says fraction. A file whose values all lie within 0-1 (and are not all 0) with no unit
     saying fraction is rejected: 0.7 % is far likelier to be a fraction typed as percent.
     """
-    table = csvcolumns.read_clouds(path, *CSV_COLUMNS["clouds"], site_names, _cloud_unit,
-                                   _cloud_value, default_unit)
-    if table is not None:
+    table, rows = _table_or_rows(
+        csvcolumns.read_clouds(path, *CSV_COLUMNS["clouds"], site_names, _cloud_unit,
+                               _cloud_value, default_unit), path, label, "clouds", problems)
+    if rows is None:
         return table
-    text = _read_text(path, label, problems)
-    if text is None:
-        return None
     names, times, clouds = [], [], []
     unit_said = default_unit == "fraction"
     largest = 0.0
     unknown = {}  # site name -> (first line, rows)
     first_line = {}
-    for line, row in _read_csv_rows(text, label, "clouds", problems):
+    for line, row in rows:
         where = f"{label} line {line}"
         before = len(problems)
         name = _check_field(problems, where, "site", checks.text, row["site"])

@@ -105,6 +105,15 @@ def _read_csv_rows(text: str, label: str, role: str, problems: ProblemList):
     return rows
 
 
+def _table_or_rows(table, path: Path, label: str, role: str, problems: ProblemList):
+    """(table, None) when the column-wise reader vouched for the file (``table`` not None);
+    else (None, the file's rows) for the row reader, or (None, None) with a problem added."""
+    if table is not None:
+        return table, None
+    text = _read_text(path, label, problems)
+    return None, (None if text is None else _read_csv_rows(text, label, role, problems))
+
+
 def _check_field(problems, where, name, checker, value):
     """checker(value), or None with one problem line naming where and the field."""
     try:
