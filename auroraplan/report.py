@@ -1,7 +1,8 @@
-"""Building the reports (plain, JSON-ready dicts) that the commands print and the renderers draw.
+"""Building the plan records (auroraplan/plans.py) that the commands print and the renderers draw.
 
-Each builder runs the stages of the pipeline for one question (tonight,
-a week, a season) and turns arrays into JSON-ready fields.
+Each builder runs the stages of the pipeline for one question (tonight, a week, a season,
+the site table) and turns arrays into the records' fields; the views compute nothing and
+this module imports nothing from ``render``.
 """
 
 from __future__ import annotations
@@ -14,7 +15,7 @@ import numpy as np
 
 from auroraplan import plans
 from auroraplan.cautions import CAUTIONS, FORECAST_NOT_PROMISE
-from auroraplan.render.style import chance_in_words, compass_point
+from auroraplan.wording import chance_in_words, compass_point
 
 DEFAULT_STEP_MIN = 10
 
@@ -191,7 +192,7 @@ def forecast_info(ws, kinds, times_utc=None) -> plans.ForecastSource:
 
 def _forecast_gaps(times, kinds, first_block, last_block, tz) -> list[str]:
     """Local spans 'HH:MM–HH:MM' of outlook steps between a forecast's first and last block."""
-    from auroraplan.render.style import time_span
+    from auroraplan.wording import time_span
 
     inside = (kinds == "outlook") & (times >= first_block) & (times < last_block)
     spans, start = [], None

@@ -11,10 +11,9 @@ from __future__ import annotations
 import datetime as dt
 from dataclasses import dataclass
 
-from auroraplan import checks
+from auroraplan import checks, wording
 from auroraplan.checks import setting
 from auroraplan.errors import InputError
-from auroraplan.render import style as _style
 
 PRINT_LANGUAGES = ("en", "de")
 """Languages with a message catalogue (the keys of auroraplan.i18n.LANGUAGES, which needs
@@ -257,11 +256,11 @@ def _reason(sheet: dict, w) -> str:
     """The reason under the go / wait / swap line, in one or two short sentences."""
     d = sheet["decision"]
     main, backup = sheet.get("site") or {}, sheet.get("backup") or {}
-    window = _style.time_span(sheet.get("window_start"), sheet.get("window_end"))
-    limiting = w(_style.limiting_in_words(main.get("limiting")))
+    window = wording.time_span(sheet.get("window_start"), sheet.get("window_end"))
+    limiting = w(wording.limiting_in_words(main.get("limiting")))
     if d["call"] == "go":
         text = w("{words} chance of a sighting ({percent}) in the window {window}.",
-                 words=w(_style.chance_in_words(d["main_chance"])).capitalize(),
+                 words=w(wording.chance_in_words(d["main_chance"])).capitalize(),
                  percent=w.percent(d["main_chance"]), window=window)
         if main.get("limiting"):
             text += " " + w("Held back most by {limiting}.", limiting=limiting)
