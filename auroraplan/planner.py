@@ -263,30 +263,6 @@ class PlanResult:
 # ---------------------------------------------------------------------------------------
 
 
-def plan_excursions(value, allowed, guests, outings, vehicles, capacity, drive_cost=None,
-                    drive_min=None, drive_weight=DRIVE_WEIGHT_PER_MIN, time_limit_s=None,
-                    settings=None):
-    """The chosen ``(trip, night, site)`` triples for one vehicle per group.
-
-    The plain form of `solve_plan`: ``vehicles`` (D,) counts each taking one
-    group, and a proven optimum unless ``settings`` or ``time_limit_s`` say
-    otherwise. Parameters as for `solve_plan`.
-
-    Returns
-    -------
-    list of (int, int, int)
-    """
-    if settings is None:
-        limit = math.inf if time_limit_s is None else float(time_limit_s)
-        settings = PlannerSettings(drive_cost_per_min=drive_weight, time_limit_s=limit,
-                                   relative_gap=0.0)
-    if vehicles is not None:
-        _counts("vehicles", vehicles, np.asarray(value).shape[1])
-    fleet = FleetNights.one_group_each(vehicles)
-    return solve_plan(value, allowed, guests, outings, fleet, capacity, drive_cost=drive_cost,
-                      drive_min=drive_min, settings=settings).outings
-
-
 def solve_plan(value, allowed, guests, outings, fleet, capacity, drive_cost=None,
                drive_min=None, fixed=(), settings=None) -> PlanResult:
     """Choose the excursions: groups served, then the least share, then chance.

@@ -12,9 +12,25 @@ from auroraplan.planner import (
     FleetNights,
     PlannerSettings,
     choose_backups,
-    plan_excursions,
     solve_plan,
 )
+
+
+def plan_excursions(value, allowed, guests, outings, vehicles, capacity, drive_cost=None,
+                    drive_min=None, drive_weight=planner.DRIVE_WEIGHT_PER_MIN,
+                    time_limit_s=None, settings=None):
+    """`solve_plan`'s outings with one vehicle per group (``vehicles`` (D,) counts) and a
+    proven optimum unless ``settings`` or ``time_limit_s`` say otherwise."""
+    if settings is None:
+        limit = math.inf if time_limit_s is None else float(time_limit_s)
+        settings = PlannerSettings(drive_cost_per_min=drive_weight, time_limit_s=limit,
+                                   relative_gap=0.0)
+    if vehicles is not None:
+        planner._counts("vehicles", vehicles, np.asarray(value).shape[1])
+    fleet = FleetNights.one_group_each(vehicles)
+    return solve_plan(value, allowed, guests, outings, fleet, capacity, drive_cost=drive_cost,
+                      drive_min=drive_min, settings=settings).outings
+
 
 # --- an exhaustive reference, independent of the solver ----------------------------------
 
