@@ -8,6 +8,7 @@ import time
 from pathlib import Path
 
 import pytest
+from broken_files import BrokenFile
 
 from auroraplan import cli, outfiles
 
@@ -19,28 +20,16 @@ def _leftovers(folder: Path) -> list[str]:
     return sorted(p.name for p in folder.iterdir() if p.name.endswith(".part"))
 
 
-class _HalfWriter:
-    """A file object that writes half of what it is given, then is interrupted."""
-
-    def __init__(self, fh):
-        self.fh = fh
-
-    def __enter__(self):
-        return self
-
-    def __exit__(self, *exc):
-        self.fh.close()
-        return False
-
-    def write(self, data):
-        self.fh.write(data[: len(data) // 2])
-        self.fh.flush()
-        raise KeyboardInterrupt
+def _half_then_interrupted(fh, data):
+    """Writes half of what it is given, then is interrupted."""
+    fh.write(data[: len(data) // 2])
+    fh.flush()
+    raise KeyboardInterrupt
 
 
 def test_write_interrupted_halfway_leaves_nothing(tmp_path, monkeypatch):
     real_fdopen = os.fdopen
-    monkeypatch.setattr(outfiles.os, "fdopen", lambda fd, mode: _HalfWriter(real_fdopen(fd, mode)))
+    monkeypatch.setattr(outfiles.os, "fdopen", lambda fd, mode: BrokenFile(real_fdopen(fd, mode), _half_then_interrupted))
     out = tmp_path / "plan.csv"
     with pytest.raises(KeyboardInterrupt):
         outfiles.write_text_atomic(out, "trip,date\n" * 1000)

@@ -7,6 +7,7 @@ import stat
 from pathlib import Path
 
 import pytest
+from broken_files import BrokenFile
 
 from auroraplan import cli, outfiles
 from auroraplan.errors import InputError
@@ -113,23 +114,13 @@ def test_disk_full_on_the_second_output_leaves_both_untouched(ws, tmp_path, monk
     real_fdopen = os.fdopen
     opened = []
 
-    class Full:
-        def __init__(self, fh):
-            self.fh = fh
-
-        def __enter__(self):
-            return self
-
-        def __exit__(self, *exc):
-            self.fh.close()
-            return False
-
-        def write(self, data):
-            raise OSError(errno.ENOSPC, "No space left on device")
+    def disk_full(fh, data):
+        raise OSError(errno.ENOSPC, "No space left on device")
 
     def fdopen(fd, mode):
         opened.append(fd)
-        return real_fdopen(fd, mode) if len(opened) == 1 else Full(real_fdopen(fd, mode))
+        return (real_fdopen(fd, mode) if len(opened) == 1
+                else BrokenFile(real_fdopen(fd, mode), disk_full))
 
     monkeypatch.setattr(outfiles.os, "fdopen", fdopen)
     code = cli.main(["week", str(ws), "--start", "2027-01-11", "--nights", "1",
