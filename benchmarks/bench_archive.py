@@ -14,7 +14,6 @@
 
 import datetime as dt
 import shutil
-import statistics
 import sys
 import tempfile
 import time
@@ -23,6 +22,9 @@ from pathlib import Path
 ROOT = Path(__file__).resolve().parents[1]
 sys.path.insert(0, str(ROOT))
 sys.path.insert(0, str(ROOT / "tests"))
+sys.path.insert(0, str(ROOT / "benchmarks"))
+
+from timing import alternately, repeats_for  # noqa: E402
 
 TARGET_RATIO = 1.10
 NIGHT = dt.date(2027, 1, 12)
@@ -39,21 +41,17 @@ def _tonight_overhead(quick: bool) -> dict:
     command = [sys.executable, "-m", "auroraplan.cli", "tonight", str(folder), "--date",
                NIGHT.isoformat(), "--json"]
 
-    def timed(extra):
-        start = time.perf_counter()
-        subprocess.run(command + extra, check=True, capture_output=True)
-        return time.perf_counter() - start
+    def run_with(extra):
+        return lambda: subprocess.run(command + extra, check=True, capture_output=True)
 
-    timed([])  # warm the file cache
-    with_keep, without = [], []
-    for _ in range(3 if quick else 9):
-        without.append(timed(["--no-record"]))
-        with_keep.append(timed([]))
+    run_with([])()  # warm the file cache
+    without, with_keep = alternately(run_with(["--no-record"]), run_with([]),
+                                     repeats_for(quick, 9))
     shutil.rmtree(folder.parent, ignore_errors=True)
-    seconds, baseline = statistics.median(with_keep), statistics.median(without)
-    return {"name": "tonight demo_sites (whole command), chances kept", "seconds": round(seconds, 4),
-            "baseline": "tonight --no-record", "baseline_seconds": round(baseline, 4),
-            "ratio": round(seconds / baseline, 3), "ok": seconds / baseline <= TARGET_RATIO}
+    ratio = with_keep.median / without.median
+    return {"name": "tonight demo_sites (whole command), chances kept", **with_keep.fields(),
+            "baseline": "tonight --no-record", **without.fields("baseline_"),
+            "ratio": ratio, "ok": ratio <= TARGET_RATIO}
 
 
 def _recovery(quick: bool) -> dict:

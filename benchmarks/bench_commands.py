@@ -11,8 +11,9 @@ alongside, five runs each:
   time no code of ours can remove. A large clouds.csv brings Arrow's CSV reader
   (which loads pandas itself), so those rows have a floor with them.
 
-Large inputs come from ``make_workspace`` (invented data, clouds.csv and activity.csv
-included where the row says cloud rows) in a temporary folder. A target given as a
+Large inputs come from ``make_workspace`` (invented data) in a temporary folder; every
+generated workspace has clouds.csv and activity.csv for its first three nights, as a
+short-range forecast would, whether or not the command reads them. A target given as a
 multiple of another row (``linear_to``) is checked against that row's median of the
 same run. ``memory_growth`` doubles the sites, then the hours, and prints each ratio of
 peak memory. With ``quick`` the repeats drop to one and the largest inputs shrink; a
@@ -35,6 +36,7 @@ from pathlib import Path
 sys.path.insert(0, str(Path(__file__).resolve().parent))
 
 from make_workspace import make_workspace  # noqa: E402
+from timing import REPEATS  # noqa: E402
 
 ROOT = Path(__file__).resolve().parents[1]
 DEMO = ROOT / "demo_sites"
@@ -55,7 +57,7 @@ FLOORS = {
     "imports: season": [PY, "-c", "import numpy, skyfield.api, aacgmv2"],
     "imports: sites": [PY, "-c", "import numpy, aacgmv2"],
 }
-FLOOR_REPEATS = 5
+FLOOR_REPEATS = REPEATS
 
 
 @dataclass(frozen=True)
@@ -83,7 +85,7 @@ class Case:
     workspace: Generated | None = None  # None: demo_sites
     memory_target_mb: float | None = None
     quick_workspace: Generated | None = None  # smaller stand-in when quick (no target then)
-    repeats: int = 5
+    repeats: int = REPEATS
     floor_factor: float | None = None  # target: the larger of target_s and this x the floor
     linear_to: str | None = None  # target: target_s x the median of the row of this name
 
@@ -115,18 +117,18 @@ CASES = (
     Case("season demo_sites 2026-09-01..2027-04-15", ("season", "{ws}", "--from", "2026-09-01",
          "--to", "2027-04-15", "--json"), 15.0, "imports: season"),
     Case("season 100 sites x 225 nights", SEASON, 3.0, "imports: season",
-         workspace=Generated(100, 6, SEP, 225, forecasts=False), memory_target_mb=1536.0,
-         quick_workspace=Generated(20, 6, SEP, 225, forecasts=False)),
+         workspace=Generated(100, 6, SEP, 225), memory_target_mb=1536.0,
+         quick_workspace=Generated(20, 6, SEP, 225)),
     Case("season 1,000 sites x 225 nights", SEASON, 15.0, "imports: season",
-         workspace=Generated(1_000, 6, SEP, 225, forecasts=False), memory_target_mb=1536.0,
-         quick_workspace=Generated(100, 6, SEP, 225, forecasts=False)),
+         workspace=Generated(1_000, 6, SEP, 225), memory_target_mb=1536.0,
+         quick_workspace=Generated(100, 6, SEP, 225)),
     Case("season 3,000 sites x 225 nights", SEASON, 3.0, "imports: season",
-         workspace=Generated(3_000, 6, SEP, 225, forecasts=False), memory_target_mb=1536.0,
-         quick_workspace=Generated(300, 6, SEP, 225, forecasts=False),
+         workspace=Generated(3_000, 6, SEP, 225), memory_target_mb=1536.0,
+         quick_workspace=Generated(300, 6, SEP, 225),
          linear_to="season 1,000 sites x 225 nights"),
     Case("sites, 10,000 sites", ("sites", "{ws}", "--date", "2027-01-12", "--json"), 15.0,
-         "imports: sites", workspace=Generated(10_000, 6, JAN, 7, forecasts=False),
-         quick_workspace=Generated(1_000, 6, JAN, 7, forecasts=False)),
+         "imports: sites", workspace=Generated(10_000, 6, JAN, 7),
+         quick_workspace=Generated(1_000, 6, JAN, 7)),
 )
 
 

@@ -13,13 +13,16 @@ Run ``python benchmarks/bench_nowcast.py`` (``--quick`` for fewer repeats).
 from __future__ import annotations
 
 import resource
-import statistics
 import subprocess
 import sys
 import time
 from pathlib import Path
 
 ROOT = Path(__file__).resolve().parents[1]
+sys.path.insert(0, str(ROOT / "benchmarks"))
+
+from timing import Runs, repeats_for  # noqa: E402
+
 DEMO = ROOT / "demo_sites"
 PY = sys.executable
 
@@ -40,8 +43,8 @@ def _timed(argv) -> tuple[float, float]:
     return seconds, usage.ru_maxrss / 1024.0
 
 
-def _in_process(repeats: int) -> tuple[float, float]:
-    """Median seconds of (read + estimate from the solar-wind file, the whole report)."""
+def _in_process(repeats: int) -> tuple[Runs, Runs]:
+    """Runs of (read + estimate from the solar-wind file, the whole report)."""
     import datetime as dt
 
     from auroraplan import report
@@ -60,27 +63,27 @@ def _in_process(repeats: int) -> tuple[float, float]:
         t2 = time.perf_counter()
         read.append(t1 - t0)
         whole.append(t2 - t1 + (t1 - t0))
-    return statistics.median(read), statistics.median(whole)
+    return Runs(tuple(read)), Runs(tuple(whole))
 
 
 def run(quick: bool = False) -> list[dict]:
     """Rows for benchmarks/run_all.py: the command against its floor, and the solar-wind
     stage against the command's in-process work."""
-    repeats = 2 if quick else 7
+    repeats = repeats_for(quick, 7)
     _timed(COMMAND)  # warm the disk cache and the climatology cache
-    command = [_timed(COMMAND) for _ in range(repeats)]
-    floor = [_timed(FLOOR) for _ in range(repeats)]
-    times = [c[0] for c in command]
-    median, floor_s = statistics.median(times), statistics.median(f[0] for f in floor)
-    read_s, whole_s = _in_process(repeats)
+    command, floor = [], []
+    for _ in range(repeats):  # alternately, so both see the same load
+        command.append(_timed(COMMAND))
+        floor.append(_timed(FLOOR))
+    runs = Runs(tuple(c[0] for c in command))
+    read, whole = _in_process(repeats)
     return [
-        {"name": "nowcast demo_sites (whole process)", "seconds": median,
-         "baseline": "imports: nowcast", "baseline_seconds": floor_s,
-         "target_seconds": TARGET_S, "met": median <= TARGET_S,
-         "peak_mb": max(c[1] for c in command),
-         "min_s": min(times), "max_s": max(times), "runs": repeats},
-        {"name": "nowcast: read + estimate from solarwind.csv", "seconds": read_s,
-         "baseline": "whole nowcast report, in-process", "baseline_seconds": whole_s,
+        {"name": "nowcast demo_sites (whole process)", **runs.fields(),
+         "baseline": "imports: nowcast", **Runs(tuple(f[0] for f in floor)).fields("baseline_"),
+         "target_seconds": TARGET_S, "met": runs.median <= TARGET_S,
+         "peak_mb": max(c[1] for c in command)},
+        {"name": "nowcast: read + estimate from solarwind.csv", **read.fields(),
+         "baseline": "whole nowcast report, in-process", **whole.fields("baseline_"),
          "peak_mb": resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024.0},
     ]
 
@@ -88,8 +91,7 @@ def run(quick: bool = False) -> list[dict]:
 def main(argv=None) -> int:
     argv = sys.argv[1:] if argv is None else argv
     for row in run(quick="--quick" in argv):
-        extra = (f" (min {row['min_s']:.3f}, max {row['max_s']:.3f}, {row['runs']} runs)"
-                 if "min_s" in row else "")
+        extra = f" (min {row['min_s']:.3f}, max {row['max_s']:.3f}, {row['repeats']} runs)"
         print(f"{row['name']:<46} {row['seconds']:7.3f} s vs {row['baseline']} "
               f"{row['baseline_seconds']:.3f} s = {row['seconds'] / row['baseline_seconds']:.2f}"
               f"{extra}")

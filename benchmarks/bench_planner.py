@@ -19,9 +19,7 @@ Every figure is the median of the runs (5, or 3 with ``--quick``) with min and m
 Run ``python benchmarks/bench_planner.py`` (``--quick`` for 40 trips and 3 runs).
 """
 
-import statistics
 import sys
-import time
 from pathlib import Path
 
 import numpy as np
@@ -30,6 +28,7 @@ sys.path.insert(0, str(Path(__file__).resolve().parent))
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
 from make_workspace import vehicles_for  # noqa: E402
+from timing import repeats_for, timed  # noqa: E402
 
 from auroraplan.planner import (  # noqa: E402
     FleetNights,
@@ -67,23 +66,14 @@ def generated_week(seed=2024, trips=TRIPS, nights=NIGHTS, sites=SITES):
     )
 
 
-def _runs(function, repeats):
-    times, out = [], None
-    for _ in range(repeats):
-        start = time.perf_counter()
-        out = function()
-        times.append(time.perf_counter() - start)
-    return statistics.median(times), min(times), max(times), out
-
-
 def run(quick=False):
     """Time the fair plan (default settings) and the greedy baseline on the generated week.
 
     Returns
     -------
     dict
-        ``name``, ``size``, ``seconds`` / ``min_seconds`` / ``max_seconds`` (the
-        plan), ``baseline``, ``baseline_seconds`` (greedy, median),
+        ``name``, ``size``, ``seconds`` / ``min_s`` / ``max_s`` (the
+        plan), ``baseline``, ``baseline_seconds`` (greedy, median, with its min and max),
         ``objective`` (total chance minus drive cost), ``bound``, ``gap``
         (relative, against the bound), ``baseline_objective`` and
         ``baseline_gap`` (greedy against the same bound), ``time_limit_hit``,
@@ -93,7 +83,7 @@ def run(quick=False):
     import scipy.optimize  # noqa: F401  (imported before timing, as in a running command)
 
     trips = 40 if quick else TRIPS
-    repeats = 3 if quick else 5
+    repeats = 3 if quick else repeats_for(False)
     week = generated_week(trips=trips)
     settings = PlannerSettings()
     fleet = FleetNights.one_group_each(week["vehicles"])
@@ -106,8 +96,8 @@ def run(quick=False):
     def greedy():
         return greedy_plan(**week)
 
-    seconds, low, high, result = _runs(fair, repeats)
-    baseline_seconds, _, _, plan = _runs(greedy, repeats)
+    ours, result = timed(fair, repeats)
+    base, plan = timed(greedy, repeats)
     net = net_value(week["value"], drive_min=week["drive_min"])
     baseline_objective = float(sum(net[p] for p in plan))
     if result.objective < baseline_objective - 1e-9 and result.served == len(
@@ -117,10 +107,10 @@ def run(quick=False):
         "name": "planner (fair, default settings)",
         "size": f"{trips} trips x {NIGHTS} nights x {SITES} sites, "
                 f"{int(week['vehicles'][0])} vehicles",
-        "seconds": seconds, "min_seconds": low, "max_seconds": high,
+        **ours.fields(),
         "baseline": "greedy plan",
-        "baseline_seconds": baseline_seconds,
-        "ratio": seconds / baseline_seconds,
+        **base.fields("baseline_"),
+        "ratio": ours.median / base.median,
         "objective": result.objective,
         "bound": result.bound,
         "gap": result.gap,
@@ -139,8 +129,8 @@ def main(argv=None):
     argv = sys.argv[1:] if argv is None else argv
     r = run(quick="--quick" in argv)
     print(f"planner, {r['size']}, {r['outings']} outings")
-    print(f"  fair plan  {r['seconds']:7.2f} s (min {r['min_seconds']:.2f}, max "
-          f"{r['max_seconds']:.2f})  total {r['objective']:.3f}  gap {r['gap'] * 100:.2f} % "
+    print(f"  fair plan  {r['seconds']:7.2f} s (min {r['min_s']:.2f}, max "
+          f"{r['max_s']:.2f})  total {r['objective']:.3f}  gap {r['gap'] * 100:.2f} % "
           f"to the bound {r['bound']:.3f}; {r['served']} groups out")
     print(f"  greedy     {r['baseline_seconds']:7.2f} s  total {r['baseline_objective']:.3f}  "
           f"gap {r['baseline_gap'] * 100:.2f} %; {r['greedy_served']} groups out")

@@ -14,7 +14,10 @@ from pathlib import Path
 
 import numpy as np
 
+sys.path.insert(0, str(Path(__file__).resolve().parent))
 sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
+
+from timing import repeats_for, timed  # noqa: E402
 
 from auroraplan import sky  # noqa: E402
 
@@ -93,30 +96,32 @@ def skyfield_rate(lat, lon, h, times, n_sites=3):
 
 
 def run(quick: bool = False) -> dict:
-    """Time the season; return the figures (rates, ratio, errors, memory)."""
+    """Time the season (median of 5 runs; baselines' rates the median of 5 each); return the
+    figures (rates with their ranges, ratio, errors, memory)."""
     n_sites, nights = (20, 30) if quick else (100, 225)
     lat, lon, h = invented_sites(n_sites)
     times, _ = sky.night_times(FIRST_NIGHT, nights, ZONE, step_min=STEP_MIN)
     sky.load_ephemeris()  # reading the ephemeris file is not part of the work per season
 
-    start = time.perf_counter()
-    track = sky.sun_moon_altaz(lat, lon, h, times)
-    seconds = time.perf_counter() - start
+    repeats = repeats_for(quick)
+    runs, track = timed(lambda: sky.sun_moon_altaz(lat, lon, h, times), repeats)
     site_steps = n_sites * times.size
-    rate = site_steps / seconds
+    rate = site_steps / runs.median
 
     worst = check_against_skyfield(lat, lon, h, times, track)
-    baseline = pyephem_rate(lat, lon, h, times)
-    skyfield_loop = skyfield_rate(lat, lon, h, times)
+    pyephem = sorted(pyephem_rate(lat, lon, h, times) for _ in range(repeats))
+    skyfield_loop = sorted(skyfield_rate(lat, lon, h, times) for _ in range(repeats))
     return {
         "sites": n_sites,
         "nights": nights,
         "site_steps": site_steps,
-        "seconds": seconds,
+        **runs.fields(),
         "rate": rate,
-        "pyephem_rate": baseline,
-        "ratio": rate / baseline,
-        "skyfield_rate": skyfield_loop,
+        "pyephem_rate": pyephem[len(pyephem) // 2],
+        "pyephem_rate_range": (pyephem[0], pyephem[-1]),
+        "ratio": rate / pyephem[len(pyephem) // 2],
+        "skyfield_rate": skyfield_loop[len(skyfield_loop) // 2],
+        "skyfield_rate_range": (skyfield_loop[0], skyfield_loop[-1]),
         "max_sun_error_deg": worst["sun"],
         "max_moon_error_deg": worst["moon"],
         "peak_rss_mb": resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024.0,

@@ -12,8 +12,6 @@ Run ``python benchmarks/bench_week.py`` (``--quick`` for 50 sites and one repeat
 from __future__ import annotations
 
 import datetime as dt
-import json
-import statistics
 import sys
 import tempfile
 import time
@@ -23,14 +21,17 @@ sys.path.insert(0, str(Path(__file__).resolve().parent))
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
 from make_workspace import make_workspace  # noqa: E402
+from timing import Runs, repeats_for  # noqa: E402
 
 FIRST = dt.date(2027, 1, 11)
 NIGHTS = 7
 
 
 def _stages(folder: Path) -> dict:
-    """Seconds of each stage of one week run, from cold caches."""
+    """Seconds of each stage of one week run: in-process caches emptied first, the user
+    cache (the kept climatology and Kp-needed tables) as a command finds it."""
     from auroraplan import climatology, report
+    from auroraplan.commands._common import json_text
     from auroraplan.workspace import load_workspace
 
     climatology._load_history_cached.cache_clear()
@@ -40,13 +41,13 @@ def _stages(folder: Path) -> dict:
     ws = load_workspace(folder)
     times["read workspace"] = time.perf_counter() - start
     start = time.perf_counter()
-    clim = report.bundled_climatology()
+    clim = report.workspace_climatology(ws)
     times["Kp climatology"] = time.perf_counter() - start
     start = time.perf_counter()
     result = report.week_report(ws, FIRST, NIGHTS, climatology=clim)
     times["grid + plan"] = time.perf_counter() - start
     start = time.perf_counter()
-    json.dumps(result)
+    json_text(result)
     times["JSON text"] = time.perf_counter() - start
     return times
 
@@ -64,17 +65,16 @@ def run(quick: bool = False) -> list[dict]:
     import skyfield.api  # noqa: F401
 
     n_sites, n_trips = (50, 20) if quick else (200, 20)
-    repeats = 1 if quick else 3
     with tempfile.TemporaryDirectory(prefix="auroraplan-week-") as scratch:
         folder = make_workspace(Path(scratch) / "ws", n_sites, n_trips, FIRST, NIGHTS)
         _stages(folder)  # warm the ephemeris file and the disk cache
-        runs = [_stages(folder) for _ in range(repeats)]
-    medians = {name: statistics.median(r[name] for r in runs) for name in runs[0]}
-    whole = sum(medians.values())
+        runs = [_stages(folder) for _ in range(repeats_for(quick))]
+    stages = {name: Runs(tuple(r[name] for r in runs)) for name in runs[0]}
+    whole = Runs(tuple(sum(r.values()) for r in runs))
     size = f"{n_sites} sites x {NIGHTS} nights x {n_trips} trips"
-    return [{"name": f"week stage: {name}", "size": size, "seconds": seconds,
-             "baseline": "whole week, in-process", "baseline_seconds": whole,
-             "ratio": seconds / whole} for name, seconds in medians.items()]
+    return [{"name": f"week stage: {name}", "size": size, **stage.fields(),
+             "baseline": "whole week, in-process", **whole.fields("baseline_"),
+             "ratio": stage.median / whole.median} for name, stage in stages.items()]
 
 
 def main(argv=None) -> int:

@@ -26,7 +26,7 @@ from pathlib import Path
 HERE = Path(__file__).resolve().parent
 OUT = HERE / "_out"
 MODULES = ("bench_sky", "bench_view", "bench_planner", "bench_climatology", "bench_week",
-           "bench_commands", "bench_readers", "bench_nowcast", "bench_weather")
+           "bench_commands", "bench_readers", "bench_nowcast", "bench_archive", "bench_weather")
 
 FAIRNESS = ("Fairness: each baseline gets the same inputs and must reach the same accuracy "
             "(sky: within 0.01 deg sun, 0.02 deg moon of per-site Skyfield; planner: greedy "
@@ -70,12 +70,16 @@ def _sky_rows(r: dict, peak_mb: float) -> list[dict]:
     accurate = r["max_sun_error_deg"] <= 0.01 and r["max_moon_error_deg"] <= 0.02
     note = (f"max error vs Skyfield: sun {r['max_sun_error_deg']:.1e} deg, "
             f"moon {r['max_moon_error_deg']:.1e} deg")
-    rows = [_row(figure, r["seconds"], "per-site PyEphem loop",
-                 r["site_steps"] / r["pyephem_rate"], met=accurate, peak_mb=peak_mb, note=note)]
-    if "skyfield_rate" in r:
-        rows.append(_row(figure, r["seconds"], "per-site Skyfield loop",
-                         r["site_steps"] / r["skyfield_rate"], met=accurate, peak_mb=peak_mb))
-    return rows
+    spread = (r["min_s"], r["max_s"])
+
+    def baseline_spread(rates):  # the fastest rate is the shortest time
+        return (r["site_steps"] / rates[1], r["site_steps"] / rates[0])
+
+    return [_row(figure, r["seconds"], f"per-site {name} loop",
+                 r["site_steps"] / r[f"{key}_rate"], met=accurate, peak_mb=peak_mb,
+                 note=note if key == "pyephem" else "", spread=spread,
+                 baseline_spread=baseline_spread(r[f"{key}_rate_range"]))
+            for key, name in (("pyephem", "PyEphem"), ("skyfield", "Skyfield"))]
 
 
 def _generic_rows(result, peak_mb: float, baseline="same-run baseline") -> list[dict]:

@@ -57,3 +57,17 @@ def test_same_seed_same_files_and_no_forecast_files_when_left_out(tmp_path):
     bare = make_workspace(tmp_path / "bare", 5, 2, FIRST, 3, forecasts=False)
     assert not (bare / "clouds.csv").exists() and not (bare / "activity.csv").exists()
     assert len(load_workspace(bare).warnings) == 2
+
+
+def test_figures_are_the_median_of_at_least_five_runs_with_their_spread():
+    from timing import REPEATS, Runs, alternately, repeats_for
+
+    runs = Runs((3.0, 1.0, 2.0, 10.0, 4.0))
+    assert (runs.median, runs.low, runs.high) == (3.0, 1.0, 10.0)
+    assert runs.fields("baseline_") == {"baseline_seconds": 3.0, "baseline_min_s": 1.0,
+                                        "baseline_max_s": 10.0}
+    assert runs.fields()["repeats"] == 5
+    assert REPEATS >= 5 and repeats_for(False, 3) == REPEATS and repeats_for(True) == 1
+    order = []
+    a, b = alternately(lambda: order.append("a"), lambda: order.append("b"), 3)
+    assert order == ["a", "b"] * 3 and len(a.seconds) == len(b.seconds) == 3
