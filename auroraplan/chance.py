@@ -524,7 +524,7 @@ LOOK_KP_BELOW_LOST = 0.01
 """How far below Kp lost the look is taken when the forecast exceeds it (one fine Kp step)."""
 
 
-def look_for_forecast(table, kp_needed, kp_lost, kp_mean, mlt):
+def look_for_forecast(table, kp_needed, kp_lost, kp_mean, mlt, exact=False):
     """Where to look per site and time for the Kp forecast at that time.
 
     The band is placed at the forecast Kp when that reaches the site's need
@@ -539,6 +539,9 @@ def look_for_forecast(table, kp_needed, kp_lost, kp_mean, mlt):
     kp_mean : ndarray (T,)
         Forecast Kp, NaN where none.
     mlt : ndarray (N, T)
+    exact : bool
+        The reference computation of :func:`auroraplan.view.sightline`; by default its
+        tabulated edges and look-ups (the tolerances are stated there).
 
     Returns
     -------
@@ -553,7 +556,7 @@ def look_for_forecast(table, kp_needed, kp_lost, kp_mean, mlt):
                        kp_look)
     reachable = np.isfinite(kp_look)
     out = view.sightline(table, np.clip(np.nan_to_num(kp_look, posinf=0.0), 0.0, 9.0), mlt,
-                         visible=False)
+                         visible=False, exact=exact)
     for key in ("look_azimuth_deg", "look_elevation_deg"):
         out[key] = np.where(reachable, out[key], np.nan)
     out["overhead"] = out["overhead"] & reachable
