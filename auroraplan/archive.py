@@ -2,13 +2,18 @@
 
 Each run of a command that computes chances (``tonight``, ``week``) adds one
 row to ``issue_runs`` (when, which command, digests of the input files, the
-chance settings) and, per site, the chance of a sighting during the outing
-window for each night (``issued_nights``) and the chance in each dark hour
-(``issued_hours``), with the kind (forecast, outlook, nowcast) and the lead
-time, and each weather model's cloud at the start of those hours (``issued_cloud``). The night rows also keep, per dark step of the outing hours, the parts
-of the chance that the settings act on (`FACTOR_ROWS`), so that
+chance settings, the weather models) and, per site and night, one row of
+``issued_nights``: the chance of a sighting during the outing window, with the
+kind (forecast, outlook, nowcast) and the lead time, and packed beside it the
+chance in each dark hour (``hours``, `HOUR_FIELDS`: `hours_of`), each weather
+model's cloud at the start of those hours (``cloud``, `CLOUD_FIELDS`:
+`cloud_of`) and, per dark step of the outing hours, the parts of the chance
+that the settings act on (``factors``, `FACTOR_ROWS`: `factors_of`), so that
 ``calibrate`` can refit the settings to what the guides saw without computing
-the sky again.
+the sky again. One wide row per site and night, written in one transaction,
+keeps a week over 10,000 sites to some 70,000 rows. Databases written before
+the hours and cloud were packed keep them in the tables ``issued_hours`` and
+``issued_cloud``, which the readers still read.
 
 Pairing a logged outcome with a chance (`issued_for`): the chance is the last
 one issued before the group went out (the start of the logged hours out, or
@@ -107,37 +112,37 @@ def chance_settings_of(ws) -> dict:
     return {**dataclasses.asdict(ws.settings.chance), **dataclasses.asdict(ws.settings.outing)}
 
 
-def record_issue(store, *, command: str, site_names, grid, summary, dates, settings,
-                 files: dict, made_at: dt.datetime | None = None) -> int:
-    """Add one run's chances to the archive in one transaction; returns the run id.
+HOUR_FIELDS = np.dtype([("start", "<i8"), ("kind", "u1"), ("chance", "<f8")])
+"""One packed record per dark hour in ``issued_nights.hours``: the hour's start (UTC,
+seconds since 1970), its kind (index into KINDS) and the chance in that hour."""
+CLOUD_FIELDS = np.dtype([("start", "<i8"), ("model", "<u2"), ("cloud_pct", "<f4")])
+"""One packed record per dark hour and weather model in ``issued_nights.cloud``: the hour's
+start, the model (index into the run's ``issue_runs.models``) and its cloud cover, percent,
+at the hour's start."""
 
-    Parameters
-    ----------
-    store : auroraplan.store.Store
-    command : str
-        The command that computed them ("tonight", "week" ...).
-    site_names : list of str
-        Names of the grid's rows.
-    grid, summary : chance.ChanceGrid, chance.NightSummary
-    dates : list of datetime.date
-        The local evening date of each night of the grid.
-    settings : dict or settings record
-        The chance settings used.
-    files : dict
-        Role -> path of the input files (their digests are kept).
-    made_at : datetime, optional
-        When the chances were made (default now).
 
-    Nights (and hours) without a forecast or outlook, or without darkness, are not kept.
+@dataclasses.dataclass
+class IssuedPart:
+    """The archive's rows for one run of nights of a grid (``issued_part``): per site-night
+    kept, (site, night, kind, outing start, chance, factors, hours, cloud); the lead times
+    are counted when the run is written."""
+
+    rows: list
+    models: list
+    step_min: float
+
+
+def issued_part(grid, summary, site_names, dates, decorrelation_min) -> IssuedPart:
+    """What the archive keeps of a grid and its night summaries (``record_issue``).
+
+    Per site and night with a forecast or outlook and a chance: the chance, the factor rows
+    over the dark steps (FACTOR_ROWS, float32), each dark hour's chance (HOUR_FIELDS,
+    ``hourly_chances`` with the decorrelation time ``decorrelation_min``) and each weather
+    model's cloud at the start of those hours (CLOUD_FIELDS), packed into one row. Nights
+    (and hours) without a forecast or outlook, or without darkness, are not kept.
     """
-    made = (made_at or dt.datetime.now(dt.UTC)).astimezone(dt.UTC)
-    made64 = np.datetime64(made.replace(tzinfo=None), "s")
-    cfg = settings_dict(settings)
-    digests, forecast_digest = input_digests(files)
-    settings_json = json.dumps(cfg, sort_keys=True)
-    first_step, hour_chance, hour_dark = hourly_chances(grid, float(cfg["decorrelation_min"]))
-    hour_start = grid.times_utc[first_step]
-    hour_lead = (hour_start - made64).astype("timedelta64[s]").astype(float) / 3600.0
+    first_step, hour_chance, hour_dark = hourly_chances(grid, float(decorrelation_min))
+    hour_start = grid.times_utc[first_step].astype(np.int64)
     hour_night = grid.night_index[first_step]
     # Steps where the solar-wind nowcast shaped the Kp are kept as kind "nowcast".
     weight = getattr(grid, "nowcast_weight", None)
@@ -147,12 +152,12 @@ def record_issue(store, *, command: str, site_names, grid, summary, dates, setti
     per_hour = int(round(60 / grid.step_min))
     hour_kind = np.array([("nowcast" if (step_kind[j:j + per_hour] == "nowcast").any()
                            else step_kind[j]) for j in first_step], dtype=object)
+    hour_code = np.array([KINDS.index(k) if k in KINDS else 255 for k in hour_kind], np.uint8)
     factors = np.stack([np.nan_to_num(getattr(grid, name), nan=0.0) for name in FACTOR_ROWS]) \
         if grid.p_reach is not None else None
-
     model_pct = getattr(grid, "cloud_model_pct", None)
     models = list(getattr(grid, "cloud_models", None) or []) if model_pct is not None else []
-    night_rows, hour_rows, cloud_rows = [], [], []
+    rows = []
     for d, date in enumerate(dates):
         kind = summary.kind[d]
         cols = np.flatnonzero(grid.night_index == d)
@@ -163,47 +168,108 @@ def record_issue(store, *, command: str, site_names, grid, summary, dates, setti
             continue
         outing = cols[grid.outing[cols]] if grid.outing[cols].any() else cols
         start = grid.times_utc[outing[0]]
-        lead = float((start - made64).astype("timedelta64[s]").astype(float) / 3600.0)
-        for i, site in enumerate(site_names):
-            p = summary.p_any[i, d]
-            if not np.isfinite(p):
-                continue
+        hours = np.flatnonzero((hour_night == d) & (hour_code != 255))
+        kept = hour_dark[:, hours] & np.isfinite(hour_chance[:, hours])  # (N, H)
+        for i in np.flatnonzero(np.isfinite(summary.p_any[:, d])):
             blob = None
             if factors is not None:
                 dark = cols[grid.darkness[i, cols] > 0]
                 blob = np.ascontiguousarray(factors[:, i, dark], dtype="<f4").tobytes()
-            night_rows.append((site, date.isoformat(), kind, _utc_text(start), lead, float(p), blob))
-        for j in np.flatnonzero(hour_night == d):
-            if hour_kind[j] not in KINDS:
-                continue
-            for i in np.flatnonzero(hour_dark[:, j] & np.isfinite(hour_chance[:, j])):
-                hour_rows.append((site_names[i], date.isoformat(), _utc_text(hour_start[j]),
-                                  hour_kind[j], float(hour_lead[j]), float(hour_chance[i, j])))
-                for m, model in enumerate(models):
-                    pct = model_pct[m, i, first_step[j]]
-                    if np.isfinite(pct):
-                        cloud_rows.append((site_names[i], date.isoformat(),
-                                           _utc_text(hour_start[j]), str(model), float(pct)))
+            mine = hours[kept[i]]
+            packed = np.empty(mine.size, HOUR_FIELDS)
+            packed["start"], packed["kind"] = hour_start[mine], hour_code[mine]
+            packed["chance"] = hour_chance[i, mine]
+            cloud = None
+            if models:
+                pct = model_pct[:, i, first_step[mine]]  # (M, H)
+                m, h = np.nonzero(np.isfinite(pct))
+                order = np.lexsort((m, h))  # hour by hour, models in order
+                m, h = m[order], h[order]
+                got = np.empty(m.size, CLOUD_FIELDS)
+                got["start"], got["model"], got["cloud_pct"] = hour_start[mine][h], m, pct[m, h]
+                cloud = got.tobytes()
+            rows.append((site_names[i], date.isoformat(), kind, start, float(summary.p_any[i, d]),
+                         blob, packed.tobytes(), cloud))
+    return IssuedPart(rows=rows, models=models, step_min=float(grid.step_min))
+
+
+def record_issue(store, *, command: str, parts, settings, files: dict,
+                 made_at: dt.datetime | None = None) -> int:
+    """Add one run's chances to the archive in one transaction; returns the run id.
+
+    Parameters
+    ----------
+    store : auroraplan.store.Store
+    command : str
+        The command that computed them ("tonight", "week" ...).
+    parts : list of IssuedPart
+        The chances per run of nights (``issued_part``).
+    settings : dict or settings record
+        The chance settings used.
+    files : dict
+        Role -> path of the input files (their digests are kept).
+    made_at : datetime, optional
+        When the chances were made (default now).
+    """
+    made = (made_at or dt.datetime.now(dt.UTC)).astimezone(dt.UTC)
+    made64 = np.datetime64(made.replace(tzinfo=None), "s")
+    cfg = settings_dict(settings)
+    digests, forecast_digest = input_digests(files)
+    settings_json = json.dumps(cfg, sort_keys=True)
+    models = next((p.models for p in parts if p.models), [])
+    step_min = parts[0].step_min if parts else 0.0
+
+    def night_rows(run_id):
+        for part in parts:
+            remap = np.array([models.index(m) for m in part.models], np.uint16)
+            for site, night, kind, start, p, blob, hours, cloud in part.rows:
+                if cloud is not None and part.models != models:
+                    got = np.frombuffer(cloud, CLOUD_FIELDS).copy()
+                    got["model"] = remap[got["model"]]
+                    cloud = got.tobytes()
+                lead = float((start - made64).astype("timedelta64[s]").astype(float) / 3600.0)
+                yield (run_id, site, night, kind, _utc_text(start), lead, p, blob, hours, cloud)
+
     with store.transaction() as con:
         cur = con.execute(
             "INSERT INTO issue_runs (made_at, command, inputs, inputs_digest, settings, "
-            "settings_digest, step_min) VALUES (?,?,?,?,?,?,?)",
+            "settings_digest, step_min, models) VALUES (?,?,?,?,?,?,?,?)",
             (made.isoformat(timespec="seconds"), command, json.dumps(digests, sort_keys=True),
              forecast_digest, settings_json,
-             hashlib.sha256(settings_json.encode("utf-8")).hexdigest(), float(grid.step_min)))
+             hashlib.sha256(settings_json.encode("utf-8")).hexdigest(), float(step_min),
+             json.dumps(models)))
         run_id = cur.lastrowid
         con.executemany(
             "INSERT INTO issued_nights (run_id, site, night, kind, outing_start, lead_hours, "
-            "chance, factors) VALUES (?,?,?,?,?,?,?,?)",
-            [(run_id, *row) for row in night_rows])
-        con.executemany(
-            "INSERT INTO issued_hours (run_id, site, night, hour_start, kind, lead_hours, "
-            "chance) VALUES (?,?,?,?,?,?,?)",
-            [(run_id, *row) for row in hour_rows])
-        con.executemany(
-            "INSERT INTO issued_cloud (run_id, site, night, hour_start, model, cloud_pct) "
-            "VALUES (?,?,?,?,?,?)", [(run_id, *row) for row in cloud_rows])
+            "chance, factors, hours, cloud) VALUES (?,?,?,?,?,?,?,?,?,?)", night_rows(run_id))
     return run_id
+
+
+def hours_of(blob: bytes | None, made_at: str | None = None) -> list[dict]:
+    """The dark hours kept with an issued night (``issued_nights.hours``): per hour its
+    start (UTC ISO 8601 with Z), kind, chance and, given the run's ``made_at``, lead time."""
+    if blob is None:
+        return []
+    made = np.datetime64(dt.datetime.fromisoformat(made_at).astimezone(dt.UTC)
+                         .replace(tzinfo=None), "s") if made_at else None
+    out = []
+    for start, kind, chance in np.frombuffer(blob, HOUR_FIELDS).tolist():
+        t = np.datetime64(start, "s")
+        row = {"hour_start": _utc_text(t), "kind": KINDS[kind], "chance": chance}
+        if made is not None:
+            row["lead_hours"] = float((t - made).astype(float) / 3600.0)
+        out.append(row)
+    return out
+
+
+def cloud_of(blob: bytes | None, models) -> list[dict]:
+    """Each weather model's cloud kept with an issued night (``issued_nights.cloud``): per
+    dark hour and model, its start (UTC ISO 8601 with Z), the model's name and cloud_pct."""
+    if blob is None:
+        return []
+    return [{"hour_start": _utc_text(np.datetime64(start, "s")), "model": models[m],
+             "cloud_pct": float(pct)}
+            for start, m, pct in np.frombuffer(blob, CLOUD_FIELDS).tolist()]
 
 
 def factors_of(blob: bytes | None) -> dict | None:
@@ -278,9 +344,14 @@ def model_cloud_for(store, issued: Issued, out_from: str | None, out_until: str 
     """Each weather model's cloud, percent, kept with the run ``issued`` came from: the mean
     over the kept hours that overlap the logged hours out, or over all the night's kept
     hours when no hours out were logged (or none overlap). Empty when the run kept none."""
-    rows = store.query(
+    rows = [dict(r) for r in store.query(
         "SELECT hour_start, model, cloud_pct FROM issued_cloud WHERE run_id = ? AND site = ? "
-        "AND night = ?", (issued.run_id, issued.site, issued.night))
+        "AND night = ?", (issued.run_id, issued.site, issued.night))]  # kept before packing
+    for r in store.query(
+            "SELECT n.cloud, r.models FROM issued_nights n JOIN issue_runs r ON r.id = n.run_id "
+            "WHERE n.run_id = ? AND n.site = ? AND n.night = ?",
+            (issued.run_id, issued.site, issued.night)):
+        rows.extend(cloud_of(r["cloud"], json.loads(r["models"])))
     if not rows:
         return {}
     chosen = rows
@@ -298,8 +369,8 @@ def model_cloud_for(store, issued: Issued, out_from: str | None, out_until: str 
 
 
 def recorder(ws, command: str, db=None, open_db=None, warn=None):
-    """A ``keep_chances`` callback for the report builders that adds the run's chances to the
-    workspace database.
+    """A ``keep_chances(parts)`` callback for the report builders that adds the run's
+    chances (a list of ``IssuedPart``) to the workspace database.
 
     Parameters
     ----------
@@ -324,7 +395,7 @@ def recorder(ws, command: str, db=None, open_db=None, warn=None):
     def note(text):
         (warn or (lambda t: sys.stderr.write(f"auroraplan {command}: note: {t}\n")))(text)
 
-    def keep(grid, summary, site_names, dates):
+    def keep(parts):
         try:
             target = db if db is not None else open_db()
             if target is None:
@@ -332,9 +403,8 @@ def recorder(ws, command: str, db=None, open_db=None, warn=None):
                      "(`week` or `logbook` creates it)")
                 return
             try:
-                record_issue(target, command=command, site_names=site_names, grid=grid,
-                             summary=summary, dates=dates, settings=chance_settings_of(ws),
-                             files=dict(ws.files))
+                record_issue(target, command=command, parts=parts,
+                             settings=chance_settings_of(ws), files=dict(ws.files))
             finally:
                 if db is None:
                     target.close()

@@ -10,6 +10,7 @@ visible minutes and the probability of at least one visible display.
 
 from __future__ import annotations
 
+import dataclasses
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -151,11 +152,13 @@ class ChanceGrid:
     sky_brightening_mag: np.ndarray | None = None  # (N, T) dark − moonlit sky, mag ≥ 0
     p_reach: np.ndarray | None = None  # (N, T) P(Kp needed ≤ Kp < Kp lost)
     p_strong: np.ndarray | None = None  # (N, T) the same with the strong margin
-    cloud_source: np.ndarray | None = None  # (N, T) str, weather.CloudGrid.source
+    cloud_source_code: np.ndarray | None = None  # (N, T) uint8, weather.CloudGrid.source_code
     cloud_models: list = field(default_factory=list)  # (M,) weather-model names
     cloud_model_pct: np.ndarray | None = None  # (M, N, T) each model's cloud, percent
     cloud_spread_pct: np.ndarray | None = None  # (N, T) largest minus smallest model value
     cloud_note: str = ""  # where the cloud figures come from (weather.source_note)
+    cloud_tally: object = None  # weather.CloudTally: what the cloud warnings and note rest on
+    outside_hours_at: dict = field(default_factory=dict)  # site -> steps (outside_hours_found)
 
 
 def moon_factor(dark_sky_mag, moonlit_sky_mag, beta=ChanceSettings.moon_beta):
@@ -283,7 +286,7 @@ def compute_grid(
         ``activity`` 0. A timeline over the whole night asks for every step.
     warn_outside_hours : bool
         When the operator set outing hours, name the sites whose best time falls outside
-        them (:func:`outside_hours_warnings`; it needs every dark step worked out). Long
+        them (:func:`outside_hours_found`; it needs every dark step worked out). Long
         ranges (season) leave it out.
     """
     from auroraplan import magnetic, sky, view, weather
@@ -330,7 +333,7 @@ def compute_grid(
 
     # The oval, the look and the moonlit sky only where a chance can be shown.
     # With the operator's own hours, every dark step: a site's best time outside them is
-    # looked for (outside_hours_warnings).
+    # looked for (outside_hours_found).
     warn_outside = warn_outside_hours and settings.outing.set_by_operator
     work = np.ones(times_utc.shape, bool) if all_steps else working_steps(
         dark if warn_outside else darkness, step_min)
@@ -377,10 +380,11 @@ def compute_grid(
     # around it; also the expected share of the step with a display in sight.
     moon, activity = at.full(moon_w, 1.0), at.full(activity, 0.0)
     chance = darkness * moon * activity * p_clear
+    found = {}
     if warn_outside:
-        warnings.extend(outside_hours_warnings(
-            [s.name for s in sites], times_utc, night_index, dark * moon * activity * p_clear,
-            usable, settings.outing, tz))
+        found = outside_hours_found(night_index, dark * moon * activity * p_clear, usable)
+        warnings.extend(outside_hours_lines([s.name for s in sites], times_utc, found,
+                                            np.unique(night_index).size, settings.outing, tz))
     return ChanceGrid(
         times_utc=times_utc, night_index=np.asarray(night_index), step_min=float(step_min),
         darkness=darkness, moon=moon, activity=activity, p_clear=p_clear, chance=chance,
@@ -393,9 +397,158 @@ def compute_grid(
         outing_hours=hours_text(times_utc, outing, tz),
         sky_brightening_mag=at.full(np.maximum(arr["sky_mag"][:, None] - moonlit, 0.0), 0.0),
         p_reach=at.full(p_reach, 0.0), p_strong=at.full(p_strong, 0.0),
-        cloud_source=cloud.source, cloud_models=cloud.models, cloud_model_pct=cloud.model_pct,
-        cloud_spread_pct=cloud.spread_pct, cloud_note=cloud.note,
+        cloud_source_code=cloud.source_code, cloud_models=cloud.models, cloud_model_pct=cloud.model_pct,
+        cloud_spread_pct=cloud.spread_pct, cloud_note=cloud.note, cloud_tally=cloud.tally,
+        outside_hours_at=found,
     )
+
+
+NIGHTS_SITE_STEPS = 1_000_000
+"""Site-steps worked out at once by :func:`compute_nights` (whole nights, at least one at
+a time): a week over 10,000 sites is then seven grids of a night each instead of one grid
+of ten million site-steps, which held gigabytes."""
+
+
+@dataclass
+class PeakLook:
+    """Where to look at each site (N) and night (D), at the night's peak step
+    (``NightSummary.peak_step``): as the same fields of :class:`ChanceGrid`, by night."""
+
+    look_azimuth_deg: np.ndarray  # (N, D)
+    look_elevation_deg: np.ndarray  # (N, D)
+    overhead: np.ndarray  # (N, D) bool
+
+
+@dataclass
+class NightsOverview:
+    """A run of nights worked out a few at a time (:func:`compute_nights`): what a report
+    over many nights reads besides the :class:`NightSummary`.
+
+    The per-step fields keep the time axis (T,); ``darkness``, ``dark_sky`` and ``sun_alt``
+    hold one row (1, T) standing for all the sites together (the darkest any site gets:
+    the largest ``darkness``, any ``dark_sky``, the lowest sun), which is all a report over
+    the sites reads of them. The warnings and the cloud note are those of one grid over
+    all the nights."""
+
+    times_utc: np.ndarray  # (T,) datetime64[s]
+    night_index: np.ndarray  # (T,)
+    step_min: float
+    kind: np.ndarray  # (T,)
+    outing: np.ndarray  # (T,) bool
+    outing_hours: str
+    darkness: np.ndarray  # (1, T)
+    dark_sky: np.ndarray  # (1, T) bool
+    sun_alt: np.ndarray  # (1, T)
+    look: PeakLook
+    warnings: list
+    cloud_note: str
+    cloud_models: list
+
+
+def night_runs(night_index, n_sites, site_steps=NIGHTS_SITE_STEPS):
+    """(first night, last night + 1) of each run of whole nights holding at most
+    ``site_steps`` site-steps (always at least one night)."""
+    counts = np.bincount(np.asarray(night_index, int))
+    runs, first, held = [], 0, 0
+    for d, count in enumerate(counts):
+        size = int(count) * max(n_sites, 1)
+        if d > first and held + size > site_steps:
+            runs.append((first, d))
+            first, held = d, 0
+        held += size
+    if counts.size:
+        runs.append((first, counts.size))
+    return runs
+
+
+def compute_nights(sites, times_utc, night_index, step_min, nights, *, tz, settings,
+                   cloud=None, each=None, site_steps=None, table=None,
+                   warn_outside_hours=True, **grid_options):
+    """:func:`compute_grid` and :func:`summarise_nights` a few whole nights at a time.
+
+    Every value is the one grid over all the nights would give: the Kp-needed table is
+    taken at the middle of the whole span as there, each night's steps and outing hours
+    depend on that night alone, and the warnings and cloud note are joined over the runs
+    (``weather.CloudTally.join``, :func:`outside_hours_found`).
+
+    Parameters
+    ----------
+    cloud : callable, optional
+        ``cloud(times_utc) -> weather.CloudGrid`` for a run's steps; without it the
+        ``clouds`` option of :func:`compute_grid` serves.
+    each : callable, optional
+        ``each(grid, summary, first_night)`` for every run while its grid is at hand (the
+        forecast archive keeps its parts); ``grid`` counts its nights from 0.
+    site_steps : int, optional
+        Site-steps per run (``NIGHTS_SITE_STEPS``).
+    Other keywords go to :func:`compute_grid`.
+
+    Returns
+    -------
+    (NightsOverview, NightSummary)
+    """
+    times_utc = np.asarray(times_utc, dtype="datetime64[s]")
+    night_index = np.asarray(night_index)
+    if table is None:
+        table = kp_table(sites, times_utc[len(times_utc) // 2], settings.viewing)
+    n = len(sites)
+    parts, overview = [], {"kind": [], "outing": [], "darkness": [], "dark_sky": [],
+                           "sun_alt": []}
+    looks = {"look_azimuth_deg": [], "look_elevation_deg": [], "overhead": []}
+    found, tally, note, models = {}, None, "", []
+    for first, last in night_runs(night_index, n, site_steps or NIGHTS_SITE_STEPS):
+        cols = np.flatnonzero((night_index >= first) & (night_index < last))
+        grid = compute_grid(
+            sites, times_utc[cols], night_index[cols] - first, step_min, tz=tz,
+            settings=settings, table=table, warn_outside_hours=warn_outside_hours,
+            cloud=cloud(times_utc[cols]) if cloud is not None else None, **grid_options)
+        summary = summarise_nights(grid, last - first, settings.chance)
+        if each is not None:
+            each(grid, summary, first)
+        steps = np.where(summary.peak_step >= 0, summary.peak_step, 0)
+        rows = np.arange(n)[:, None]
+        for key in looks:
+            looks[key].append(getattr(grid, key)[rows, steps])
+        summary.peak_step = np.where(summary.peak_step >= 0, summary.peak_step + cols[0], -1)
+        parts.append(summary)
+        overview["kind"].append(grid.kind)
+        overview["outing"].append(grid.outing)
+        overview["darkness"].append(grid.darkness.max(axis=0, initial=0.0)[None, :])
+        overview["dark_sky"].append(grid.dark_sky.any(axis=0)[None, :])
+        overview["sun_alt"].append(grid.sun_alt.min(axis=0, initial=np.inf)[None, :]
+                                   if n else np.empty((0, cols.size)))
+        for i, steps_at in grid.outside_hours_at.items():
+            found.setdefault(i, []).extend(cols[steps_at])
+        tally = grid.cloud_tally if tally is None else tally.join(grid.cloud_tally)
+        note, models = grid.cloud_note, grid.cloud_models
+        del grid
+    # compute_grid's warnings are the cloud's, then the outside-the-hours lines: both as
+    # one grid over all the nights would give them.
+    cloud_lines, note = (tally.warnings(sites), tally.note()) if tally else ([], note)
+    warnings = cloud_lines + outside_hours_lines(
+        [s.name for s in sites], times_utc, found, int(np.unique(night_index).size),
+        settings.outing, tz)
+    outing = np.concatenate(overview["outing"])
+    from auroraplan.nights import hours_text
+
+    over = NightsOverview(
+        times_utc=times_utc, night_index=night_index, step_min=float(step_min),
+        kind=np.concatenate(overview["kind"]), outing=outing,
+        outing_hours=hours_text(times_utc, outing, tz),
+        darkness=np.concatenate(overview["darkness"], axis=1),
+        dark_sky=np.concatenate(overview["dark_sky"], axis=1),
+        sun_alt=np.concatenate(overview["sun_alt"], axis=1),
+        look=PeakLook(**{k: np.concatenate(v, axis=1) for k, v in looks.items()}),
+        warnings=warnings, cloud_note=note, cloud_models=models)
+    return over, join_summaries(parts)
+
+
+def join_summaries(parts) -> NightSummary:
+    """One :class:`NightSummary` from summaries of consecutive runs of nights."""
+    return NightSummary(**{
+        f.name: np.concatenate([getattr(p, f.name) for p in parts],
+                               axis=0 if f.name == "kind" else 1)
+        for f in dataclasses.fields(NightSummary)})
 
 
 WORKING_MARGIN_MIN = 60.0
@@ -427,11 +580,14 @@ class _StepsAt:
         of a clear sky (0), no cloud figure (NaN) and no source elsewhere."""
         import dataclasses
 
+        from auroraplan.weather import NO_SOURCE
+
         if self.every:
             return grid
         return dataclasses.replace(
             grid, p_clear=self.full(grid.p_clear, 0.0), cloud_pct=self.full(grid.cloud_pct, np.nan),
-            source=self.full(grid.source, None), model_pct=self.full(grid.model_pct, np.nan),
+            source_code=self.full(grid.source_code, NO_SOURCE),
+            model_pct=self.full(grid.model_pct, np.nan),
             model_weight=self.full(grid.model_weight, 0.0),
             spread_pct=self.full(grid.spread_pct, np.nan))
 
@@ -478,16 +634,15 @@ OUTSIDE_HOURS_SHOWN = 5
 """Sites named one by one in the outside-the-hours warning; the rest are counted."""
 
 
-def outside_hours_warnings(names, times_utc, night_index, unlimited, usable, hours, tz):
-    """Lines naming sites whose best time falls outside the operator's outing hours.
+def outside_hours_found(night_index, unlimited, usable) -> dict:
+    """Site index -> the best steps, one per night, of the site-nights whose best time
+    falls outside the operator's outing hours, in the order met night by night.
 
     ``unlimited`` (N, T) is the chance with darkness but no outing hours; ``usable`` (N, T)
-    the steps a group can be at each site. A site-night is named when its best step lies
+    the steps a group can be at each site. A site-night counts when its best step lies
     outside ``usable`` and beats the best inside by more than the tie margin of the best
-    window (0.1 %). One line per site, with the nights affected and the clock times.
+    window (0.1 %). :func:`outside_hours_lines` words them, one line per site.
     """
-    from auroraplan import nights
-
     values = np.nan_to_num(np.asarray(unlimited, float), nan=0.0)
     night_index = np.asarray(night_index)
     found: dict[int, list] = {}
@@ -500,9 +655,16 @@ def outside_hours_warnings(names, times_utc, night_index, unlimited, usable, hou
         outside = ~usable[np.arange(block.shape[0]), cols[best]]
         for i in np.flatnonzero(outside & (top > 0) & (top > inside * (1.0 + 1e-3) + 1e-12)):
             found.setdefault(int(i), []).append(cols[best[i]])
+    return found
+
+
+def outside_hours_lines(names, times_utc, found, n_nights, hours, tz):
+    """One line per site of ``found`` (:func:`outside_hours_found`) over ``n_nights``
+    nights, with the nights affected and the clock times; the rest counted."""
+    from auroraplan import nights
+
     if not found:
         return []
-    n_nights = np.unique(night_index).size
     lines = []
     for i in list(found)[:OUTSIDE_HOURS_SHOWN]:
         clocks = sorted(nights.local_minutes(np.asarray(times_utc)[found[i]], tz),

@@ -289,9 +289,8 @@ def tonight_report(ws, date: dt.date, top: int | None = None, now=None, climatol
 
     ``solar_wind`` (a ``workspace.SolarWindFile``) lays the Kp estimated from upstream
     measurements over the forecast for the hours it covers; the report's ``nowcast``
-    block says from when and until when. ``keep_chances(grid, summary, site_names,
-    dates)``, when given, receives the chances computed (the forecast archive,
-    auroraplan.archive).
+    block says from when and until when. ``keep_chances(parts)``, when given, receives
+    the chances computed (``archive.issued_part`` of the grid: the forecast archive).
     """
     tz = ws.operator.timezone
     sites = [s for s in ws.sites if not s.closed]
@@ -303,7 +302,10 @@ def tonight_report(ws, date: dt.date, top: int | None = None, now=None, climatol
     grid, summary = _grid_for_nights(ws, sites or [_base_site(ws)], date, 1, DEFAULT_STEP_MIN,
                                      climatology, nowcast=cast)
     if keep_chances and sites:
-        keep_chances(grid, summary, [s.name for s in sites], [date])
+        from auroraplan import archive
+
+        keep_chances([archive.issued_part(grid, summary, [s.name for s in sites], [date],
+                                          ws.settings.chance.decorrelation_min)])
     order = rank_sites(summary.p_any[:, 0]) if sites else []
     if top:
         order = order[:top]
@@ -606,19 +608,22 @@ CLOUD_SOURCE_WORDS = {
     "climatology": "climate average",
     "default": "default clear-sky share",
 }
-"""How each source of a cloud figure (weather.CloudGrid.source) is named in reports."""
+"""How each source of a cloud figure (weather.SOURCES) is named in reports."""
 
 
 def cloud_at_step(grid, i, step) -> dict:
     """The cloud at site ``i`` at one time step: the figure used, where it came from, each
     weather model's value and the models' spread (largest minus smallest)."""
+    from auroraplan import weather
+
     models = {}
     if grid.cloud_model_pct is not None:
         for m, name in enumerate(grid.cloud_models):
             value = grid.cloud_model_pct[m, i, step]
             if np.isfinite(value):
                 models[name] = _num(value, 1)
-    source = grid.cloud_source[i, step] if grid.cloud_source is not None else None
+    source = (weather.source_names(grid.cloud_source_code[i, step])[()]
+              if grid.cloud_source_code is not None else None)
     spread = grid.cloud_spread_pct[i, step] if grid.cloud_spread_pct is not None else np.nan
     return {
         "cloud_pct": _num(grid.cloud_pct[i, step], 1),
@@ -636,12 +641,15 @@ def _window_cloud(grid, summary, i) -> dict:
         np.zeros(grid.times_utc.shape, bool)
     if not sel.any():
         return {"cloud_source": None, "cloud_models": {}, "cloud_spread_pct": None}
+    from auroraplan import weather
+
     models = {}
     for m, name in enumerate(grid.cloud_models):
         values = grid.cloud_model_pct[m, i, sel]
         if np.isfinite(values).any():
             models[name] = _num(np.nanmean(values), 0)
-    sources, counts = np.unique(grid.cloud_source[i, sel], return_counts=True)
+    sources, counts = np.unique(weather.source_names(grid.cloud_source_code[i, sel]),
+                                return_counts=True)
     spread = grid.cloud_spread_pct[i, sel]
     return {
         "cloud_source": CLOUD_SOURCE_WORDS.get(sources[np.argmax(counts)]),
@@ -722,10 +730,9 @@ def week_report(ws, start: dt.date, nights: int = 7, now=None,
     sites = ws.sites
     if climatology is None:
         climatology = workspace_climatology(ws)
-    grid, summary = _grid_for_nights(ws, sites, start, nights, DEFAULT_STEP_MIN, climatology)
     dates = [start + dt.timedelta(days=d) for d in range(nights)]
-    if keep_chances and sites:
-        keep_chances(grid, summary, [s.name for s in sites], dates)
+    grid, summary = _nights_for_week(ws, sites, start, nights, climatology,
+                                     keep_chances if sites else None)
     trips = ws.trips
 
     value, allowed, in_stay, blocked = _plan_inputs(ws, summary, dates)
@@ -813,7 +820,7 @@ def week_report(ws, start: dt.date, nights: int = 7, now=None,
             lat=site.lat, lon=site.lon,
             backup_lat=sites[b].lat if b is not None else None,
             backup_lon=sites[b].lon if b is not None else None,
-            **(look_fields(grid, s, summary.peak_step[s, d]) if summary.peak_step[s, d] >= 0
+            **(look_fields(grid.look, s, d) if summary.peak_step[s, d] >= 0
                else plans.NO_LOOK),
             kind=summary.kind[d],
             state=fixed_at.get((r, d), (None, "proposed"))[1],
@@ -853,6 +860,33 @@ def week_report(ws, start: dt.date, nights: int = 7, now=None,
         cautions=tuple(CAUTIONS),
         notice=FORECAST_NOT_PROMISE,
     )
+
+
+def _nights_for_week(ws, sites, start, nights, climatology, keep_chances=None):
+    """(chance.NightsOverview, chance.NightSummary) of the week, worked out a few nights at
+    a time (chance.compute_nights) so that many sites never hold every step of the week
+    at once; ``keep_chances`` receives the archive's parts of every run of nights."""
+    from auroraplan import archive, chance
+    from auroraplan import nights as nights_mod
+
+    tz = ws.operator.timezone
+    times, night_index = nights_mod.night_times(start, nights, tz, DEFAULT_STEP_MIN)
+    names = [s.name for s in sites]
+    parts = []
+
+    def keep(grid, summary, first):
+        parts.append(archive.issued_part(
+            grid, summary, names, [start + dt.timedelta(days=first + d)
+                                   for d in range(summary.p_any.shape[1])],
+            ws.settings.chance.decorrelation_min))
+
+    overview, summary = chance.compute_nights(
+        sites, times, night_index, DEFAULT_STEP_MIN, nights, tz=tz, settings=ws.settings,
+        activity=ws.activity, climatology=climatology,
+        cloud=lambda at: cloud_for(ws, sites, at), each=keep if keep_chances else None)
+    if keep_chances:
+        keep_chances(parts)
+    return overview, summary
 
 
 def _week_forecast_info(ws, grid, summary) -> plans.ForecastSource:

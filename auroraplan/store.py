@@ -163,6 +163,11 @@ MIGRATIONS: list[Migration] = [
         )""",
         "CREATE INDEX issued_cloud_site_night ON issued_cloud(site, night)",
     )),
+    Migration(4, "the hours and each model's cloud packed into the night rows (archive.py)", (
+        "ALTER TABLE issue_runs ADD COLUMN models TEXT NOT NULL DEFAULT '[]'",  # JSON names
+        "ALTER TABLE issued_nights ADD COLUMN hours BLOB",  # archive.HOUR_FIELDS per dark hour
+        "ALTER TABLE issued_nights ADD COLUMN cloud BLOB",  # archive.CLOUD_FIELDS per hour, model
+    )),
 ]
 """The schema, step by step. Append a `Migration` with the next version to change it;
 never edit or reorder a step that has been released."""

@@ -89,6 +89,46 @@ def cloud_at(times_s, forecast_s, forecast_pct, max_gap_h=6.0, hold_h=END_HOLD_H
     return out.reshape(shape)
 
 
+def cloud_at_sites(times_s, forecasts, max_gap_h=6.0, hold_h=END_HOLD_H):
+    """``cloud_at`` for many sites at once, each with its own forecast steps: (N, T).
+
+    ``forecasts`` holds per site (times in seconds ascending, percent) or None. The same
+    rule and the same arithmetic as ``cloud_at`` per site, worked out over all the sites'
+    steps in one pass (each site's steps found by one search over a key that orders the
+    sites one after another)."""
+    times_s = np.asarray(times_s, dtype=np.int64)
+    n = len(forecasts)
+    out = np.full((n, times_s.size), np.nan)
+    have = [i for i, f in enumerate(forecasts) if f is not None and len(f[0])]
+    if not have or not times_s.size:
+        return out
+    f_s = np.concatenate([np.asarray(forecasts[i][0], np.int64) for i in have])
+    f_pct = np.concatenate([np.asarray(forecasts[i][1], float) for i in have])
+    sizes = np.array([len(forecasts[i][0]) for i in have])
+    ends = np.cumsum(sizes)
+    starts = ends - sizes
+    low = min(int(f_s.min()), int(times_s.min()))
+    span = max(int(f_s.max()), int(times_s.max())) - low + 1
+    rank = np.repeat(np.arange(len(have), dtype=np.int64), sizes)
+    key = rank * span + (f_s - low)
+    want = np.arange(len(have), dtype=np.int64)[:, None] * span + (times_s - low)[None, :]
+    first, last = starts[:, None], ends[:, None] - 1
+    after = np.clip(np.searchsorted(key, want), first, last)
+    before = np.clip(np.searchsorted(key, want, side="right") - 1, first, last)
+    del want
+    t_before, t_after = f_s[before], f_s[after]
+    gap = t_after - t_before
+    frac = np.where(gap > 0, (times_s - t_before) / np.where(gap > 0, gap, 1), 0.0)
+    between = (t_before <= times_s) & (times_s <= t_after) & (gap <= max_gap_h * 3600.0)
+    d_before = np.abs(times_s - t_before)
+    d_after = np.abs(t_after - times_s)
+    nearest = np.where(d_before <= d_after, before, after)
+    held = np.minimum(d_before, d_after) <= hold_h * 3600.0
+    linear = f_pct[before] * (1 - frac) + f_pct[after] * frac
+    out[have] = np.where(between, linear, np.where(held, f_pct[nearest], np.nan))
+    return out
+
+
 def local_month_index(lon_deg, times_utc, tz=None):
     """Month (0 = January) at each site and time, for the monthly climatology.
 
@@ -199,13 +239,29 @@ class CloudGrid:
 
     p_clear: np.ndarray  # (N, T) 0..1, never NaN
     cloud_pct: np.ndarray  # (N, T) the figure used, percent; NaN = climatology
-    source: np.ndarray  # (N, T) str: "clouds.csv" | "models" | "climatology" | "default"
+    source_code: np.ndarray  # (N, T) uint8: index into SOURCES, NO_SOURCE where none
     models: list  # (M,) model names
     model_pct: np.ndarray  # (M, N, T) each model's cloud (mean over its members); NaN = none
     model_weight: np.ndarray  # (M, N, T) weight of each model in the figure
     spread_pct: np.ndarray  # (N, T) largest minus smallest model value; NaN with < 2 models
     warnings: list = field(default_factory=list)
     note: str = ""  # one sentence: where the cloud figures come from
+    tally: CloudTally | None = None  # what the warnings and the note rest on
+
+    @property
+    def source(self) -> np.ndarray:
+        """(N, T) the source names ("clouds.csv", "models", "climatology", "default"; None
+        where no figure was worked out)."""
+        return source_names(self.source_code)
+
+    def at_steps(self, cols) -> CloudGrid:
+        """The same grid at some of its time steps (an index or mask of the last axis)."""
+        return CloudGrid(
+            p_clear=self.p_clear[:, cols], cloud_pct=self.cloud_pct[:, cols],
+            source_code=self.source_code[:, cols], models=self.models,
+            model_pct=self.model_pct[..., cols], model_weight=self.model_weight[..., cols],
+            spread_pct=self.spread_pct[:, cols], warnings=list(self.warnings), note=self.note,
+            tally=self.tally)
 
 
 def blend_models(model_pct, weight):
@@ -359,8 +415,26 @@ def models_at_reports(series, names, reports, settings=WeatherSettings()):
 
 
 SOURCES = np.array(["clouds.csv", "models", "climatology", "default"], dtype=object)
-"""The names ``CloudGrid.source`` holds (an object array of these four strings: a tenth of
-the memory of a fixed-width text array over many sites and steps)."""
+"""The sources of a cloud figure, in order of trust; ``CloudGrid.source_code`` holds their
+index (one byte per site and step)."""
+NO_SOURCE = 255
+"""``CloudGrid.source_code`` where no figure was worked out (steps left out of the work)."""
+
+
+def source_names(code) -> np.ndarray:
+    """The source names of ``source_code`` values (None for ``NO_SOURCE``)."""
+    code = np.asarray(code)
+    names = np.full(code.shape, None, dtype=object)
+    known = code != NO_SOURCE
+    names[known] = SOURCES[code[known]]
+    return names
+
+
+def sources_used(code) -> set:
+    """The names of the sources among ``source_code`` values, by counting each code (no
+    sort over the sites and steps)."""
+    counts = np.bincount(np.asarray(code, np.uint8).ravel(), minlength=NO_SOURCE + 1)
+    return {SOURCES[c] for c in np.flatnonzero(counts[:len(SOURCES)])}
 
 
 def cloud_grid(sites, clouds_df, times_utc, tz=None, reading=None, reports=(),
@@ -397,21 +471,16 @@ def cloud_grid(sites, clouds_df, times_utc, tz=None, reading=None, reports=(),
     reach = 3600 * max(settings.max_gap_h, END_HOLD_H)
     forecasts = _forecast_by_site(clouds_df, (times_s.min() - reach, times_s.max() + reach)
                                   if times_s.size else None)
-    empty = (np.array([], dtype=np.int64), np.array([], dtype=float))
-    csv_cloud = np.stack(
-        [cloud_at(times_s, *forecasts.get(site.name, empty), settings.max_gap_h)
-         for site in sites]) if sites else np.empty((0, times.size))
+    csv_cloud = cloud_at_sites(times_s, [forecasts.get(site.name) for site in sites],
+                               settings.max_gap_h)
 
     series = reading.series if reading is not None else []
-    warnings = list(reading.warnings) if reading is not None else []
     names, model_pct, used = models_at(series, times_s, settings)
+    files = {}
     for path, gave in used.items():
-        if not gave:
-            mine = [s.valid_utc for s in series if s.file == path]
-            first = min(v[0] for v in mine if v.size)
-            last = max(v[-1] for v in mine if v.size)
-            warnings.append(f"{path}: its valid times ({first}Z to {last}Z) miss the nights "
-                            "asked for; the file is not used")
+        mine = [s.valid_utc for s in series if s.file == path and s.valid_utc.size]
+        files[path] = (gave, min((v[0] for v in mine), default=None),
+                       max((v[-1] for v in mine), default=None))
     reports = list(reports)
     if report_reading is not None:
         at_report = models_at_reports(report_reading.series, names, reports, settings)
@@ -423,15 +492,8 @@ def cloud_grid(sites, clouds_df, times_utc, tz=None, reading=None, reports=(),
                 t = np.array([np.datetime64(report.time_utc, "s").astype(np.int64)])
                 at_report[:, r] = models_at(series, t, settings)[1][:, index[report.site], 0]
     weight, sky_lines = sky_weights(sites, times_s, names, reports, at_report, settings)
-    warnings.extend(sky_lines)
     model_cloud, spread = blend_models(model_pct, weight) if names else (
         np.full((n, times.size), np.nan), np.full((n, times.size), np.nan))
-    if names:
-        missed = [site.name for i, site in enumerate(sites)
-                  if not np.isfinite(model_pct[:, i]).any()]
-        if missed and len(missed) < n:
-            warnings.append(f"weather-model files: no grid covers {', '.join(missed)}; "
-                            "cloud there comes from clouds.csv or climatology")
 
     climatology = np.array(
         [site.clear_by_month if site.clear_by_month is not None else [np.nan] * 12
@@ -445,28 +507,86 @@ def cloud_grid(sites, clouds_df, times_utc, tz=None, reading=None, reports=(),
     from_models = ~from_csv & np.isfinite(model_cloud)
     cloud = np.where(from_csv, csv_cloud, model_cloud)
     p_clear = np.where(np.isnan(cloud), fallback, clear_fraction(cloud))
-    code = np.where(from_csv, 0, np.where(from_models, 1, np.where(np.isnan(monthly), 3, 2)))
-    source = SOURCES[code.astype(np.uint8)]
-    overlap = from_csv & np.isfinite(model_cloud)
-    if overlap.any():
-        warnings.append(f"clouds.csv overrides the weather-model files at "
-                        f"{int(overlap.any(axis=1).sum())} site(s) for the hours it covers")
-    needs_default = np.isnan(cloud) & np.isnan(monthly)
-    warnings.extend(
-        f"site {site.name!r}: no cloud forecast and no clear_by_month for some hours; "
-        f"using P(clear) = {DEFAULT_CLEAR}"
-        for site, flag in zip(sites, needs_default.any(axis=1), strict=True) if flag
-    )
-    told = reading is not None or clouds_df is not None
-    return CloudGrid(p_clear=p_clear, cloud_pct=cloud, source=source, models=names,
+    code = np.where(from_csv, 0, np.where(from_models, 1, np.where(np.isnan(monthly), 3, 2))
+                    ).astype(np.uint8)
+    tally = CloudTally(
+        lines=list(reading.warnings) if reading is not None else [], files=files,
+        sky_lines=sky_lines, names=list(names),
+        model_seen=np.isfinite(model_pct).any(axis=(0, 2)) if names else np.zeros(n, bool),
+        overlap=(from_csv & np.isfinite(model_cloud)).any(axis=1),
+        needs_default=(np.isnan(cloud) & np.isnan(monthly)).any(axis=1),
+        used=sources_used(code), have_values=bool(np.isfinite(model_pct).any()),
+        told=reading is not None or clouds_df is not None)
+    return CloudGrid(p_clear=p_clear, cloud_pct=cloud, source_code=code, models=names,
                      model_pct=model_pct, model_weight=weight, spread_pct=spread,
-                     warnings=warnings, note=source_note(source, names, bool(np.isfinite(model_pct).any()))
-                     if told else "")
+                     warnings=tally.warnings(sites), note=tally.note(), tally=tally)
 
 
-def source_note(source, names, have_values=False) -> str:
-    """One sentence saying where the cloud figures come from (``CloudGrid.source``)."""
-    used = set(np.unique(source).tolist())
+@dataclass
+class CloudTally:
+    """What the warnings and the note of a ``CloudGrid`` rest on, in a form that runs of
+    time steps worked out one after another join into the whole (``join``), so that a
+    week worked night by night says what one grid over the week would say."""
+
+    lines: list  # the files' own warnings
+    files: dict  # path -> (gave a value at some step, first valid time, last valid time)
+    sky_lines: list  # one line per sky report (sky_weights)
+    names: list  # model names
+    model_seen: np.ndarray  # (N,) bool: some model has a value at the site at some step
+    overlap: np.ndarray  # (N,) bool: clouds.csv and a model both have a value at some step
+    needs_default: np.ndarray  # (N,) bool: DEFAULT_CLEAR stands in at some step
+    used: set  # the source names among the figures
+    have_values: bool  # some model has a value somewhere
+    told: bool  # clouds.csv or weather files were given
+
+    def join(self, other: CloudTally) -> CloudTally:
+        """The tally over this grid's steps and ``other``'s (same sites and files)."""
+        return CloudTally(
+            lines=list(dict.fromkeys(self.lines + other.lines)),
+            files={p: (self.files.get(p, (False,))[0] or other.files.get(p, (False,))[0],
+                       *(self.files.get(p) or other.files[p])[1:])
+                   for p in dict.fromkeys([*self.files, *other.files])},
+            sky_lines=list(dict.fromkeys(self.sky_lines + other.sky_lines)),
+            names=self.names or other.names, model_seen=self.model_seen | other.model_seen,
+            overlap=self.overlap | other.overlap,
+            needs_default=self.needs_default | other.needs_default,
+            used=self.used | other.used, have_values=self.have_values or other.have_values,
+            told=self.told or other.told)
+
+    def warnings(self, sites) -> list:
+        """The grid's warnings, in order: the files', files that gave nothing, the sky
+        reports, sites no model covers, where clouds.csv wins, where the default stands."""
+        lines = list(self.lines)
+        for path, (gave, first, last) in self.files.items():
+            if not gave:
+                lines.append(f"{path}: its valid times ({first}Z to {last}Z) miss the nights "
+                             "asked for; the file is not used")
+        lines.extend(self.sky_lines)
+        if self.names:
+            missed = [site.name for site, seen in zip(sites, self.model_seen, strict=True)
+                      if not seen]
+            if missed and len(missed) < len(sites):
+                lines.append(f"weather-model files: no grid covers {', '.join(missed)}; "
+                             "cloud there comes from clouds.csv or climatology")
+        if self.overlap.any():
+            lines.append(f"clouds.csv overrides the weather-model files at "
+                         f"{int(self.overlap.sum())} site(s) for the hours it covers")
+        lines.extend(
+            f"site {site.name!r}: no cloud forecast and no clear_by_month for some hours; "
+            f"using P(clear) = {DEFAULT_CLEAR}"
+            for site, flag in zip(sites, self.needs_default, strict=True) if flag)
+        return lines
+
+    def note(self) -> str:
+        """One sentence saying where the cloud figures come from (``source_note``), or ""
+        when neither clouds.csv nor weather files were given."""
+        return source_note(self.used, self.names, self.have_values) if self.told else ""
+
+
+def source_note(used, names, have_values=False) -> str:
+    """One sentence saying where the cloud figures come from: ``used`` is the set of source
+    names (``sources_used``) in the figures."""
+    used = set(used)
     parts = []
     if "clouds.csv" in used:
         parts.append("clouds.csv" + (" (it wins over the weather models)" if names else ""))
