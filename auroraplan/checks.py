@@ -393,12 +393,15 @@ def word(meanings: dict, allowed: str):
     return check
 
 
+PERCENT_CELLS = {"percent": (0, 100, 1.0, "%"), "fraction": (0, 1, 100.0, "(a fraction)")}
+"""What a cloud cell in each unit may hold: (lowest, highest, factor to percent, unit word)."""
+
+
 def percent_cell(unit: str):
     """Checker of a CSV cell in ``unit`` ("percent" or "fraction"): returns percent."""
-    if unit == "fraction":
-        fraction = cell_number(0, 1, "(a fraction)")
-        return lambda value: 100.0 * fraction(value)
-    return cell_number(0, 100, "%")
+    low, high, factor, word = PERCENT_CELLS[unit]
+    check = cell_number(low, high, word)
+    return check if factor == 1.0 else lambda value: factor * check(value)
 
 
 def json_list(value, problem: str):

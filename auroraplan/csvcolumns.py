@@ -1,20 +1,26 @@
 """Column-wise reading of the large CSV files (clouds.csv, activity.csv) and their tables.
 
 A forecast file can hold a million rows. Checking it row by row in Python costs tens of
-seconds; here the file is split into columns by Apache Arrow's CSV reader (C++, every
-cell kept as text) and each column is checked at once:
+seconds; here Apache Arrow's CSV reader (C++, on all cores) splits and types the file and
+each column is checked as a whole:
 
-- columns with few distinct values (site names, cloud and Kp figures, units) are checked
-  by the very checker the row-by-row reader uses, once per distinct value, and mapped back;
-- time columns, where nearly every value differs, are read from the text's bytes at once
-  when they follow a strict ISO 8601 layout (``YYYY-MM-DDTHH:MM[:SS][Z]``, UTC), then held
-  to ``checks.FILE_YEARS``.
+- text columns (site names, Kp figures, units) come dictionary-encoded: each distinct
+  cell goes once through the very checker the row-by-row reader uses (a site name the
+  sites file gives is taken as it is), and the result is mapped back to every row;
+- number columns (cloud, Kp spread) are read by Arrow's decimal reader, which takes a
+  subset of what Python's ``float`` takes and gives the same double, so only the range
+  (and a written-out "nan") is left to check, on the whole array;
+- time columns are read by Arrow's ISO 8601 reader after one check of the bytes that every
+  time gives the minutes (:func:`_times` says which forms, all read by
+  ``checks.parse_utc`` to the same instant); UTF-8 is checked by Arrow as it converts.
 
 This path only accepts: whenever a cell fails, or the file has anything it does not vouch
-for (a quoted header, a short row, a time with an offset, a repeated hour), it answers
-None and the loader reads the file row by row, which finds the bad row and names it in
-its usual one line. Files below ``COLUMNWISE_FROM_BYTES`` are read row by row directly
-(Arrow's import would cost more than it saves).
+for (a quoted header, a short row, a file mixing zoned and plain times, a repeated hour),
+it answers None and the loader reads the file row by row, which finds the bad row and names
+it in its usual one line. Every row is checked, not only those of the nights a command
+asks for: the same file gives the same errors whatever the command or its dates. Files
+below ``COLUMNWISE_FROM_BYTES`` are read row by row directly (Arrow's import would cost
+more than it saves).
 
 The tables (:class:`ActivityTable`, :class:`CloudTable`) are plain numpy columns, so the
 commands that read them need no pandas; ``to_frame()`` gives a pandas DataFrame where one
@@ -170,83 +176,163 @@ class _NotVouched(Exception):
     """The column-wise path cannot accept the file; read it row by row."""
 
 
-def _columns(path: Path, required, optional):
-    """Text columns (pyarrow arrays, cells as written) of the wanted columns present."""
+_KINDS = {
+    # how Arrow hands each kind of column over
+    "text": "dictionary",  # distinct cells, each through the row reader's checker
+    "number": "float64",  # Arrow's decimal reader; ranges checked on the array
+    "time": "string",  # cast by Arrow's ISO 8601 reader after a layout check
+}
+
+
+def _columns(path: Path, required, optional, kinds: dict):
+    """The wanted columns present, as Arrow chunked arrays typed by ``kinds`` (column ->
+    "text", "number" or "time", see ``_KINDS``).
+
+    The bytes are checked as they are converted: Arrow refuses text cells that are not
+    UTF-8, and a NUL fails every checker, number and time; other columns are read as
+    text for that check alone. A number cell left empty is null; a text cell never is."""
     import pyarrow as pa
+    import pyarrow.compute as pc
     import pyarrow.csv as pcsv
 
-    data = path.read_bytes()
-    if data.startswith(b"\xef\xbb\xbf"):
-        data = data[3:]
+    with path.open("rb") as stream:
+        first = b""
+        while b"\n" not in first and (part := stream.read(1 << 16)):
+            first += part
+    first = first.split(b"\n", 1)[0].removeprefix(b"\xef\xbb\xbf").rstrip(b"\r")
     try:
-        data.decode("utf-8")
+        first = first.decode("utf-8")
     except UnicodeDecodeError:
         raise _NotVouched from None
-    if b"\x00" in data:
-        raise _NotVouched
-    first = data.split(b"\n", 1)[0].decode("utf-8").rstrip("\r")
-    if '"' in first or "\r" in first:
+    if '"' in first or "\r" in first or "\x00" in first:
         raise _NotVouched
     header = [h.strip().lower() for h in next(csv.reader(io.StringIO(first)), [])]
     if any(c not in header for c in required) or len(set(header)) < len(header):
         raise _NotVouched
     wanted = [c for c in (*required, *optional) if c in header]
+    types = {"dictionary": pa.dictionary(pa.int32(), pa.string()), "float64": pa.float64(),
+             "string": pa.string()}
     try:
         table = pcsv.read_csv(
-            io.BytesIO(data),
+            pa.memory_map(str(path)),
             read_options=pcsv.ReadOptions(skip_rows=1, column_names=header),
             parse_options=pcsv.ParseOptions(newlines_in_values=False, ignore_empty_lines=True),
             convert_options=pcsv.ConvertOptions(
-                include_columns=wanted, column_types={c: pa.string() for c in wanted},
-                strings_can_be_null=False, quoted_strings_can_be_null=False),
+                column_types={c: types[_KINDS[kinds[c]]] if c in wanted else pa.string()
+                              for c in header},
+                null_values=[""], strings_can_be_null=False, quoted_strings_can_be_null=False),
         )
-    except (pa.ArrowInvalid, pa.ArrowException):
+    except (pa.ArrowInvalid, pa.ArrowException, OSError):
         raise _NotVouched from None
     if table.num_rows == 0:
         raise _NotVouched
+    for other in set(header) - set(wanted):
+        if pc.any(pc.match_substring(table.column(other), "\x00")).as_py():
+            raise _NotVouched
     return {c: table.column(c) for c in wanted}
 
 
-def _distinct(column, checker, dtype=float):
-    """``checker`` applied to each distinct text of a column: (values (K,), index (R,)).
+def _distinct(column, checker, known=frozenset()):
+    """``checker`` applied once to each distinct cell of a text column: (values (K,), the
+    value's index for every row (R,)). Cells the checker reads alike (" A" and "A") share
+    one value; the checker strips the cell itself, as it does in the row reader. A cell
+    in ``known`` is one the checker returns unchanged, taken without calling it."""
+    column = column.unify_dictionaries()  # one dictionary for every chunk
+    if not column.num_chunks:
+        return [], np.empty(0, dtype=np.int64)
+    index_of_value, values = {}, []
+    texts = column.chunk(0).dictionary.to_pylist()
+    remap = np.empty(len(texts), dtype=np.int64)
+    for k, text in enumerate(texts):
+        if text in known:
+            value = text
+        else:
+            try:
+                value = checker(text)
+            except ValueError:
+                raise _NotVouched from None
+        if value not in index_of_value:
+            index_of_value[value] = len(values)
+            values.append(value)
+        remap[k] = index_of_value[value]
+    codes = np.concatenate([chunk.indices.to_numpy(zero_copy_only=False)
+                            for chunk in column.chunks])
+    same = len(values) == len(texts) and np.array_equal(remap, np.arange(len(texts)))
+    return values, codes if same else remap[codes]
 
-    The checker strips the cell itself, as it does in the row reader."""
+
+def _numbers(column, empty_allowed=False) -> np.ndarray:
+    """A number column as float64; an empty cell is NaN where ``empty_allowed``. Arrow's
+    decimal reader accepts a subset of what Python's ``float`` reads (no "1_0", no
+    padding it does not trim) and gives the same double for it, so only the range is left
+    to check (:func:`_within`)."""
+    if column.null_count and not empty_allowed:
+        raise _NotVouched
+    values = column.to_numpy()
+    if np.count_nonzero(np.isnan(values)) != column.null_count:
+        raise _NotVouched  # "nan" written out: the row reader refuses it
+    return values
+
+
+def _within(values, low, high) -> np.ndarray:
+    """``values`` when every one given (not NaN) is finite, from ``low`` to ``high``."""
+    given = values[~np.isnan(values)] if np.isnan(values).any() else values
+    if given.size and not (given.min() >= low and given.max() <= high):
+        raise _NotVouched  # also for infinities, which lie beyond any finite bound
+    return values
+
+
+_TIME_MIN_LENGTH = 16
+"""``YYYY-MM-DDThh:mm``: a time must give the minutes (the row reader's ``checks.parse_utc``
+refuses the hour alone, which Arrow's ISO 8601 reader takes)."""
+
+
+def _times(column) -> np.ndarray:
+    """ISO 8601 texts as UTC datetime64[s] within ``checks.FILE_YEARS``.
+
+    Arrow's ISO 8601 reader (``pyarrow.compute.cast`` to a timestamp) reads
+    ``YYYY-MM-DD[T ]hh:mm[:ss]`` with "Z" or an offset (``+hh``, ``+hhmm``, ``+hh:mm``)
+    into a zoned type, or without one into a plain type; it refuses impossible dates and
+    hours, fractions of seconds (at a unit of seconds) and padding. Each of those forms is
+    read by ``checks.parse_utc`` to the same instant. Arrow also takes the date alone and
+    the hour without minutes, which ``parse_utc`` refuses: every text must therefore be at
+    least ``_TIME_MIN_LENGTH`` long with ":" after the hour, checked on the bytes first.
+    A file mixing zoned and plain times is left to the row reader.
+    """
+    import pyarrow as pa
     import pyarrow.compute as pc
 
-    distinct = pc.unique(column)
-    values = []
-    for text in distinct.to_pylist():
-        try:
-            values.append(checker(text))
-        except ValueError:
-            raise _NotVouched from None
-    index = pc.index_in(column, value_set=distinct)
-    return np.array(values, dtype=dtype), index.to_numpy()
+    from auroraplan.checks import FILE_YEARS
 
-
-def _by_value(column, checker, dtype=float) -> np.ndarray:
-    """``checker`` applied to each distinct text of a column, mapped back to every row."""
-    values, index = _distinct(column, checker, dtype)
-    return values[index]
-
-
-_TIME_LAYOUTS = {
-    # text length: (digit positions, separator positions and characters); all UTC
-    16: "dddd-dd-ddTdd:dd",
-    17: "dddd-dd-ddTdd:ddZ",
-    19: "dddd-dd-ddTdd:dd:dd",
-    20: "dddd-dd-ddTdd:dd:ddZ",
-}
-"""The times the column-wise path reads itself: ISO 8601 in UTC ("Z" or no zone), to the
-minute or second. ``checks.parse_utc`` reads each of them to the same instant."""
-
-
-_MONTH_DAYS = np.array([31, 28, 31, 30, 31, 30, 31, 31, 30, 31, 30, 31])
+    for chunk in column.chunks:
+        if chunk.null_count or not isinstance(chunk, pa.StringArray):
+            raise _NotVouched
+        if not len(chunk):
+            continue
+        _, offsets, data = chunk.buffers()
+        offsets = np.frombuffer(offsets, dtype=np.int32)[chunk.offset:
+                                                         chunk.offset + len(chunk) + 1]
+        text = np.frombuffer(data, dtype=np.uint8)
+        if (np.diff(offsets).min() < _TIME_MIN_LENGTH
+                or np.any(text[offsets[:-1] + 13] != ord(":"))):
+            raise _NotVouched
+    first = column[0].as_py()
+    zoned = any(c in first[_TIME_MIN_LENGTH:] for c in "Z+-")
+    try:
+        stamps = pc.cast(column, pa.timestamp("s", tz="UTC") if zoned else pa.timestamp("s"))
+    except (pa.ArrowInvalid, pa.ArrowException):
+        raise _NotVouched from None
+    seconds = stamps.cast(pa.int64()).to_numpy()
+    lowest = _days_from_civil(FILE_YEARS[0], 1, 1) * 86400
+    beyond = _days_from_civil(FILE_YEARS[1] + 1, 1, 1) * 86400
+    if seconds.min() < lowest or seconds.max() >= beyond:
+        raise _NotVouched
+    return seconds.view("datetime64[s]")
 
 
 def _days_from_civil(year, month, day):
-    """Days since 1970-01-01 of proleptic Gregorian dates (arrays), by H. Hinnant's
-    algorithm ("chrono-compatible low-level date algorithms", 2013): years from March."""
+    """Days since 1970-01-01 of a proleptic Gregorian date, by H. Hinnant's algorithm
+    ("chrono-compatible low-level date algorithms", 2013): years from March."""
     y = year - (month <= 2)
     era = y // 400
     yoe = y - era * 400
@@ -255,79 +341,17 @@ def _days_from_civil(year, month, day):
     return era * 146097 + doe - 719468
 
 
-def _times(column) -> np.ndarray:
-    """ISO 8601 UTC texts of ``_TIME_LAYOUTS`` as datetime64[s], within checks.FILE_YEARS.
-
-    The text bytes are laid out as a (rows, length) array: every character is checked at
-    its position and the fields are read as numbers, all at once; dates that do not exist
-    (30 February) and hours or minutes out of range are refused.
-    """
-    import pyarrow as pa
-
-    if isinstance(column, pa.ChunkedArray):
-        parts = [_times(chunk) for chunk in column.chunks]
-        return np.concatenate(parts) if parts else np.empty(0, dtype="datetime64[s]")
-    return _times_of(column)
-
-
-def _times_of(array) -> np.ndarray:
-    """:func:`_times` of one Arrow string array."""
-    import pyarrow as pa
-
-    from auroraplan.checks import FILE_YEARS
-
-    if array.null_count or not isinstance(array, pa.StringArray):
-        raise _NotVouched
-    _, offsets, data = array.buffers()
-    offsets = np.frombuffer(offsets, dtype=np.int32)[array.offset:array.offset + len(array) + 1]
-    text = np.frombuffer(data, dtype=np.uint8)
-    lengths = np.diff(offsets)
-    out = np.empty(len(array), dtype="datetime64[s]")
-    for length in np.unique(lengths):
-        layout = _TIME_LAYOUTS.get(int(length))
-        if layout is None:
-            raise _NotVouched
-        rows = np.flatnonzero(lengths == length)
-        start = offsets[rows[0]]
-        if rows.size == len(array) and offsets[-1] - start == rows.size * length:
-            cells = text[start:start + rows.size * length].reshape(rows.size, length)
-        else:
-            cells = text[offsets[rows][:, None] + np.arange(length)]  # (rows, length) bytes
-        low = np.array([48 if c == "d" else ord(c) for c in layout], dtype=np.uint8)
-        high = np.array([57 if c == "d" else ord(c) for c in layout], dtype=np.uint8)
-        if not np.all((cells >= low) & (cells <= high)):
-            raise _NotVouched
-
-        def field(at, width, cells=cells):
-            total = cells[:, at].astype(np.int64) - 48
-            for i in range(1, width):
-                total = total * 10 + cells[:, at + i] - 48
-            return total
-
-        year, month, day = field(0, 4), field(5, 2), field(8, 2)
-        hour, minute = field(11, 2), field(14, 2)
-        second = field(17, 2) if length >= 19 else 0
-        if (np.any((year < FILE_YEARS[0]) | (year > FILE_YEARS[1])) or np.any(month < 1)
-                or np.any(month > 12) or np.any(day < 1) or np.any(hour > 23)
-                or np.any(minute > 59) or np.any(second > 59)):
-            raise _NotVouched
-        leap = (year % 4 == 0) & ((year % 100 != 0) | (year % 400 == 0))
-        if np.any(day > _MONTH_DAYS[month - 1] + (leap & (month == 2))):
-            raise _NotVouched  # a day the month does not have
-        seconds = _days_from_civil(year, month, day) * 86400 + hour * 3600 + minute * 60 + second
-        out[rows] = seconds.astype("datetime64[s]")
-    return out
-
-
-def read_activity(path: Path, required, optional, kp, kp_sd, block_s) -> ActivityTable | None:
+def read_activity(path: Path, required, optional, kp, kp_sd_range, block_s) -> ActivityTable | None:
     """activity.csv column-wise; None when only the row-by-row reader can say what is wrong.
 
-    ``kp`` and ``kp_sd`` are the row reader's cell checkers; ``block_s`` the block length
-    in seconds that every start must be a multiple of (UTC)."""
+    ``kp`` is the row reader's Kp cell checker, ``kp_sd_range`` the (low, high) a
+    ``kp_sd`` cell may hold (empty: NaN); ``block_s`` the block length in seconds that
+    every start must be a multiple of (UTC)."""
     if path.stat().st_size < COLUMNWISE_FROM_BYTES:
         return None
     try:
-        columns = _columns(path, required, optional)
+        columns = _columns(path, required, optional,
+                           {"start_utc": "time", "kp": "text", "kp_sd": "number"})
         starts = _times(columns["start_utc"])
         seconds = starts.astype(np.int64)
         if np.any(seconds % block_s):
@@ -335,72 +359,70 @@ def read_activity(path: Path, required, optional, kp, kp_sd, block_s) -> Activit
         order = None if np.all(np.diff(seconds) > 0) else np.argsort(seconds, kind="stable")
         if order is not None and np.any(np.diff(seconds[order]) == 0):
             return None  # a repeated block: the row reader names both lines
-        kps = _by_value(columns["kp"], kp)
-        sds = (_by_value(columns["kp_sd"], kp_sd) if "kp_sd" in columns
-               else np.full(len(starts), np.nan))
+        values, code = _distinct(columns["kp"], kp)
+        kps = np.array(values, dtype=float)[code]
+        sds = (_within(_numbers(columns["kp_sd"], empty_allowed=True), *kp_sd_range)
+               if "kp_sd" in columns else np.full(len(starts), np.nan))
     except _NotVouched:
         return None
     table = ActivityTable(start_utc=starts, kp=kps, kp_sd=sds)
     return table if order is None else table.take(order)
 
 
-def read_clouds(path: Path, required, optional, site_names, unit_of, cloud_in,
+def read_clouds(path: Path, required, optional, site_names, unit_of, cloud_range,
                 default_unit="percent") -> CloudTable | None:
     """clouds.csv column-wise; None when only the row-by-row reader can say what is wrong.
 
-    ``unit_of(text)`` reads the ``unit`` cell, ``cloud_in(unit)`` gives the checker of a
-    cloud cell in that unit (returning percent): the row reader's own checkers. Sites not
-    in ``site_names``, a repeated site and hour, or a file whose values all look like
-    fractions are left to the row reader, which names them."""
+    ``unit_of(text)`` reads the ``unit`` cell (the row reader's checker);
+    ``cloud_range(unit)`` gives (low, high, factor to percent) of a cloud cell in that
+    unit. Sites not in ``site_names``, a repeated site and hour, or a file whose values
+    all look like fractions are left to the row reader, which names them."""
     if site_names is None or path.stat().st_size < COLUMNWISE_FROM_BYTES:
         return None
-    import pyarrow as pa
-
     from auroraplan import checks
 
+    said = [default_unit == "fraction"]
+
+    def site(text):
+        name = checks.text(text)
+        if name not in site_names:
+            raise ValueError(name)
+        return name
+
+    def unit(text):
+        if not text.strip():
+            return default_unit
+        said.append(True)
+        return unit_of(text)
+
     try:
-        columns = _columns(path, required, optional)
-
-        def site(text):
-            name = checks.text(text)
-            if name not in site_names:
-                raise ValueError(name)
-            return name
-
-        distinct, code = _distinct(columns["site"], site, dtype=object)
+        columns = _columns(path, required, optional, {
+            "site": "text", "time_utc": "time", "cloud_pct": "number", "unit": "text"})
+        names, code = _distinct(columns["site"], site, known=site_names)
         times = _times(columns["time_utc"])
-        said = default_unit == "fraction"
-        if "unit" in columns:
-            words, unit_code = _distinct(columns["unit"], lambda t: unit_of(t) if t.strip()
-                                         else default_unit, dtype=object)
-            said = said or any(t.strip() for t in columns["unit"].dictionary_encode()
-                               .dictionary.to_pylist())
-        else:
-            words, unit_code = np.array([default_unit], dtype=object), np.zeros(len(times), int)
-        cloud = np.empty(len(times))
-        percent = np.zeros(len(times), bool)
-        for u, unit in enumerate(words):
-            rows = unit_code == u
-            if rows.all():
-                cloud = _by_value(columns["cloud_pct"], cloud_in(unit))
-            elif rows.any():
-                cloud[rows] = _by_value(columns["cloud_pct"].filter(pa.array(rows)),
-                                        cloud_in(unit))
-            percent |= rows & (unit == "percent")
+        given = _numbers(columns["cloud_pct"])
+        units, unit_code = (_distinct(columns["unit"], unit) if "unit" in columns
+                            else ([default_unit], None))
+        cloud = np.empty(len(given))
+        for u, word in enumerate(units):
+            rows = slice(None) if unit_code is None else unit_code == u
+            low, high, factor = cloud_range(word)
+            part = _within(given[rows], low, high)
+            cloud[rows] = part * factor if factor != 1 else part
     except _NotVouched:
         return None
-    largest = np.max(np.where(percent, cloud, 100.0))
-    if not said and 0.0 < largest <= 1.0:
+    if not any(said) and 0.0 < cloud.max() <= 1.0:  # every row in percent
         return None
-    # Rows by site name, then time (stable), as the row reader keeps them.
-    rank = np.empty(len(distinct), dtype=np.int64)
-    rank[np.argsort(distinct, kind="stable")] = np.arange(len(distinct))
-    site_rank = rank[code]
-    step_site, step_time = np.diff(site_rank), np.diff(times.astype(np.int64))
-    if not np.all((step_site > 0) | ((step_site == 0) & (step_time >= 0))):
-        order = np.lexsort((times, site_rank))
-        site_rank, times, code, cloud = site_rank[order], times[order], code[order], cloud[order]
-        step_site, step_time = np.diff(site_rank), np.diff(times.astype(np.int64))
-    if np.any((step_site == 0) & (step_time == 0)):
-        return None  # a repeated site and hour: the row reader names both lines
-    return CloudTable(site=distinct[code], time_utc=times, cloud_pct=cloud)
+    # Rows by site name, then time, as the row reader keeps them: one sort key per row.
+    names = np.array(names, dtype=object)
+    rank = np.empty(len(names), dtype=np.int64)
+    rank[np.argsort(names, kind="stable")] = np.arange(len(names))
+    seconds = times.view(np.int64)
+    key = (rank[code] << 34) + (seconds - seconds.min())  # 2**34 s: over 500 years
+    step = np.diff(key)
+    if not np.all(step > 0):
+        order = np.argsort(key, kind="stable")
+        code, times, cloud, step = code[order], times[order], cloud[order], np.diff(key[order])
+        if np.any(step == 0):
+            return None  # a repeated site and hour: the row reader names both lines
+    return CloudTable(site=names[code], time_utc=times, cloud_pct=cloud)

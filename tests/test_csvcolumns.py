@@ -13,10 +13,13 @@ from pathlib import Path
 
 import numpy as np
 import pytest
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
 
-from auroraplan import csvcolumns
+from auroraplan import checks, csvcolumns
 from auroraplan.errors import InputError
-from auroraplan.workspace import load_workspace
+from auroraplan.workspace import CSV_COLUMNS, load_workspace
+from auroraplan.workspace.clouds import _cloud_unit
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1] / "benchmarks"))
 from make_workspace import make_workspace  # noqa: E402
@@ -122,3 +125,164 @@ def test_tables_give_a_pandas_frame_like_the_former_loader(big):
     frame = ws.clouds.to_frame()
     assert list(frame.columns) == ["site", "time_utc", "cloud_pct"]
     assert str(frame["time_utc"].dt.tz) == "UTC" and len(frame) == len(ws.clouds)
+
+
+# --- the column-wise path against the row reader, cell by odd cell ----------------------
+#
+# Reference: the row reader (every cell through its checker). For any file the column-wise
+# path either gives the row reader's very table or hands the file over, so the errors are
+# the row reader's; a file it wrongly took would show here as a table where the row reader
+# refuses, or as a different table.
+
+SITES = ("Aspen Knoll", "Birch Flat", "Cedar Shore")
+ODD_SITES = (" Birch Flat", "Cedar Shore ", "aspen knoll", "Nowhere Point", "", " ",
+             "Aspen\x07Knoll", "Birch  Flat")
+TIME_LAYOUTS = (  # (text of an hour, a layout Python's datetime also writes)
+    "{:%Y-%m-%dT%H:%M}Z", "{:%Y-%m-%dT%H:%M}", "{:%Y-%m-%d %H:%M}Z", "{:%Y-%m-%dT%H:%M:%S}Z",
+    "{:%Y-%m-%dT%H:%M:%S}", "{:%Y-%m-%dT%H:%M}+00:00", "{:%Y-%m-%dT%H:%M}-0000",
+    "{:%Y-%m-%dT%H:%M}+00",
+)
+ODD_TIMES = (
+    "2027-01-11T22Z", "2027-01-11T22", "2027-01-11T22+01:00", "2027-01-11", "2027-01-11Z",
+    " 2027-01-11T18:00Z", "2027-01-11T18:00Z ", "2027-01-11T18:00:00.5Z", "2027-01-11T18:00:00.000",
+    "2027-02-29T18:00Z", "2027-01-11T24:00Z", "2027-01-11T18:60Z", "2027-01-11T18:00:60Z",
+    "1899-12-31T23:00Z", "1900-01-01T00:30+01:00", "2099-12-31T23:30-01:00", "2100-01-01T00:00Z",
+    "2027-01-11t18:00z", "2027-01-11T18:00z", "2027-1-11T18:00Z", "2027-01-11T1800Z",
+    "2027-01-11T18:00+01:30", "2027-01-11T18:00+24:00", "2027-01-11T18:00+01:00:30",
+    "2027-01-11T18:00 Z", "2027-01-11X18:00Z", "+2027-01-11T18:00Z", "20270111T1800Z", "",
+    "2027-01-12T05:00-23:59", "2027-01-11T22:00:00+01", "2027-01-11T18:00UTC",
+)
+ODD_NUMBERS = ("0", "100", "55.5", " 40", "40 ", "+5", "-0", "1e2", "1e3", "nan", "NaN", "inf",
+               "-inf", "1_0", "", " ", "101", "-1", "0.5", ".5", "5.", "0x10", "1e-400",
+               "١٢", "NA", "1,5", "100.0000000000001")
+ODD_UNITS = ("", " ", "%", "percent", "PCT", "fraction", " Fraction ", "0-1", "octas", "1")
+KP_CELLS = ("0o", "1-", "3+", " 4o ", "5", "5.5", "G1", "g2", "9o", "9+", "10", "", "x",
+            "4\u2212", "nan", "-1")
+SD_CELLS = ("", "0.5", "1", " 0.7", "5", "5.1", "-0", "nan", "inf", " ", "1e0", "x")
+
+
+def _odd(draw, usual, odd):
+    """Mostly the usual cell, sometimes an odd one."""
+    return draw(st.sampled_from(odd)) if draw(st.integers(0, 9)) == 0 else usual
+
+
+@st.composite
+def cloud_files(draw):
+    rows = draw(st.integers(1, 14))
+    layout = draw(st.sampled_from(TIME_LAYOUTS))
+    unit = draw(st.sampled_from((None, "", "%", "fraction")))
+    start = dt.datetime(2027, 1, 11, 12)
+    header = "site,time_utc,cloud_pct" + (",unit" if unit is not None else "")
+    lines = [draw(st.sampled_from((header, header.upper().replace(",", ", "))))]
+    for i in range(rows):
+        site = _odd(draw, SITES[i % 3], ODD_SITES)
+        again = draw(st.integers(0, 19)) == 0  # now and then an hour given twice
+        hour = start + dt.timedelta(hours=draw(st.integers(0, 4)) if again else i // 3)
+        time = _odd(draw, layout.format(hour), ODD_TIMES)
+        fraction = unit == "fraction"
+        value = draw(st.integers(0, 100)) / (100 if fraction else 1)
+        cloud = _odd(draw, f"{value:g}" if draw(st.booleans()) else f"{value:.3f}", ODD_NUMBERS)
+        cells = [site, time, cloud] + ([_odd(draw, unit, ODD_UNITS)] if unit is not None else [])
+        lines.append(",".join(cells))
+    return "\n".join(lines) + draw(st.sampled_from(("\n", "", "\n\n")))
+
+
+@st.composite
+def activity_files(draw):
+    rows = draw(st.integers(1, 14))
+    layout = draw(st.sampled_from(TIME_LAYOUTS))
+    sd = draw(st.booleans())
+    lines = ["start_utc,kp" + (",kp_sd" if sd else "")]
+    for i in range(rows):
+        again = draw(st.integers(0, 19)) == 0  # now and then a block given twice
+        block = dt.datetime(2027, 1, 11) + dt.timedelta(hours=3 * (i // 2 if again else i))
+        cells = [_odd(draw, layout.format(block), ODD_TIMES),
+                 _odd(draw, draw(st.sampled_from(KP_CELLS[:8])), KP_CELLS)]
+        if sd:
+            cells.append(_odd(draw, draw(st.sampled_from(("", "0.5", "1.25"))), SD_CELLS))
+        lines.append(",".join(cells))
+    return "\n".join(lines) + "\n"
+
+
+def _both_ways(path, role):
+    """(problems, table) read column-wise (even a small file), then row by row."""
+    from auroraplan.errors import ProblemList
+    from auroraplan.workspace.activity import _load_activity
+    from auroraplan.workspace.clouds import _load_clouds
+
+    results = []
+    for threshold in (0, 10**12):
+        csvcolumns.COLUMNWISE_FROM_BYTES = threshold
+        problems = ProblemList()
+        table = (_load_clouds(path, "clouds.csv", set(SITES), problems) if role == "clouds"
+                 else _load_activity(path, "activity.csv", problems))
+        results.append((problems.problems, table))
+    return results
+
+
+@pytest.fixture
+def restored_threshold():
+    kept = csvcolumns.COLUMNWISE_FROM_BYTES
+    yield
+    csvcolumns.COLUMNWISE_FROM_BYTES = kept
+
+
+@pytest.mark.usefixtures("restored_threshold")
+@settings(max_examples=500, deadline=None, derandomize=True, database=None,
+          suppress_health_check=[HealthCheck.too_slow, HealthCheck.function_scoped_fixture])
+@given(case=st.one_of(cloud_files().map(lambda text: ("clouds", text)),
+                      activity_files().map(lambda text: ("activity", text))))
+def test_the_column_wise_readers_take_only_what_the_row_reader_takes(tmp_path, case):
+    role, text = case
+    path = tmp_path / f"{role}.csv"
+    path.write_text(text, encoding="utf-8")
+    (fast_problems, fast), (slow_problems, slow) = _both_ways(path, role)
+    assert fast_problems == slow_problems
+    assert (fast is None) == (slow is None) and (fast is None or fast == slow)
+
+
+def _one_odd_cell(layout, column, odd):
+    """A valid clouds.csv in ``layout`` with one cell of ``column`` (0 site, 1 time,
+    2 cloud, 3 unit) replaced by ``odd``, on its fifth line."""
+    hours = [dt.datetime(2027, 1, 11, 12) + dt.timedelta(hours=h) for h in range(6)]
+    rows = [[site, layout.format(h), str(10 * i), "%"] for site in SITES
+            for i, h in enumerate(hours)]
+    rows[3][column] = odd
+    return "site,time_utc,cloud_pct,unit\n" + "".join(",".join(r) + "\n" for r in rows)
+
+
+@pytest.mark.usefixtures("restored_threshold")
+@pytest.mark.parametrize("layout", TIME_LAYOUTS)
+def test_one_odd_cell_in_a_valid_file_is_taken_only_as_the_row_reader_takes_it(tmp_path,
+                                                                              layout):
+    path = tmp_path / "clouds.csv"
+    for column, cells in enumerate((ODD_SITES, ODD_TIMES, ODD_NUMBERS, ODD_UNITS)):
+        for odd in cells:
+            path.write_text(_one_odd_cell(layout, column, odd), encoding="utf-8")
+            (fast_problems, fast), (slow_problems, slow) = _both_ways(path, "clouds")
+            assert fast_problems == slow_problems, (layout, odd)
+            assert (fast is None) == (slow is None), (layout, odd)
+            assert fast is None or fast == slow, (layout, odd)
+
+
+@pytest.mark.parametrize("layout", TIME_LAYOUTS)
+def test_each_usual_time_layout_is_read_column_wise(tmp_path, layout):
+    # The layouts the row reader takes and that cover nearly every real file are read by
+    # the fast path itself (a path that handed everything over would pass the tests above).
+    hours = [dt.datetime(2027, 1, 11, 12) + dt.timedelta(hours=h) for h in range(30)]
+    (tmp_path / "clouds.csv").write_text(
+        "site,time_utc,cloud_pct,unit\n" + "".join(
+            f"{site},{layout.format(h)},{(7 * i) % 101},%\n"
+            for site in reversed(SITES) for i, h in enumerate(hours)), encoding="utf-8")
+    kept = csvcolumns.COLUMNWISE_FROM_BYTES
+    try:
+        csvcolumns.COLUMNWISE_FROM_BYTES = 0
+        table = csvcolumns.read_clouds(tmp_path / "clouds.csv", *CSV_COLUMNS["clouds"],
+                                       set(SITES), _cloud_unit,
+                                       lambda unit: checks.PERCENT_CELLS[unit][:3])
+    finally:
+        csvcolumns.COLUMNWISE_FROM_BYTES = kept
+    assert table is not None and len(table) == 90
+    assert list(table["site"][[0, 30, 60]]) == list(SITES)  # ordered by site, then time
+    assert table["time_utc"][0] == np.datetime64("2027-01-11T12:00")
+    assert table["cloud_pct"][31] == 7.0

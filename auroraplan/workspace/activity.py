@@ -19,7 +19,7 @@ def _load_activity(path, label, problems: ProblemList):
     (auroraplan.csvcolumns); one it cannot vouch for is read row by row, which names
     each bad row."""
     table, rows = _table_or_rows(
-        csvcolumns.read_activity(path, *CSV_COLUMNS["activity"], parse_kp, _kp_sd,
+        csvcolumns.read_activity(path, *CSV_COLUMNS["activity"], parse_kp, KP_SD_RANGE,
                                  BLOCK_HOURS * 3600), path, label, "activity", problems)
     if rows is None:
         return table

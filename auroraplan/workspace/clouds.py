@@ -33,7 +33,8 @@ def _load_clouds(path, label, site_names, problems: ProblemList, default_unit="p
     """
     table, rows = _table_or_rows(
         csvcolumns.read_clouds(path, *CSV_COLUMNS["clouds"], site_names, _cloud_unit,
-                               _cloud_value, default_unit), path, label, "clouds", problems)
+                               lambda unit: checks.PERCENT_CELLS[unit][:3], default_unit),
+        path, label, "clouds", problems)
     if rows is None:
         return table
     names, times, clouds = [], [], []
@@ -50,7 +51,9 @@ def _load_clouds(path, label, site_names, problems: ProblemList, default_unit="p
         if str(row.get("unit", "")).strip():
             unit = _check_field(problems, where, "unit", _cloud_unit, row["unit"])
             unit_said = True
-        cloud = _check_field(problems, where, "cloud_pct", _cloud_value(unit), row["cloud_pct"])
+        # a refused unit (None, already said) leaves the cloud checked as percent
+        cloud = _check_field(problems, where, "cloud_pct", _cloud_value(unit or "percent"),
+                             row["cloud_pct"])
         if cloud is not None:
             largest = max(largest, cloud if unit == "percent" else 100.0)
         if name is not None and site_names is not None and name not in site_names:
