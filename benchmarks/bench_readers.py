@@ -29,6 +29,7 @@ sys.path.insert(0, str(Path(__file__).resolve().parent))
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
 from make_workspace import make_workspace, site_names  # noqa: E402
+from timing import Runs, repeats_for  # noqa: E402
 
 from auroraplan import workspace  # noqa: E402
 from auroraplan.errors import ProblemList  # noqa: E402
@@ -84,7 +85,7 @@ def run(quick: bool = False) -> list[dict]:
     """One dict per file: ours against pandas' Arrow engine, medians and ratio."""
     import pandas as pd
 
-    repeats = 1 if quick else 5
+    repeats = repeats_for(quick)
     rows = []
     with tempfile.TemporaryDirectory(prefix="auroraplan-readers-") as scratch:
         scratch = Path(scratch)
@@ -104,23 +105,20 @@ def run(quick: bool = False) -> list[dict]:
         for role, path, names, label in files:
             _ours(role, path, names)  # warm up: Arrow's import and thread pool
             pd.read_csv(path, engine="pyarrow")
-            ours, theirs = [], []
+            ours, theirs = [], []  # (wall, CPU) seconds of each run
             for _ in range(repeats):  # alternating, so both see the same machine load
                 ours.append(_time(lambda role=role, path=path, names=names:
                                   _ours(role, path, names)))
                 theirs.append(_time(lambda path=path: pd.read_csv(path, engine="pyarrow")))
-            wall, base_wall = [w for w, _ in ours], [w for w, _ in theirs]
-            seconds, baseline = statistics.median(wall), statistics.median(base_wall)
+            wall, base_wall = Runs(tuple(w for w, _ in ours)), Runs(tuple(w for w, _ in theirs))
             rows.append({
                 "name": f"read and check {label}", "size": f"{path.stat().st_size / 1e6:.0f} MB",
-                "seconds": seconds, "min_s": min(wall), "max_s": max(wall),
-                "baseline": "pandas.read_csv(engine=pyarrow)",
-                "baseline_seconds": baseline, "baseline_min_s": min(base_wall),
-                "baseline_max_s": max(base_wall), "ratio": seconds / baseline,
+                **wall.fields(), "baseline": "pandas.read_csv(engine=pyarrow)",
+                **base_wall.fields("baseline_"), "ratio": wall.median / base_wall.median,
                 "cpu_seconds": statistics.median(c for _, c in ours),
                 "baseline_cpu_seconds": statistics.median(c for _, c in theirs),
-                "target_seconds": TARGET_RATIO * baseline, "ok": seconds <= TARGET_RATIO * baseline,
-                "repeats": repeats,
+                "target_seconds": TARGET_RATIO * base_wall.median,
+                "ok": wall.median <= TARGET_RATIO * base_wall.median,
             })
     return rows
 
