@@ -100,10 +100,15 @@ def hourly_chances(grid, decorrelation_min: float):
     n, t = grid.chance.shape
     h = t // per_hour
     cut = h * per_hour
-    shown = (grid.darkness * grid.moon * grid.activity)[:, :cut].reshape(n, h, per_hour)
-    clear = grid.p_clear[:, :cut].reshape(n, h, per_hour)
-    chance = p_display_seen(shown, clear, grid.step_min, decorrelation_min)
     dark = (grid.darkness[:, :cut] > 0).reshape(n, h, per_hour).any(axis=2)
+    # An hour without darkness at any site has chance 0 (p_display_seen of d = 0).
+    some = np.flatnonzero(dark.any(axis=0))
+    steps = (some[:, None] * per_hour + np.arange(per_hour)).ravel()
+    shown = (grid.darkness[:, steps] * grid.moon[:, steps] * grid.activity[:, steps]
+             ).reshape(n, some.size, per_hour)
+    clear = grid.p_clear[:, steps].reshape(n, some.size, per_hour)
+    chance = np.zeros((n, h))
+    chance[:, some] = p_display_seen(shown, clear, grid.step_min, decorrelation_min)
     return np.arange(h) * per_hour, chance, dark
 
 
@@ -153,8 +158,7 @@ def issued_part(grid, summary, site_names, dates, decorrelation_min) -> IssuedPa
     hour_kind = np.array([("nowcast" if (step_kind[j:j + per_hour] == "nowcast").any()
                            else step_kind[j]) for j in first_step], dtype=object)
     hour_code = np.array([KINDS.index(k) if k in KINDS else 255 for k in hour_kind], np.uint8)
-    factors = np.stack([np.nan_to_num(getattr(grid, name), nan=0.0) for name in FACTOR_ROWS]) \
-        if grid.p_reach is not None else None
+    keep_factors = grid.p_reach is not None
     model_pct = getattr(grid, "cloud_model_pct", None)
     models = list(getattr(grid, "cloud_models", None) or []) if model_pct is not None else []
     rows = []
@@ -168,29 +172,44 @@ def issued_part(grid, summary, site_names, dates, decorrelation_min) -> IssuedPa
             continue
         outing = cols[grid.outing[cols]] if grid.outing[cols].any() else cols
         start = grid.times_utc[outing[0]]
+        sites = np.flatnonzero(np.isfinite(summary.p_any[:, d]))
+        # Every site's packed values at once, site after site, then cut into rows.
+        factors = [b""] * sites.size
+        if keep_factors:
+            steps = cols[(grid.darkness[:, cols] > 0).any(axis=0)]
+            at = np.ix_(sites, steps)
+            dark = grid.darkness[at] > 0  # (S, K)
+            values = np.stack([np.nan_to_num(getattr(grid, name)[at], nan=0.0)
+                               for name in FACTOR_ROWS], axis=1)  # (S, F, K)
+            factors = _cut(values[np.broadcast_to(dark[:, None, :], values.shape)]
+                           .astype("<f4"), len(FACTOR_ROWS) * dark.sum(axis=1))
         hours = np.flatnonzero((hour_night == d) & (hour_code != 255))
-        kept = hour_dark[:, hours] & np.isfinite(hour_chance[:, hours])  # (N, H)
-        for i in np.flatnonzero(np.isfinite(summary.p_any[:, d])):
-            blob = None
-            if factors is not None:
-                dark = cols[grid.darkness[i, cols] > 0]
-                blob = np.ascontiguousarray(factors[:, i, dark], dtype="<f4").tobytes()
-            mine = hours[kept[i]]
-            packed = np.empty(mine.size, HOUR_FIELDS)
-            packed["start"], packed["kind"] = hour_start[mine], hour_code[mine]
-            packed["chance"] = hour_chance[i, mine]
-            cloud = None
-            if models:
-                pct = model_pct[:, i, first_step[mine]]  # (M, H)
-                m, h = np.nonzero(np.isfinite(pct))
-                order = np.lexsort((m, h))  # hour by hour, models in order
-                m, h = m[order], h[order]
-                got = np.empty(m.size, CLOUD_FIELDS)
-                got["start"], got["model"], got["cloud_pct"] = hour_start[mine][h], m, pct[m, h]
-                cloud = got.tobytes()
-            rows.append((site_names[i], date.isoformat(), kind, start, float(summary.p_any[i, d]),
-                         blob, packed.tobytes(), cloud))
+        kept = hour_dark[np.ix_(sites, hours)] & np.isfinite(hour_chance[np.ix_(sites, hours)])
+        packed = np.empty(kept.shape, HOUR_FIELDS)
+        packed["start"], packed["kind"] = hour_start[hours], hour_code[hours]
+        packed["chance"] = hour_chance[np.ix_(sites, hours)]
+        by_hour = _cut(packed[kept], kept.sum(axis=1))
+        clouds = [None] * sites.size
+        if models:
+            pct = np.moveaxis(model_pct[:, sites[:, None], first_step[hours][None, :]], 0, -1)
+            have = np.isfinite(pct) & kept[:, :, None]  # (S, H, M), hour by hour, models in order
+            got = np.empty(pct.shape, CLOUD_FIELDS)
+            got["start"] = hour_start[hours][None, :, None]
+            got["model"] = np.arange(len(models))[None, None, :]
+            got["cloud_pct"] = pct
+            clouds = _cut(got[have], have.sum(axis=(1, 2)))
+        night = date.isoformat()
+        for k, i in enumerate(sites):
+            rows.append((site_names[i], night, kind, start, float(summary.p_any[i, d]),
+                         factors[k] if keep_factors else None, by_hour[k], clouds[k]))
     return IssuedPart(rows=rows, models=models, step_min=float(grid.step_min))
+
+
+def _cut(values, counts) -> list[bytes]:
+    """The bytes of ``values`` cut into consecutive pieces of ``counts`` items each."""
+    data, size = values.tobytes(), values.dtype.itemsize
+    ends = np.cumsum(counts) * size
+    return [data[a:b] for a, b in zip(np.concatenate([[0], ends[:-1]]), ends, strict=True)]
 
 
 def record_issue(store, *, command: str, parts, settings, files: dict,

@@ -857,7 +857,9 @@ def summarise_nights(grid: ChanceGrid, nights: int,
         kinds = set(grid.kind[cols][dark_steps] if dark_steps.any() else grid.kind[cols]) or {"none"}
         out.kind[d] = next(k for k in ("none", "outlook", "forecast") if k in kinds)
         has_data = (~np.isnan(shown) | (dark == 0)).all(axis=1)
-        p = p_display_seen(shown, grid.p_clear[:, cols], grid.step_min, cfg.decorrelation_min)
+        # Steps without darkness at any site add nothing to P (d = 0 there: p_display_seen).
+        p = p_display_seen(shown[:, dark_steps], grid.p_clear[:, cols[dark_steps]],
+                           grid.step_min, cfg.decorrelation_min)
         out.p_any[:, d] = np.where(has_data, p, np.nan)
         filled = np.nan_to_num(c, nan=0.0)
         out.expected_min[:, d] = filled.sum(axis=1) * grid.step_min

@@ -105,6 +105,12 @@ def cloud_at_sites(times_s, forecasts, max_gap_h=6.0, hold_h=END_HOLD_H):
     f_s = np.concatenate([np.asarray(forecasts[i][0], np.int64) for i in have])
     f_pct = np.concatenate([np.asarray(forecasts[i][1], float) for i in have])
     sizes = np.array([len(forecasts[i][0]) for i in have])
+    if (sizes == sizes[0]).all():  # one time axis shared by every site: cloud_at at once
+        f_s, f_pct = f_s.reshape(len(have), sizes[0]), f_pct.reshape(len(have), sizes[0])
+        if (f_s == f_s[0]).all():
+            out[have] = cloud_at(times_s, f_s[0], f_pct.T, max_gap_h, hold_h).T
+            return out
+        f_s, f_pct = f_s.ravel(), f_pct.ravel()
     ends = np.cumsum(sizes)
     starts = ends - sizes
     low = min(int(f_s.min()), int(times_s.min()))

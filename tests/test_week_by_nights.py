@@ -138,6 +138,12 @@ def test_cloud_at_sites_is_cloud_at_site_by_site():
         want = (np.full(times.size, np.nan) if f is None
                 else weather.cloud_at(times, f[0], f[1], max_gap_h=6.0))
         np.testing.assert_array_equal(got[i], want)
+    # every site on one time axis (the usual hourly file) takes the shared path
+    steps = times[0] - 7200 + 3600 * np.arange(30, dtype=np.int64)
+    shared = [(steps, rng.uniform(0, 100, steps.size)) for _ in range(5)]
+    got = weather.cloud_at_sites(times, shared, max_gap_h=6.0)
+    for i, f in enumerate(shared):
+        np.testing.assert_array_equal(got[i], weather.cloud_at(times, *f, max_gap_h=6.0))
 
 
 def test_cloud_tallies_of_two_halves_join_into_the_whole(demo):
