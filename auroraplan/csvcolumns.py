@@ -163,6 +163,29 @@ class CloudTable(Columns):
                    cloud_pct=np.array(clouds, dtype=float)).sorted()
 
 
+class NotRead:
+    """Stands for the table of a file the command did not read, since it does not use it
+    (``load_workspace(path, forecasts=False)``): any use of it is a fault in the program,
+    said at once rather than taken for an empty forecast."""
+
+    def __init__(self, file_name: str):
+        self.file_name = file_name
+
+    def _fault(self, *_):
+        raise RuntimeError(f"{self.file_name} was not read for this command, yet its table "
+                           "was used; load the workspace with forecasts=True")
+
+    __len__ = __iter__ = __getitem__ = __contains__ = __bool__ = _fault
+
+    def __getattr__(self, name):
+        if name.startswith("__"):
+            raise AttributeError(name)
+        self._fault()
+
+    def __repr__(self) -> str:
+        return f"NotRead({self.file_name!r})"
+
+
 def _datetime64(moments) -> np.ndarray:
     return np.array([m.replace(tzinfo=None) for m in moments], dtype="datetime64[s]")
 

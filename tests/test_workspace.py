@@ -565,3 +565,30 @@ def test_plain_vehicle_count_with_default_seats(workspace_copy):
 def test_bad_fleet_is_one_line(workspace_copy, line, fragments):
     edit_toml(workspace_copy, "vehicles = 2", line)
     one_problem(workspace_copy, "operator.toml", *fragments)
+
+
+def test_commands_that_use_no_forecast_neither_read_nor_check_the_forecast_files(workspace_copy,
+                                                                                capsys):
+    # sites, season and the plan-of-record commands use neither activity.csv nor clouds.csv
+    # (DEVELOPERS.md, what each command reads); a command that uses them still says what
+    # is wrong with them, in the same line.
+    from auroraplan.cli import main
+
+    for name, bad in (("clouds.csv", "Gullwing Point,2027-01-11T25:00Z,40\n"),
+                      ("activity.csv", "2027-01-11T00:00Z,Kp9000,\n")):
+        with (workspace_copy / name).open("a", encoding="utf-8") as out:
+            out.write(bad)
+    ws = load_workspace(workspace_copy, forecasts=False)
+    assert set(ws.files) >= {"activity", "clouds"}  # still named: no output replaces them
+    assert not any("activity.csv" in w or "clouds.csv" in w for w in ws.warnings)
+    with pytest.raises(RuntimeError, match="clouds.csv was not read"):
+        len(ws.clouds)
+    with pytest.raises(RuntimeError, match="activity.csv was not read"):
+        ws.activity["kp"]
+    assert main(["sites", str(workspace_copy), "--json"]) == 0
+    assert main(["season", str(workspace_copy), "--from", "2027-01-10", "--to", "2027-01-12",
+                 "--trip-nights", "2", "--json"]) == 0
+    capsys.readouterr()
+    assert main(["tonight", str(workspace_copy), "--date", "2027-01-12"]) == 2
+    said = capsys.readouterr().err
+    assert "clouds.csv line" in said and "time_utc" in said and "activity.csv line" in said

@@ -69,7 +69,7 @@ def run(args) -> int:
 def _base(folder) -> dict:
     from auroraplan.workspace import load_workspace
 
-    ws = load_workspace(folder)
+    ws = load_workspace(folder, forecasts=False)
     operator = ws.operator
     return {
         "name": operator.base_name,

@@ -41,7 +41,7 @@ def run(args):
     from auroraplan.store import database_path, protected_files
     from auroraplan.workspace import load_workspace
 
-    ws = load_workspace(args.workspace)
+    ws = load_workspace(args.workspace, forecasts=False)
     out_path = check_output_path(args.out, list(ws.files.values())
                                  + protected_files(database_path(ws.path)))
     found, logged, unpaired = logged_pairs(ws, args)

@@ -36,7 +36,7 @@ def change_state(args, new_state: str, from_states: tuple, verb: str) -> int:
     from auroraplan.errors import InputError
     from auroraplan.workspace import load_workspace
 
-    ws = load_workspace(args.workspace)
+    ws = load_workspace(args.workspace, forecasts=False)
     known = {t.trip for t in ws.trips}
     for trip in args.trip:
         if trip not in known:

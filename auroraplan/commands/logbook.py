@@ -50,7 +50,7 @@ def add_arguments(parser):
 def run(args):
     from auroraplan.workspace import load_workspace
 
-    ws = load_workspace(args.workspace)
+    ws = load_workspace(args.workspace, forecasts=False)
     return {"add": _add, "import": _import, "list": _list}[args.action](ws, args)
 
 

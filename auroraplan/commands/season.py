@@ -40,7 +40,7 @@ def run(args):
                          f"the most is {MAX_SEASON_DAYS} (2 years)")
     if args.trip_nights > nights:
         raise InputError(f"--trip-nights {args.trip_nights} is longer than the range ({nights} nights)")
-    ws = load_workspace(args.workspace)
+    ws = load_workspace(args.workspace, forecasts=False)
     png = check_output_path(args.png, protected_inputs(ws)) if args.png else None
     if png:
         from auroraplan.render.charts import check_workspace_names

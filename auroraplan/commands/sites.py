@@ -20,7 +20,7 @@ def run(args):
     from auroraplan.report import site_table
     from auroraplan.workspace import load_workspace
 
-    ws = load_workspace(args.workspace)
+    ws = load_workspace(args.workspace, forecasts=False)
     report = site_table(ws, args.date)
     return present(report, args.json, _print_table)
 

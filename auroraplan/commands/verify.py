@@ -36,7 +36,7 @@ def run(args):
     from auroraplan.store import database_path, protected_files
     from auroraplan.workspace import load_workspace
 
-    ws = load_workspace(args.workspace)
+    ws = load_workspace(args.workspace, forecasts=False)
     png_path = None
     if args.png:
         from auroraplan.outfiles import check_output_path

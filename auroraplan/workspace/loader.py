@@ -6,7 +6,7 @@ import os
 from pathlib import Path
 
 from auroraplan import checks
-from auroraplan.csvcolumns import ActivityTable, CloudTable
+from auroraplan.csvcolumns import ActivityTable, CloudTable, NotRead
 from auroraplan.errors import InputError, ProblemList
 from auroraplan.workspace.activity import _load_activity
 from auroraplan.workspace.clouds import _load_clouds
@@ -41,11 +41,16 @@ def _folder(path) -> Path:
     return folder
 
 
-def _find_files(folder: Path) -> tuple[dict, list]:
-    """Role -> path of the files present, and the problems for required ones missing."""
+FORECAST_ROLES = ("activity", "clouds")
+"""The optional forecast files, read only by the commands that use them."""
+
+
+def _find_files(folder: Path, forecasts: bool = True) -> tuple[dict, list]:
+    """Role -> path of the files present, and the problems for required ones missing (and
+    for a forecast file that is not a file, when the forecasts are read)."""
     found, missing = {}, []
-    missing = [why for role in ("operator", "trips", "activity", "clouds", "sites", "sites_gpkg")
-               if (why := checks.not_a_file(folder / FILE_NAMES[role]))]
+    roles = ("operator", "trips", *(FORECAST_ROLES if forecasts else ()), "sites", "sites_gpkg")
+    missing = [why for role in roles if (why := checks.not_a_file(folder / FILE_NAMES[role]))]
     if missing:
         return found, missing
     for role in ("operator", "trips", "activity", "clouds"):
@@ -67,7 +72,7 @@ def _find_files(folder: Path) -> tuple[dict, list]:
     return found, missing
 
 
-def load_workspace(path) -> Workspace:
+def load_workspace(path, forecasts: bool = True) -> Workspace:
     """Read and check every file of a workspace folder.
 
     Parameters
@@ -75,6 +80,12 @@ def load_workspace(path) -> Workspace:
     path : str or Path
         The folder holding operator.toml, sites.geojson (or sites.gpkg), trips.csv and,
         optionally, activity.csv and clouds.csv.
+    forecasts : bool
+        Read activity.csv and clouds.csv. A command that uses neither (``sites``,
+        ``season``, the plan-of-record and logbook commands) passes False: the files are
+        then neither read nor checked, ``activity`` and ``clouds`` are
+        ``csvcolumns.NotRead`` (any use of them is a fault in the program, said at once),
+        and ``files`` still names them, so that no output replaces them.
 
     Returns
     -------
@@ -104,7 +115,7 @@ def load_workspace(path) -> Workspace:
     errors (a typo there would leave the intended night unblocked).
     """
     folder = _folder(path)
-    found, missing = _find_files(folder)
+    found, missing = _find_files(folder, forecasts)
     if missing:
         raise InputError(missing)
     lines: list[str] = []
@@ -127,18 +138,21 @@ def load_workspace(path) -> Workspace:
     trips = step("trips", lambda p, label, probs: _load_trips(p, label, sites, probs, warnings))
     site_names = None if sites is None else {s.name for s in sites}
     activity = clouds = None
-    if "activity" in found:
-        activity = step("activity", _load_activity)
+    if not forecasts:  # the files stay in ``found``: no output may replace them
+        activity, clouds = NotRead(FILE_NAMES["activity"]), NotRead(FILE_NAMES["clouds"])
     else:
-        warnings.append(f"{folder / FILE_NAMES['activity']}: not found; no Kp forecast, "
-                        "chances come from climatology")
-    if "clouds" in found:
-        unit = settings.weather.clouds_unit if settings is not None else "percent"
-        clouds = step("clouds", lambda p, label, probs: _load_clouds(p, label, site_names,
-                                                                     probs, unit))
-    else:
-        warnings.append(f"{folder / FILE_NAMES['clouds']}: not found; no cloud forecast, "
-                        "chances use each site's monthly clear-sky fraction")
+        if "activity" in found:
+            activity = step("activity", _load_activity)
+        else:
+            warnings.append(f"{folder / FILE_NAMES['activity']}: not found; no Kp forecast, "
+                            "chances come from climatology")
+        if "clouds" in found:
+            unit = settings.weather.clouds_unit if settings is not None else "percent"
+            clouds = step("clouds", lambda p, label, probs: _load_clouds(p, label, site_names,
+                                                                         probs, unit))
+        else:
+            warnings.append(f"{folder / FILE_NAMES['clouds']}: not found; no cloud forecast, "
+                            "chances use each site's monthly clear-sky fraction")
     from auroraplan.weatherfiles import weather_files
 
     for weather_path in weather_files(folder):

@@ -70,7 +70,7 @@ class Workspace:
     activity: object  # csvcolumns.ActivityTable: start_utc (UTC), kp, kp_sd (NaN = default)
     clouds: object  # csvcolumns.CloudTable: site, time_utc (UTC), cloud_pct
     settings: Settings = field(default_factory=Settings)  # every stage's settings record
-    files: dict = field(default_factory=dict)  # role -> Path actually read
+    files: dict = field(default_factory=dict)  # role -> Path of each file found
     warnings: list = field(default_factory=list)
     sky_reports: list = field(default_factory=list)  # weather.SkyReport from --sky
 
