@@ -172,7 +172,7 @@ def test_arrival_command_with_a_workspace_lists_dark_hours(monkeypatch, capsys):
     )
     monkeypatch.setattr(
         auroraplan.workspace, "load_workspace",
-        lambda path: types.SimpleNamespace(operator=operator, settings=Settings()),
+        lambda path, forecasts=True: types.SimpleNamespace(operator=operator, settings=Settings()),
     )
     asked = {}
 
