@@ -538,17 +538,28 @@ def recurrence_weights(history: KpHistory, k_grid=K_GRID, min_events: int = 50) 
 
 
 def interpolate_exceedance(table: np.ndarray, need: np.ndarray, k_grid: np.ndarray):
-    """P(Kp ≥ need) from tables on k_grid: table (T, K), need (N, T) -> (N, T)."""
+    """P(Kp ≥ need) from tables on k_grid: table (T, K), need (N, T) -> (N, T).
+
+    Linear between the grid's levels; 1 at or below the first, 0 above the last and for
+    NaN or ``inf`` (unreachable)."""
     step = k_grid[1] - k_grid[0]
-    position = np.clip(np.nan_to_num(need, nan=np.inf, posinf=np.inf) / step, 0, None)
     last = len(k_grid) - 1
-    below = np.minimum(np.floor(np.minimum(position, last)), last - 1).astype(int)
-    weight = np.clip(position - below, 0.0, 1.0)
-    columns = np.arange(table.shape[0])[None, :]
-    lower = table[columns, below]
-    upper = table[columns, below + 1]
-    value = lower * (1.0 - weight) + upper * weight
-    return np.where(position > last, 0.0, value)
+    position = np.asarray(need, dtype=float) / step
+    np.maximum(position, 0.0, out=position)  # NaN stays NaN
+    beyond = ~(position <= last)
+    position[beyond] = 0.0
+    below = position.astype(np.intp)
+    np.minimum(below, last - 1, out=below)
+    weight = position - below
+    flat = np.ascontiguousarray(table, dtype=float).ravel()
+    at = below + np.arange(table.shape[0]) * len(k_grid)
+    lower = flat[at]
+    value = flat[at + 1]
+    value -= lower
+    value *= weight
+    value += lower
+    value[beyond] = 0.0
+    return value
 
 
 def build_climatology(history: KpHistory | None = None) -> Climatology:

@@ -825,14 +825,6 @@ def kp_needed_table(lat, lon, height_m, horizons, min_elevation_deg=5.0,
     )
 
 
-def _mlt_columns(table: KpNeeded, mlt_h):
-    mlt_h = np.asarray(mlt_h, dtype=float)
-    m = table.mlt_h.size
-    f = np.mod(mlt_h, 24.0) / MLT_STEP_H
-    lo = np.floor(f).astype(int) % m
-    return lo, (lo + 1) % m, f - np.floor(f)
-
-
 def kp_needed_at(table: KpNeeded, mlt_h) -> np.ndarray:
     """Kp needed on the horizon at any MLT per site, interpolated periodically.
 
@@ -864,9 +856,17 @@ def kp_lost_at(table: KpNeeded, mlt_h) -> np.ndarray:
 def _interp_mlt(table: KpNeeded, values, mlt_h, pick):
     """Periodic linear interpolation of a (N, 96) Kp table at MLTs (N, T); ``pick`` chooses
     between neighbours when one is infinite."""
-    lo, hi, w = _mlt_columns(table, mlt_h)
-    a = np.take_along_axis(values, lo.reshape(len(values), -1), axis=1).reshape(lo.shape)
-    b = np.take_along_axis(values, hi.reshape(len(values), -1), axis=1).reshape(lo.shape)
+    mlt_h = np.asarray(mlt_h, dtype=float)
+    n, m = values.shape
+    f = np.mod(mlt_h, 24.0) / MLT_STEP_H
+    f[~(f < m)] = 0.0  # 24 h after rounding, and NaN (whose result is NaN all the same)
+    lo = f.astype(np.intp)
+    w = f - lo
+    w[np.isnan(mlt_h)] = np.nan
+    # Each row closed by its first column, so the upper neighbour is the next one.
+    ring = np.concatenate([values, values[:, :1]], axis=1).ravel()
+    at = lo.reshape(n, -1) + (np.arange(n) * (m + 1))[:, None]
+    a, b = ring[at].reshape(lo.shape), ring[at + 1].reshape(lo.shape)
     finite = np.isfinite(a) & np.isfinite(b)
     with np.errstate(invalid="ignore"):
         lin = a + w * (b - a)
