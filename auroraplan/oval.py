@@ -326,6 +326,48 @@ def starkov1994(kp, mlt_h) -> dict:
             "diffuse": base["diffuse"] + shift}
 
 
+def discrete_edges(kp, mlt_h, model: str = DEFAULT_MODEL):
+    """Equatorward and poleward edges of the discrete oval alone, degrees magnetic latitude.
+
+    The same numbers as ``MODELS[model](kp, mlt_h)["equatorward"]`` and ``["poleward"]``
+    (tests/test_oval.py), at a third of the cost for the Starkov models: two of the six
+    boundary series are evaluated, and Gussenhoven's slope only above ``STORM_KP``. A
+    model without discrete-oval edges gives NaN.
+
+    Parameters
+    ----------
+    kp : array_like
+        Kp, 0-9.
+    mlt_h : array_like
+        Magnetic local time in hours; broadcast with ``kp``.
+    model : str
+        A key of ``MODELS``.
+
+    Returns
+    -------
+    equatorward, poleward : ndarray
+
+    References
+    ----------
+    See :func:`starkov1994` and :func:`starkov1994_published`.
+    """
+    kp = np.asarray(kp, dtype=float)
+    if model not in ("starkov1994", "starkov1994-published"):
+        b = MODELS[model](kp, mlt_h)
+        return b["equatorward"], b["poleward"]
+    al = kp_to_al(kp)
+    poleward = 90.0 - starkov_colatitude("poleward", al, mlt_h)
+    if model == "starkov1994-published":
+        return 90.0 - starkov_colatitude("equatorward", al, mlt_h), poleward
+    storm = kp > STORM_KP
+    base_al = np.where(storm, kp_to_al(np.minimum(kp, STORM_KP)), al) if storm.any() else al
+    equatorward = 90.0 - starkov_colatitude("equatorward", base_al, mlt_h)
+    if storm.any():
+        _, slope = _gussenhoven_fit(mlt_h)
+        equatorward = equatorward + slope * np.maximum(kp - STORM_KP, 0.0)
+    return equatorward, poleward
+
+
 MODELS = {
     "starkov1994": starkov1994,
     "starkov1994-published": starkov1994_published,

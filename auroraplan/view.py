@@ -315,8 +315,7 @@ def _as_site_arrays(lat, lon, height_m):
 
 def _discrete_edges(kp, mlt_h, model):
     """Equatorward and poleward edges of the discrete oval (degrees magnetic latitude)."""
-    b = oval.MODELS[model](kp, mlt_h)
-    return b["equatorward"], b["poleward"]
+    return oval.discrete_edges(kp, mlt_h, model)
 
 
 @functools.lru_cache(maxsize=4)

@@ -167,3 +167,18 @@ def test_unknown_model_lists_the_known_ones():
 def test_boundaries_broadcast_kp_against_mlt():
     b = oval.boundaries(np.array([[1.0], [5.0]]), np.arange(24.0))
     assert b["poleward"].shape == (2, 24)
+
+
+def test_discrete_edges_alone_are_the_models_own():
+    # Reference: the full models (oval.MODELS), at random Kp and MLT, across the storm
+    # threshold Kp 6 and the AL turning point, for every model.
+    rng = np.random.default_rng(5)
+    kp = np.concatenate([rng.uniform(0.0, 9.0, 5000), [0.0, 0.232, 6.0, 6.01, 9.0]])
+    mlt = rng.uniform(0.0, 24.0, kp.size)
+    for model, fn in oval.MODELS.items():
+        eq, pw = oval.discrete_edges(kp, mlt, model)
+        full = fn(kp, mlt)
+        np.testing.assert_allclose(eq, full["equatorward"], rtol=0, atol=1e-9)
+        np.testing.assert_allclose(pw, full["poleward"], rtol=0, atol=1e-9)
+    eq, pw = oval.discrete_edges(np.array([[3.0], [7.0]]), np.array([[0.0, 12.0]]))
+    assert eq.shape == pw.shape == (2, 2) and np.all(eq[1] < eq[0])
