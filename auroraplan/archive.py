@@ -238,6 +238,8 @@ def record_issue(store, *, command: str, parts, settings, files: dict,
     models = next((p.models for p in parts if p.models), [])
     step_min = parts[0].step_min if parts else 0.0
 
+    starts = {}  # outing start -> (UTC text, lead hours): one per night, shared by the sites
+
     def night_rows(run_id):
         for part in parts:
             remap = np.array([models.index(m) for m in part.models], np.uint16)
@@ -246,8 +248,10 @@ def record_issue(store, *, command: str, parts, settings, files: dict,
                     got = np.frombuffer(cloud, CLOUD_FIELDS).copy()
                     got["model"] = remap[got["model"]]
                     cloud = got.tobytes()
-                lead = float((start - made64).astype("timedelta64[s]").astype(float) / 3600.0)
-                yield (run_id, site, night, kind, _utc_text(start), lead, p, blob, hours, cloud)
+                if start not in starts:
+                    starts[start] = (_utc_text(start), float(
+                        (start - made64).astype("timedelta64[s]").astype(float) / 3600.0))
+                yield (run_id, site, night, kind, *starts[start], p, blob, hours, cloud)
 
     with store.transaction() as con:
         cur = con.execute(

@@ -338,9 +338,10 @@ def compute_grid(
     work = np.ones(times_utc.shape, bool) if all_steps else working_steps(
         dark if warn_outside else darkness, step_min)
     at = _StepsAt(work)
-    kp_needed_w = view.kp_needed_at(table, mlt[:, work])
-    kp_lost_w = view.kp_lost_at(table, mlt[:, work])
-    look = look_for_forecast(table, kp_needed_w, kp_lost_w, kp_mean[work], mlt[:, work])
+    mlt_w = at.take(mlt)
+    kp_needed_w = view.kp_needed_at(table, mlt_w)
+    kp_lost_w = view.kp_lost_at(table, mlt_w)
+    look = look_for_forecast(table, kp_needed_w, kp_lost_w, at.take(kp_mean), mlt_w)
     look_az, look_el = look["look_azimuth_deg"], look["look_elevation_deg"]
 
     target_alt = np.clip(np.nan_to_num(look_el, nan=viewing.min_elevation_deg),
@@ -349,18 +350,19 @@ def compute_grid(
     k_v = (np.full(len(sites), float(viewing.extinction_k)) if viewing.extinction_k is not None
            else sky.extinction_k_v(arr["height_m"]))
     moonlit = sky.moonlit_sky_mag(
-        arr["sky_mag"][:, None], track.moon_alt[:, work], track.moon_az[:, work], target_alt,
-        target_az, track.moon_phase_angle_deg[None, work], k_v=k_v[:, None],
+        arr["sky_mag"][:, None], at.take(track.moon_alt), at.take(track.moon_az), target_alt,
+        target_az, at.take(track.moon_phase_angle_deg)[None, :], k_v=k_v[:, None],
     )
     moon_w = moon_factor(arr["sky_mag"][:, None], moonlit, cfg.moon_beta)
-    covered_w, rest_w, times_w = covered[work], rest[work], times_utc[work]
+    covered_w, rest_w, times_w = at.take(covered), at.take(rest), at.take(times_utc)
+    kp_mean_w, kp_sd_w = at.take(kp_mean), at.take(kp_sd)
 
     def p_at_least(kp):
         """P(Kp ≥ kp) (N, W) from the forecast, else the climatology."""
         p = np.full(kp.shape, np.nan)
         if covered_w.any():
             p[:, covered_w] = p_aurora_from_forecast(
-                kp[:, covered_w], kp_mean[work][covered_w], kp_sd[work][covered_w],
+                kp[:, covered_w], kp_mean_w[covered_w], kp_sd_w[covered_w],
                 cfg.boundary_sd_kp)
         if rest_w.any():
             p[:, rest_w] = p_aurora_from_climatology(
@@ -574,6 +576,14 @@ class _StepsAt:
     def __init__(self, work):
         self.work = np.asarray(work, bool)
         self.every = bool(self.work.all())
+        idx = np.flatnonzero(self.work)
+        # One run of steps (a night's dark hours) is a slice: copied, never gathered.
+        self.cols = slice(idx[0], idx[-1] + 1) if idx.size and idx[-1] - idx[0] + 1 == idx.size \
+            else idx
+
+    def take(self, values):
+        """``values`` (..., T) at the steps worked out (..., W), a new contiguous array."""
+        return np.ascontiguousarray(values[..., self.cols])
 
     def cloud(self, grid):
         """A weather.CloudGrid worked out at the steps, on the whole time axis: no chance
@@ -595,8 +605,13 @@ class _StepsAt:
         """``values`` (N, W) on the time axis, ``fill`` at the steps not worked out."""
         if self.every:
             return values
-        out = np.full(values.shape[:-1] + self.work.shape, fill, dtype=values.dtype)
-        out[..., self.work] = values
+        out = np.empty(values.shape[:-1] + self.work.shape, dtype=values.dtype)
+        if isinstance(self.cols, slice):
+            out[..., :self.cols.start] = fill
+            out[..., self.cols.stop:] = fill
+        else:
+            out[...] = fill
+        out[..., self.cols] = values
         return out
 
 

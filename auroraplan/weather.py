@@ -505,8 +505,14 @@ def cloud_grid(sites, clouds_df, times_utc, tz=None, reading=None, reports=(),
         [site.clear_by_month if site.clear_by_month is not None else [np.nan] * 12
          for site in sites], dtype=float,
     ).reshape(n, 12)
-    months = local_month_index([site.lon for site in sites], times, tz)
-    monthly = np.take_along_axis(climatology, months, axis=1)
+    if tz is not None:  # one local month per time for every site
+        from auroraplan.nights import local_datetime64
+
+        monthly = climatology[:, local_datetime64(times, tz).astype("datetime64[M]")
+                              .astype(np.int64) % 12]
+    else:
+        monthly = np.take_along_axis(
+            climatology, local_month_index([site.lon for site in sites], times), axis=1)
     fallback = np.where(np.isnan(monthly), DEFAULT_CLEAR, monthly)
 
     from_csv = np.isfinite(csv_cloud)
