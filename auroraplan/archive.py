@@ -146,6 +146,8 @@ def issued_part(grid, summary, site_names, dates, decorrelation_min) -> IssuedPa
     model's cloud at the start of those hours (CLOUD_FIELDS), packed into one row. Nights
     (and hours) without a forecast or outlook, or without darkness, are not kept.
     """
+    from auroraplan.chance import nan_as_zero
+
     first_step, hour_chance, hour_dark = hourly_chances(grid, float(decorrelation_min))
     hour_start = grid.times_utc[first_step].astype(np.int64)
     hour_night = grid.night_index[first_step]
@@ -179,7 +181,7 @@ def issued_part(grid, summary, site_names, dates, decorrelation_min) -> IssuedPa
             steps = cols[(grid.darkness[:, cols] > 0).any(axis=0)]
             at = np.ix_(sites, steps)
             dark = grid.darkness[at] > 0  # (S, K)
-            values = np.stack([np.nan_to_num(getattr(grid, name)[at], nan=0.0)
+            values = np.stack([nan_as_zero(getattr(grid, name)[at])
                                for name in FACTOR_ROWS], axis=1)  # (S, F, K)
             factors = _cut(values[np.broadcast_to(dark[:, None, :], values.shape)]
                            .astype("<f4"), len(FACTOR_ROWS) * dark.sum(axis=1))

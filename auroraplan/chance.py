@@ -797,6 +797,12 @@ class NightSummary:
     kind: np.ndarray  # (D,) "forecast" | "outlook" | "none" (worst over the dark steps)
 
 
+def nan_as_zero(values) -> np.ndarray:
+    """``values`` (a probability or chance: never infinite) with NaN as 0; a new array."""
+    values = np.asarray(values, float)
+    return np.where(np.isnan(values), 0.0, values)
+
+
 def p_display_seen(display, p_clear, step_min, decorrelation_min):
     """P(at least one display seen) over the steps along the last axis.
 
@@ -825,8 +831,8 @@ def p_display_seen(display, p_clear, step_min, decorrelation_min):
     with the c sorted from clearest down and c_(K+1) = 0. Both couplings are
     stated assumptions. More cloud or less display never raises P.
     """
-    d = np.clip(np.nan_to_num(display, nan=0.0), 0.0, 1.0 - 1e-12)
-    c = np.clip(np.nan_to_num(p_clear, nan=0.0), 0.0, 1.0)
+    d = np.clip(nan_as_zero(display), 0.0, 1.0 - 1e-12)
+    c = np.clip(nan_as_zero(p_clear), 0.0, 1.0)
     order = np.argsort(-c, axis=-1, kind="stable")
     c_sorted = np.take_along_axis(c, order, axis=-1)
     d_sorted = np.take_along_axis(d, order, axis=-1)
@@ -876,7 +882,7 @@ def summarise_nights(grid: ChanceGrid, nights: int,
         p = p_display_seen(shown[:, dark_steps], grid.p_clear[:, cols[dark_steps]],
                            grid.step_min, cfg.decorrelation_min)
         out.p_any[:, d] = np.where(has_data, p, np.nan)
-        filled = np.nan_to_num(c, nan=0.0)
+        filled = nan_as_zero(c)
         out.expected_min[:, d] = filled.sum(axis=1) * grid.step_min
         lo, hi = best_windows(filled, dark > 0, grid.mlt[:, cols], grid.step_min, cfg)
         peak = np.argmax(np.where(
@@ -930,7 +936,7 @@ def limiting_factor(grid, cols, lo, hi, any_dark, cfg):
     count = np.maximum(inside.sum(axis=1), 1)
 
     def mean(values):
-        return np.where(inside, np.nan_to_num(values, nan=0.0), 0.0).sum(axis=1) / count
+        return np.where(inside & ~np.isnan(values), values, 0.0).sum(axis=1) / count
 
     factors = np.stack([
         mean(grid.darkness[:, cols]),
