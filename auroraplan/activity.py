@@ -239,12 +239,13 @@ def forecast_p_kp_at_least(kp_needed, kp_mean, kp_sd):
     """
     ndtr = normal_cdf
     needed = np.asarray(kp_needed, dtype=float)
-    mean = np.broadcast_to(np.asarray(kp_mean, dtype=float), needed.shape)
-    sd = np.broadcast_to(np.asarray(kp_sd, dtype=float), needed.shape)
+    mean, sd = np.asarray(kp_mean, dtype=float), np.asarray(kp_sd, dtype=float)
     k = np.clip(needed, 0.0, KP_MAX)
     with np.errstate(divide="ignore", invalid="ignore"):
-        lower = ndtr((0.0 - mean) / sd)
-        upper = ndtr((KP_MAX - mean) / sd)
+        # The scale's ends depend on the forecast alone (T,): worked out once per time.
+        lower = np.broadcast_to(ndtr((0.0 - mean) / sd), needed.shape)
+        upper = np.broadcast_to(ndtr((KP_MAX - mean) / sd), needed.shape)
+        mean, sd = np.broadcast_to(mean, needed.shape), np.broadcast_to(sd, needed.shape)
         inside = upper - lower
         p = (upper - ndtr((k - mean) / sd)) / inside
     certain = np.where(mean >= needed, 1.0, 0.0)
