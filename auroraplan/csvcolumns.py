@@ -310,6 +310,26 @@ _TIME_MIN_LENGTH = 16
 refuses the hour alone, which Arrow's ISO 8601 reader takes)."""
 
 
+def _minutes_given(column) -> bool:
+    """Every text of a string column at least ``_TIME_MIN_LENGTH`` long with ":" after
+    the hour (the bytes at position 13)."""
+    import pyarrow as pa
+
+    for chunk in column.chunks:
+        if chunk.null_count or not isinstance(chunk, pa.StringArray):
+            return False
+        if not len(chunk):
+            continue
+        _, offsets, data = chunk.buffers()
+        offsets = np.frombuffer(offsets, dtype=np.int32)[chunk.offset:
+                                                         chunk.offset + len(chunk) + 1]
+        text = np.frombuffer(data, dtype=np.uint8)
+        if (np.diff(offsets).min() < _TIME_MIN_LENGTH
+                or np.any(text[offsets[:-1] + 13] != ord(":"))):
+            return False
+    return True
+
+
 def _times(column) -> np.ndarray:
     """ISO 8601 texts as UTC datetime64[s] within ``checks.FILE_YEARS``.
 
@@ -320,6 +340,8 @@ def _times(column) -> np.ndarray:
     read by ``checks.parse_utc`` to the same instant. Arrow also takes the date alone and
     the hour without minutes, which ``parse_utc`` refuses: every text must therefore be at
     least ``_TIME_MIN_LENGTH`` long with ":" after the hour, checked on the bytes first.
+    Cells padded with ASCII blanks (``site, 2027-01-11T18:00Z, 40``) are trimmed first,
+    as ``parse_utc`` strips them (it strips more: anything else falls to the row reader).
     A file mixing zoned and plain times is left to the row reader.
     """
     import pyarrow as pa
@@ -327,17 +349,9 @@ def _times(column) -> np.ndarray:
 
     from auroraplan.checks import FILE_YEARS
 
-    for chunk in column.chunks:
-        if chunk.null_count or not isinstance(chunk, pa.StringArray):
-            raise _NotVouched
-        if not len(chunk):
-            continue
-        _, offsets, data = chunk.buffers()
-        offsets = np.frombuffer(offsets, dtype=np.int32)[chunk.offset:
-                                                         chunk.offset + len(chunk) + 1]
-        text = np.frombuffer(data, dtype=np.uint8)
-        if (np.diff(offsets).min() < _TIME_MIN_LENGTH
-                or np.any(text[offsets[:-1] + 13] != ord(":"))):
+    if not _minutes_given(column):
+        column = pc.ascii_trim_whitespace(column)
+        if not _minutes_given(column):
             raise _NotVouched
     first = column[0].as_py()
     zoned = any(c in first[_TIME_MIN_LENGTH:] for c in "Z+-")
@@ -426,22 +440,35 @@ def read_clouds(path: Path, required, optional, site_names, unit_of, cloud_range
         given = _numbers(columns["cloud_pct"])
         units, unit_code = (_distinct(columns["unit"], unit) if "unit" in columns
                             else ([default_unit], None))
-        cloud = np.empty(len(given))
-        for u, word in enumerate(units):
-            rows = slice(None) if unit_code is None else unit_code == u
+        def in_percent(values, word):
             low, high, factor = cloud_range(word)
-            part = _within(given[rows], low, high)
-            cloud[rows] = part * factor if factor != 1 else part
+            _within(values, low, high)
+            return values * factor if factor != 1 else values
+
+        if len(units) == 1:
+            cloud = in_percent(given, units[0])
+        else:
+            cloud = np.empty(len(given))
+            for u, word in enumerate(units):
+                rows = unit_code == u
+                cloud[rows] = in_percent(given[rows], word)
     except _NotVouched:
         return None
     if not any(said) and 0.0 < cloud.max() <= 1.0:  # every row in percent
         return None
     # Rows by site name, then time, as the row reader keeps them: one sort key per row.
     names = np.array(names, dtype=object)
-    rank = np.empty(len(names), dtype=np.int64)
-    rank[np.argsort(names, kind="stable")] = np.arange(len(names))
+    by_name = np.argsort(names, kind="stable")
+    if np.array_equal(by_name, np.arange(len(names))):
+        key = code.astype(np.int64)  # the sites came in name order
+    else:
+        rank = np.empty(len(names), dtype=np.int64)
+        rank[by_name] = np.arange(len(names))
+        key = rank[code]
     seconds = times.view(np.int64)
-    key = (rank[code] << 34) + (seconds - seconds.min())  # 2**34 s: over 500 years
+    key <<= 34  # 2**34 s: over 500 years, more than the years a file may span
+    key += seconds
+    key -= seconds.min()
     step = np.diff(key)
     if not np.all(step > 0):
         order = np.argsort(key, kind="stable")

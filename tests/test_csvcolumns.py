@@ -140,7 +140,7 @@ ODD_SITES = (" Birch Flat", "Cedar Shore ", "aspen knoll", "Nowhere Point", "", 
 TIME_LAYOUTS = (  # (text of an hour, a layout Python's datetime also writes)
     "{:%Y-%m-%dT%H:%M}Z", "{:%Y-%m-%dT%H:%M}", "{:%Y-%m-%d %H:%M}Z", "{:%Y-%m-%dT%H:%M:%S}Z",
     "{:%Y-%m-%dT%H:%M:%S}", "{:%Y-%m-%dT%H:%M}+00:00", "{:%Y-%m-%dT%H:%M}-0000",
-    "{:%Y-%m-%dT%H:%M}+00",
+    "{:%Y-%m-%dT%H:%M}+00", " {:%Y-%m-%dT%H:%M}Z",
 )
 ODD_TIMES = (
     "2027-01-11T22Z", "2027-01-11T22", "2027-01-11T22+01:00", "2027-01-11", "2027-01-11Z",
@@ -286,3 +286,17 @@ def test_each_usual_time_layout_is_read_column_wise(tmp_path, layout):
     assert list(table["site"][[0, 30, 60]]) == list(SITES)  # ordered by site, then time
     assert table["time_utc"][0] == np.datetime64("2027-01-11T12:00")
     assert table["cloud_pct"][31] == 7.0
+
+
+@pytest.mark.usefixtures("restored_threshold")
+def test_a_file_mixing_percent_and_fraction_rows_is_read_column_wise_as_row_by_row(tmp_path):
+    path = tmp_path / "clouds.csv"
+    rows = [f"{site},2027-01-11T{h:02d}:00Z,{(h * 0.04):.2f},fraction" if h % 2 else
+            f"{site},2027-01-11T{h:02d}:00Z,{h * 4},%" for site in SITES for h in range(24)]
+    path.write_text("site,time_utc,cloud_pct,unit\n" + "\n".join(rows) + "\n", encoding="utf-8")
+    (fast_problems, fast), (_, slow) = _both_ways(path, "clouds")
+    assert not fast_problems and fast == slow
+    assert fast["cloud_pct"][:4] == pytest.approx([0.0, 4.0, 8.0, 12.0])  # 0.04 -> 4 %
+    csvcolumns.COLUMNWISE_FROM_BYTES = 0  # the fast path itself took it
+    assert csvcolumns.read_clouds(path, *CSV_COLUMNS["clouds"], set(SITES), _cloud_unit,
+                                  lambda unit: checks.PERCENT_CELLS[unit][:3]) == fast
