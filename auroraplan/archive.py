@@ -175,21 +175,24 @@ def issued_part(grid, summary, site_names, dates, decorrelation_min) -> IssuedPa
         outing = cols[grid.outing[cols]] if grid.outing[cols].any() else cols
         start = grid.times_utc[outing[0]]
         sites = np.flatnonzero(np.isfinite(summary.p_any[:, d]))
+        every = sites.size == summary.p_any.shape[0]  # then rows are taken whole, not gathered
         # Every site's packed values at once, site after site, then cut into rows.
         factors = [b""] * sites.size
         if keep_factors:
             steps = cols[(grid.darkness[:, cols] > 0).any(axis=0)]
-            at = np.ix_(sites, steps)
+            at = (slice(None), steps) if every else np.ix_(sites, steps)
             dark = grid.darkness[at] > 0  # (S, K)
             values = np.stack([nan_as_zero(getattr(grid, name)[at])
                                for name in FACTOR_ROWS], axis=1)  # (S, F, K)
             factors = _cut(values[np.broadcast_to(dark[:, None, :], values.shape)]
                            .astype("<f4"), len(FACTOR_ROWS) * dark.sum(axis=1))
         hours = np.flatnonzero((hour_night == d) & (hour_code != 255))
-        kept = hour_dark[np.ix_(sites, hours)] & np.isfinite(hour_chance[np.ix_(sites, hours)])
+        at = (slice(None), hours) if every else np.ix_(sites, hours)
+        chance_h = hour_chance[at]
+        kept = hour_dark[at] & np.isfinite(chance_h)
         packed = np.empty(kept.shape, HOUR_FIELDS)
         packed["start"], packed["kind"] = hour_start[hours], hour_code[hours]
-        packed["chance"] = hour_chance[np.ix_(sites, hours)]
+        packed["chance"] = chance_h
         by_hour = _cut(packed[kept], kept.sum(axis=1))
         clouds = [None] * sites.size
         if models:
@@ -201,9 +204,11 @@ def issued_part(grid, summary, site_names, dates, decorrelation_min) -> IssuedPa
             got["cloud_pct"] = pct
             clouds = _cut(got[have], have.sum(axis=(1, 2)))
         night = date.isoformat()
-        for k, i in enumerate(sites):
-            rows.append((site_names[i], night, kind, start, float(summary.p_any[i, d]),
-                         factors[k] if keep_factors else None, by_hour[k], clouds[k]))
+        rows.extend(zip([site_names[i] for i in sites], [night] * sites.size,
+                        [kind] * sites.size, [start] * sites.size,
+                        summary.p_any[sites, d].tolist(),
+                        factors if keep_factors else [None] * sites.size, by_hour, clouds,
+                        strict=True))
     return IssuedPart(rows=rows, models=models, step_min=float(grid.step_min))
 
 
@@ -246,7 +251,7 @@ def record_issue(store, *, command: str, parts, settings, files: dict,
         for part in parts:
             remap = np.array([models.index(m) for m in part.models], np.uint16)
             for site, night, kind, start, p, blob, hours, cloud in part.rows:
-                if cloud is not None and part.models != models:
+                if cloud and part.models != models:
                     got = np.frombuffer(cloud, CLOUD_FIELDS).copy()
                     got["model"] = remap[got["model"]]
                     cloud = got.tobytes()

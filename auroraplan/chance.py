@@ -902,10 +902,12 @@ def best_windows(chance, dark, mlt, step_min, cfg):
     n, k = chance.shape
     length = max(1, min(k, int(round(cfg.max_window_min / step_min))))
     min_steps = max(1, int(np.ceil(cfg.min_window_min / step_min)))
-    sums = np.cumsum(np.concatenate([np.zeros((n, 1)), chance], axis=1), axis=1)
+    sums = np.zeros((n, k + 1))
+    np.cumsum(chance, axis=1, out=sums[:, 1:])
     block = sums[:, length:] - sums[:, :-length]  # (n, k - length + 1)
     centre = np.arange(block.shape[1]) + length // 2
-    from_midnight = np.minimum(mlt[:, centre] % 24.0, 24.0 - mlt[:, centre] % 24.0)
+    hour = mlt[:, centre] % 24.0
+    from_midnight = np.minimum(hour, 24.0 - hour)
     best = block.max(axis=1, keepdims=True)
     near_best = block >= best * (1.0 - 1e-3) - 1e-12
     start = np.argmin(np.where(near_best, from_midnight, np.inf), axis=1)
