@@ -346,7 +346,7 @@ def band_edges(kp, mlt_h, model=oval.DEFAULT_MODEL):
     Parameters
     ----------
     kp : array_like
-        Kp, 0-9 (clipped).
+        Kp, 0-9 (clipped); not NaN (``oval.check_kp`` refuses it upstream).
     mlt_h : array_like
         Magnetic local time in hours, broadcast with ``kp``; NaN gives NaN edges.
     model : str
@@ -363,7 +363,7 @@ def band_edges(kp, mlt_h, model=oval.DEFAULT_MODEL):
     kp, mlt_h = np.broadcast_arrays(np.atleast_1d(np.asarray(kp, dtype=float)),
                                     np.atleast_1d(np.asarray(mlt_h, dtype=float)))
     bad = ~np.isfinite(mlt_h)
-    fk = np.clip(np.nan_to_num(kp), 0.0, oval.KP_MAX) / KP_FINE_STEP
+    fk = np.clip(kp, 0.0, oval.KP_MAX) / KP_FINE_STEP
     i = np.minimum(fk.astype(np.intp), n_kp - 2)
     wk = fk - i
     fm = np.mod(np.where(bad, 0.0, mlt_h), 24.0) / EDGE_MLT_STEP_H
@@ -849,6 +849,8 @@ def kp_lost_at(table: KpNeeded, mlt_h) -> np.ndarray:
     in view) the smaller, finite value is kept, so a polar-cap site is never
     credited with a storm that has carried the band out of its sight.
     """
+    if np.isposinf(table.kp_lost).all():  # no site loses the band by Kp 9: inf everywhere
+        return np.full(np.shape(mlt_h), np.inf)
     return _interp_mlt(table, table.kp_lost, mlt_h, np.minimum)
 
 
