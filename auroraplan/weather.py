@@ -260,15 +260,6 @@ class CloudGrid:
         where no figure was worked out)."""
         return source_names(self.source_code)
 
-    def at_steps(self, cols) -> CloudGrid:
-        """The same grid at some of its time steps (an index or mask of the last axis)."""
-        return CloudGrid(
-            p_clear=self.p_clear[:, cols], cloud_pct=self.cloud_pct[:, cols],
-            source_code=self.source_code[:, cols], models=self.models,
-            model_pct=self.model_pct[..., cols], model_weight=self.model_weight[..., cols],
-            spread_pct=self.spread_pct[:, cols], warnings=list(self.warnings), note=self.note,
-            tally=self.tally)
-
 
 def blend_models(model_pct, weight):
     """The cloud figure and spread from several models' values.
