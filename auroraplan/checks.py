@@ -231,7 +231,8 @@ def parse_utc(value) -> dt.datetime:
                 f"{quote(raw)} is not an ISO 8601 date and time; give for example {TIME_EXAMPLE}"
             )
         try:
-            moment = dt.datetime.fromisoformat(re.sub(r"[zZ]$", "+00:00", raw))
+            moment = dt.datetime.fromisoformat(raw[:-1] + "+00:00" if raw.endswith(("z", "Z"))
+                                               else raw)
         except ValueError:
             raise ValueError(
                 f"{quote(raw)} is not an ISO 8601 date and time; give for example {TIME_EXAMPLE}"
@@ -339,6 +340,25 @@ def cell_whole(low, high, unit=""):
 # ---------------------------------------------------------------------------------------
 # Fields of the workspace files (the loader in auroraplan/workspace/ says which field)
 # ---------------------------------------------------------------------------------------
+
+
+def remembered(checker):
+    """``checker`` that keeps its answer (the value, or the ValueError's message) for each
+    distinct cell: a large file repeats its site names and figures on every row."""
+    answers = {}
+
+    def check(value):
+        answer = answers.get(value)
+        if answer is None:
+            try:
+                answer = answers[value] = (True, checker(value))
+            except ValueError as exc:
+                answer = answers[value] = (False, str(exc))
+        if answer[0]:
+            return answer[1]
+        raise ValueError(answer[1])
+
+    return check
 
 
 def optional(checker):

@@ -300,3 +300,18 @@ def test_a_file_mixing_percent_and_fraction_rows_is_read_column_wise_as_row_by_r
     csvcolumns.COLUMNWISE_FROM_BYTES = 0  # the fast path itself took it
     assert csvcolumns.read_clouds(path, *CSV_COLUMNS["clouds"], set(SITES), _cloud_unit,
                                   lambda unit: checks.PERCENT_CELLS[unit][:3]) == fast
+
+
+def test_a_remembered_checker_answers_a_repeated_cell_as_the_checker_does():
+    calls = []
+
+    def checker(text):
+        calls.append(text)
+        return checks.percent_cell("percent")(text)
+
+    remembered = checks.remembered(checker)
+    assert remembered("40") == remembered("40") == 40.0
+    for _ in range(2):
+        with pytest.raises(ValueError, match=r"^130 is outside 0 to 100 %$"):
+            remembered("130")
+    assert calls == ["40", "130"]  # each distinct cell checked once

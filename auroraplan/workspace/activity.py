@@ -23,14 +23,15 @@ def _load_activity(path, label, problems: ProblemList):
                                  BLOCK_HOURS * 3600), path, label, "activity", problems)
     if rows is None:
         return table
+    kp_of, sd_of = checks.remembered(parse_kp), checks.remembered(_kp_sd)
     starts, kps, sds = [], [], []
     first_line = {}
     for line, row in rows:
         where = f"{label} line {line}"
         before = len(problems)
         start = _check_field(problems, where, "start_utc", _block_start, row["start_utc"])
-        kp = _check_field(problems, where, "kp", parse_kp, row["kp"])
-        sd = _check_field(problems, where, "kp_sd", _kp_sd, row.get("kp_sd", ""))
+        kp = _check_field(problems, where, "kp", kp_of, row["kp"])
+        sd = _check_field(problems, where, "kp_sd", sd_of, row.get("kp_sd", ""))
         if len(problems) > before:
             continue
         if start in first_line:

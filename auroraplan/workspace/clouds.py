@@ -37,6 +37,8 @@ def _load_clouds(path, label, site_names, problems: ProblemList, default_unit="p
         path, label, "clouds", problems)
     if rows is None:
         return table
+    site_of, unit_of = checks.remembered(checks.text), checks.remembered(_cloud_unit)
+    cloud_in = {unit: checks.remembered(_cloud_value(unit)) for unit in ("percent", "fraction")}
     names, times, clouds = [], [], []
     unit_said = default_unit == "fraction"
     largest = 0.0
@@ -45,14 +47,14 @@ def _load_clouds(path, label, site_names, problems: ProblemList, default_unit="p
     for line, row in rows:
         where = f"{label} line {line}"
         before = len(problems)
-        name = _check_field(problems, where, "site", checks.text, row["site"])
+        name = _check_field(problems, where, "site", site_of, row["site"])
         when = _check_field(problems, where, "time_utc", checks.file_time, row["time_utc"])
         unit = default_unit
         if str(row.get("unit", "")).strip():
-            unit = _check_field(problems, where, "unit", _cloud_unit, row["unit"])
+            unit = _check_field(problems, where, "unit", unit_of, row["unit"])
             unit_said = True
         # a refused unit (None, already said) leaves the cloud checked as percent
-        cloud = _check_field(problems, where, "cloud_pct", _cloud_value(unit or "percent"),
+        cloud = _check_field(problems, where, "cloud_pct", cloud_in[unit or "percent"],
                              row["cloud_pct"])
         if cloud is not None:
             largest = max(largest, cloud if unit == "percent" else 100.0)
