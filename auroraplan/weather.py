@@ -428,10 +428,10 @@ def source_names(code) -> np.ndarray:
 
 
 def sources_used(code) -> set:
-    """The names of the sources among ``source_code`` values, by counting each code (no
+    """The names of the sources among ``source_code`` values, by looking for each code (no
     sort over the sites and steps)."""
-    counts = np.bincount(np.asarray(code, np.uint8).ravel(), minlength=NO_SOURCE + 1)
-    return {SOURCES[c] for c in np.flatnonzero(counts[:len(SOURCES)])}
+    code = np.asarray(code)
+    return {name for c, name in enumerate(SOURCES) if (code == c).any()}
 
 
 def cloud_grid(sites, clouds_df, times_utc, tz=None, reading=None, reports=(),
@@ -510,8 +510,9 @@ def cloud_grid(sites, clouds_df, times_utc, tz=None, reading=None, reports=(),
     from_models = ~from_csv & np.isfinite(model_cloud)
     cloud = np.where(from_csv, csv_cloud, model_cloud)
     p_clear = np.where(np.isnan(cloud), fallback, clear_fraction(cloud))
-    code = np.where(from_csv, 0, np.where(from_models, 1, np.where(np.isnan(monthly), 3, 2))
-                    ).astype(np.uint8)
+    code = np.where(np.isnan(monthly), np.uint8(3), np.uint8(2))
+    code[from_models] = 1
+    code[from_csv] = 0
     tally = CloudTally(
         lines=list(reading.warnings) if reading is not None else [], files=files,
         sky_lines=sky_lines, names=list(names),
