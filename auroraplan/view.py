@@ -600,8 +600,10 @@ def _lat_grid(equatorward_deg, poleward_deg):
 
 LOOK_CELLS = 4_000_000
 """Most (site, time, latitude) cells the exact :func:`sightline` holds at once (bounds memory)."""
-LOOK_STEPS = 250_000
-"""Most (site, time) pairs :func:`sightline` works on at once (bounds memory)."""
+LOOK_STEPS = 32_000
+"""Most (site, time) pairs :func:`sightline` works on at once: its working arrays stay in
+the processor's cache (measured on 10,000 sites over a week: 32,000 takes 0.7 of the time of
+250,000; 4,000 is slower again)."""
 
 
 def sightline(table: KpNeeded, kp, mlt_h, visible=True, exact=False) -> dict:
