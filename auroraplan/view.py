@@ -856,24 +856,36 @@ def kp_lost_at(table: KpNeeded, mlt_h) -> np.ndarray:
     return _interp_mlt(table, table.kp_lost, mlt_h, np.minimum)
 
 
+MLT_CELLS = 65_536
+"""(site, time) cells :func:`kp_needed_at` and :func:`kp_lost_at` work on at once: the
+working arrays stay in the processor's cache (a third of the time of one pass over 10,000
+sites by a week of steps)."""
+
+
 def _interp_mlt(table: KpNeeded, values, mlt_h, pick):
     """Periodic linear interpolation of a (N, 96) Kp table at MLTs (N, T); ``pick`` chooses
     between neighbours when one is infinite."""
     mlt_h = np.asarray(mlt_h, dtype=float)
     n, m = values.shape
-    f = np.mod(mlt_h, 24.0) / MLT_STEP_H
-    f[~(f < m)] = 0.0  # 24 h after rounding, and NaN (whose result is NaN all the same)
-    lo = f.astype(np.intp)
-    w = f - lo
-    w[np.isnan(mlt_h)] = np.nan
+    flat_mlt = mlt_h.reshape(n, -1)
     # Each row closed by its first column, so the upper neighbour is the next one.
     ring = np.concatenate([values, values[:, :1]], axis=1).ravel()
-    at = lo.reshape(n, -1) + (np.arange(n) * (m + 1))[:, None]
-    a, b = ring[at].reshape(lo.shape), ring[at + 1].reshape(lo.shape)
-    finite = np.isfinite(a) & np.isfinite(b)
-    with np.errstate(invalid="ignore"):
-        lin = a + w * (b - a)
-    return np.where(finite, lin, np.where(w == 0, a, pick(a, b)))
+    out = np.empty(flat_mlt.shape)
+    rows = max(1, MLT_CELLS // max(1, flat_mlt.shape[1]))
+    for start in range(0, n, rows):
+        part = slice(start, start + rows)
+        f = np.mod(flat_mlt[part], 24.0) / MLT_STEP_H
+        f[~(f < m)] = 0.0  # 24 h after rounding, and NaN (whose result is NaN all the same)
+        lo = f.astype(np.intp)
+        w = f - lo
+        w[np.isnan(flat_mlt[part])] = np.nan
+        at = lo + (np.arange(start, start + lo.shape[0]) * (m + 1))[:, None]
+        a, b = ring[at], ring[at + 1]
+        finite = np.isfinite(a) & np.isfinite(b)
+        with np.errstate(invalid="ignore"):
+            lin = a + w * (b - a)
+        out[part] = np.where(finite, lin, np.where(w == 0, a, pick(a, b)))
+    return out.reshape(mlt_h.shape)
 
 
 def best_night_mlt(table: KpNeeded) -> tuple[np.ndarray, np.ndarray]:
