@@ -262,7 +262,7 @@ def _phase_angle_deg(sun_tod: np.ndarray, moon_tod: np.ndarray) -> np.ndarray:
     return np.degrees(np.arccos(np.clip(cos_i, -1.0, 1.0)))
 
 
-def sun_moon_altaz(lat_deg, lon_deg, height_m, times_utc, chunk_size=2_000_000) -> SkyTrack:
+def sun_moon_altaz(lat_deg, lon_deg, height_m, times_utc, chunk_size=262_144) -> SkyTrack:
     """Sun and moon altitude and azimuth for N sites at T times in one array computation.
 
     Parameters
@@ -274,7 +274,9 @@ def sun_moon_altaz(lat_deg, lon_deg, height_m, times_utc, chunk_size=2_000_000) 
     times_utc : array_like of datetime64 (T,)
         UTC times.
     chunk_size : int
-        Site-steps worked on at once; bounds the memory in use.
+        Site-steps worked on at once; bounds the memory in use and keeps the working
+        arrays near the processor (10,000 sites by a week of 10-minute steps: 262,144
+        takes 0.7 of the time of 2,000,000).
 
     Returns
     -------
@@ -623,6 +625,29 @@ def moonlit_sky_mag(
     moonlight", PASP 103, 1033-1039: eqs. 1, 2, 3, 15, 20, 21. The authors
     report 8-23 % agreement with measured sky brightness.
     """
+    args = (dark_sky_mag, moon_alt_deg, moon_az_deg, target_alt_deg, target_az_deg,
+            moon_phase_angle_deg, k_v)
+    shape = np.broadcast_shapes(*(np.shape(a) for a in args))
+    rows = max(1, SKY_CELLS // max(1, int(np.prod(shape[1:]))))
+    if len(shape) < 2 or shape[0] <= rows:
+        return _moonlit_sky_mag(*args, dark_sky_at_zenith)
+    # In blocks of rows, so that the working arrays stay in the processor's cache.
+    whole = [np.broadcast_to(np.asarray(a, dtype=float), shape) for a in args]
+    out = np.empty(shape)
+    for start in range(0, shape[0], rows):
+        part = slice(start, start + rows)
+        out[part] = _moonlit_sky_mag(*(a[part] for a in whole), dark_sky_at_zenith)
+    return out
+
+
+SKY_CELLS = 65_536
+"""Cells :func:`moonlit_sky_mag` works on at once (measured on 10,000 sites by a week of
+steps: 0.4 of the time of one pass over everything)."""
+
+
+def _moonlit_sky_mag(dark_sky_mag, moon_alt_deg, moon_az_deg, target_alt_deg, target_az_deg,
+                     moon_phase_angle_deg, k_v, dark_sky_at_zenith):
+    """:func:`moonlit_sky_mag` of arrays small enough to stay in the processor's cache."""
     target_alt = np.asarray(target_alt_deg, dtype=float)
     dark_nl = mag_to_nl(dark_sky_mag)
     if dark_sky_at_zenith:
