@@ -14,13 +14,15 @@ each column is checked as a whole:
   time gives the minutes (:func:`_times` says which forms, all read by
   ``checks.parse_utc`` to the same instant); UTF-8 is checked by Arrow as it converts.
 
-This path only accepts: whenever a cell fails, or the file has anything it does not vouch
-for (a quoted header, a short row, a file mixing zoned and plain times, a repeated hour),
-it answers None and the loader reads the file row by row, which finds the bad row and names
-it in its usual one line. Every row is checked, not only those of the nights a command
-asks for: the same file gives the same errors whatever the command or its dates. Files
-below ``COLUMNWISE_FROM_BYTES`` are read row by row directly (Arrow's import would cost
-more than it saves).
+This path only accepts. Where cells fail, or hours repeat, it marks their rows on the
+arrays and answers :class:`Located`: the loader reads just those lines row by row, whose
+one-line errors name them as in the whole file (and reads the whole file instead when the
+row reader finds a marked cell fine: a form Python reads and Arrow does not). Where it
+cannot split the file at all (a quoted header, a short row, a number Arrow cannot read)
+it answers None and the loader reads the whole file row by row. Every row is checked, not
+only those of the nights a command asks for: the same file gives the same errors whatever
+the command or its dates. Files below ``COLUMNWISE_FROM_BYTES`` are read row by row
+directly (Arrow's import would cost more than it saves).
 
 The tables (:class:`ActivityTable`, :class:`CloudTable`) are plain numpy columns, so the
 commands that read them need no pandas; ``to_frame()`` gives a pandas DataFrame where one
@@ -34,6 +36,8 @@ import io
 from pathlib import Path
 
 import numpy as np
+
+from auroraplan.checks import FILE_YEARS
 
 COLUMNWISE_FROM_BYTES = 256 * 1024
 """Files at least this large are read column-wise (measured: below it the row-by-row
@@ -257,9 +261,10 @@ def _columns(path: Path, required, optional, kinds: dict):
 
 def _distinct(column, checker, known=frozenset()):
     """``checker`` applied once to each distinct cell of a text column: (values (K,), the
-    value's index for every row (R,)). Cells the checker reads alike (" A" and "A") share
-    one value; the checker strips the cell itself, as it does in the row reader. A cell
-    in ``known`` is one the checker returns unchanged, taken without calling it."""
+    value's index for every row (R,), -1 where the checker refused the cell). Cells the
+    checker reads alike (" A" and "A") share one value; the checker strips the cell
+    itself, as it does in the row reader. A cell in ``known`` is one the checker returns
+    unchanged, taken without calling it."""
     column = column.unify_dictionaries()  # one dictionary for every chunk
     if not column.num_chunks:
         return [], np.empty(0, dtype=np.int64)
@@ -273,7 +278,8 @@ def _distinct(column, checker, known=frozenset()):
             try:
                 value = checker(text)
             except ValueError:
-                raise _NotVouched from None
+                remap[k] = -1
+                continue
         if value not in index_of_value:
             index_of_value[value] = len(values)
             values.append(value)
@@ -284,54 +290,94 @@ def _distinct(column, checker, known=frozenset()):
     return values, codes if same else remap[codes]
 
 
-def _numbers(column, empty_allowed=False) -> np.ndarray:
-    """A number column as float64; an empty cell is NaN where ``empty_allowed``. Arrow's
-    decimal reader accepts a subset of what Python's ``float`` reads (no "1_0", no
-    padding it does not trim) and gives the same double for it, so only the range is left
-    to check (:func:`_within`)."""
-    if column.null_count and not empty_allowed:
-        raise _NotVouched
+def _numbers(column) -> tuple[np.ndarray, np.ndarray | None]:
+    """A number column as float64 (NaN where empty) and which cells were left empty
+    (None: none). Arrow's decimal reader accepts a subset of what Python's ``float``
+    reads (no "1_0", no padding it does not trim) and gives the same double for it, so
+    only the range is left to check (:func:`_outside`)."""
     values = column.to_numpy()
-    if np.count_nonzero(np.isnan(values)) != column.null_count:
-        raise _NotVouched  # "nan" written out: the row reader refuses it
-    return values
+    empty = column.is_null().to_numpy(zero_copy_only=False) if column.null_count else None
+    return values, empty
 
 
-def _within(values, low, high) -> np.ndarray:
-    """``values`` when every one given (not NaN) is finite, from ``low`` to ``high``."""
-    given = values[~np.isnan(values)] if np.isnan(values).any() else values
-    if given.size and not (given.min() >= low and given.max() <= high):
-        raise _NotVouched  # also for infinities, which lie beyond any finite bound
-    return values
+def _outside(values, low, high, empty=None, empty_allowed=False) -> np.ndarray | None:
+    """Which values are not finite within ``low`` to ``high`` (a "nan" written out and an
+    empty cell included, the empty ones left out where ``empty_allowed``), or None when
+    every one is within."""
+    if not values.size or (values.min() >= low and values.max() <= high):
+        return None  # (a NaN makes both comparisons false)
+    outside = ~((values >= low) & (values <= high))
+    if empty_allowed and empty is not None:
+        outside &= ~empty
+    return outside if outside.any() else None
 
 
 _TIME_MIN_LENGTH = 16
 """``YYYY-MM-DDThh:mm``: a time must give the minutes (the row reader's ``checks.parse_utc``
 refuses the hour alone, which Arrow's ISO 8601 reader takes)."""
 
+_MOST_LOCATED = 5000
+"""Most bad times looked for one by one (by halving the rows Arrow refuses); beyond, the
+row reader reads the whole file."""
 
-def _minutes_given(column) -> bool:
-    """Every text of a string column at least ``_TIME_MIN_LENGTH`` long with ":" after
-    the hour (the bytes at position 13)."""
+
+def _minutes_missing(column) -> np.ndarray | None:
+    """Which texts of a string column are shorter than ``_TIME_MIN_LENGTH`` or lack ":"
+    after the hour (the byte at position 13); None when every one has them."""
     import pyarrow as pa
 
+    chunks = []
     for chunk in column.chunks:
         if chunk.null_count or not isinstance(chunk, pa.StringArray):
-            return False
-        if not len(chunk):
-            continue
+            raise _NotVouched
         _, offsets, data = chunk.buffers()
         offsets = np.frombuffer(offsets, dtype=np.int32)[chunk.offset:
                                                          chunk.offset + len(chunk) + 1]
-        text = np.frombuffer(data, dtype=np.uint8)
-        if (np.diff(offsets).min() < _TIME_MIN_LENGTH
-                or np.any(text[offsets[:-1] + 13] != ord(":"))):
-            return False
-    return True
+        chunks.append((offsets, np.frombuffer(data, dtype=np.uint8) if data else
+                       np.zeros(0, dtype=np.uint8)))
+    if all(len(o) < 2 or (np.diff(o).min() >= _TIME_MIN_LENGTH
+                          and not np.any(text[o[:-1] + 13] != ord(":")))
+           for o, text in chunks):
+        return None
+    marks = []
+    for offsets, text in chunks:
+        short = np.diff(offsets) < _TIME_MIN_LENGTH
+        at = np.where(short, 0, offsets[:-1] + 13)
+        marks.append(short | (text[at] != ord(":")) if text.size else short)
+    return np.concatenate(marks)
 
 
-def _times(column) -> np.ndarray:
-    """ISO 8601 texts as UTC datetime64[s] within ``checks.FILE_YEARS``.
+def _cast_times(column, stamp):
+    """UTC seconds of every text Arrow's ISO 8601 reader takes as ``stamp`` and which
+    texts it refuses (None: none), found by halving the rows refused."""
+    import pyarrow as pa
+    import pyarrow.compute as pc
+
+    try:
+        return pc.cast(column, stamp).cast(pa.int64()).to_numpy(), None
+    except (pa.ArrowInvalid, pa.ArrowException):
+        pass
+    flat = column.combine_chunks()
+    seconds = np.zeros(len(flat), dtype=np.int64)
+    refused = np.zeros(len(flat), dtype=bool)
+    spans, count = [(0, len(flat))], 0
+    while spans:
+        a, b = spans.pop()
+        try:
+            seconds[a:b] = pc.cast(flat.slice(a, b - a), stamp).cast(pa.int64()).to_numpy()
+        except (pa.ArrowInvalid, pa.ArrowException):
+            if b - a > 1:
+                spans += [((a + b) // 2, b), (a, (a + b) // 2)]
+            else:
+                refused[a], count = True, count + 1
+                if count > _MOST_LOCATED:
+                    raise _NotVouched from None
+    return seconds, refused
+
+
+def _times(column) -> tuple[np.ndarray, np.ndarray | None]:
+    """ISO 8601 texts as UTC datetime64[s], and which texts are not read to the instant
+    ``checks.file_time`` reads (None: every one is).
 
     Arrow's ISO 8601 reader (``pyarrow.compute.cast`` to a timestamp) reads
     ``YYYY-MM-DD[T ]hh:mm[:ss]`` with "Z" or an offset (``+hh``, ``+hhmm``, ``+hh:mm``)
@@ -341,30 +387,28 @@ def _times(column) -> np.ndarray:
     the hour without minutes, which ``parse_utc`` refuses: every text must therefore be at
     least ``_TIME_MIN_LENGTH`` long with ":" after the hour, checked on the bytes first.
     Cells padded with ASCII blanks (``site, 2027-01-11T18:00Z, 40``) are trimmed first,
-    as ``parse_utc`` strips them (it strips more: anything else falls to the row reader).
-    A file mixing zoned and plain times is left to the row reader.
+    as ``parse_utc`` strips them (it strips more: such a cell is marked, for the row
+    reader to judge). Texts outside ``checks.FILE_YEARS`` are marked. The kind of time
+    (zoned or plain) is that of the first row: the other kind is marked too.
     """
     import pyarrow as pa
     import pyarrow.compute as pc
 
-    from auroraplan.checks import FILE_YEARS
-
-    if not _minutes_given(column):
+    missing = _minutes_missing(column)
+    if missing is not None:
         column = pc.ascii_trim_whitespace(column)
-        if not _minutes_given(column):
-            raise _NotVouched
+        missing = _minutes_missing(column)
     first = column[0].as_py()
     zoned = any(c in first[_TIME_MIN_LENGTH:] for c in "Z+-")
-    try:
-        stamps = pc.cast(column, pa.timestamp("s", tz="UTC") if zoned else pa.timestamp("s"))
-    except (pa.ArrowInvalid, pa.ArrowException):
-        raise _NotVouched from None
-    seconds = stamps.cast(pa.int64()).to_numpy()
-    lowest = _days_from_civil(FILE_YEARS[0], 1, 1) * 86400
-    beyond = _days_from_civil(FILE_YEARS[1] + 1, 1, 1) * 86400
-    if seconds.min() < lowest or seconds.max() >= beyond:
-        raise _NotVouched
-    return seconds.view("datetime64[s]")
+    seconds, refused = _cast_times(
+        column, pa.timestamp("s", tz="UTC") if zoned else pa.timestamp("s"))
+    lowest, beyond = _FIRST_SECOND, _days_from_civil(FILE_YEARS[1] + 1, 1, 1) * 86400
+    bad = missing
+    for marks in (refused, None if (seconds.min() >= lowest and seconds.max() < beyond)
+                  else (seconds < lowest) | (seconds >= beyond)):
+        if marks is not None:
+            bad = marks if bad is None else bad | marks
+    return seconds.view("datetime64[s]"), bad
 
 
 def _days_from_civil(year, month, day):
@@ -378,8 +422,58 @@ def _days_from_civil(year, month, day):
     return era * 146097 + doe - 719468
 
 
-def read_activity(path: Path, required, optional, kp, kp_sd_range, block_s) -> ActivityTable | None:
-    """activity.csv column-wise; None when only the row-by-row reader can say what is wrong.
+_FIRST_SECOND = _days_from_civil(FILE_YEARS[0], 1, 1) * 86400
+"""The first second of ``checks.FILE_YEARS`` (UTC, from 1970): the origin of sort keys."""
+
+
+class Located:
+    """What the column-wise path found wrong in a file it split: the data rows (0-based,
+    as Arrow counts them) with a refused cell (``cells``) and those sharing a key (site
+    and hour, block) with another row (``repeats``). The loader reads just those lines
+    row by row for its one-line errors (:func:`located_lines`)."""
+
+    def __init__(self, path: Path, rows: int, cells, repeats):
+        self.path, self.rows, self.cells, self.repeats = path, rows, cells, repeats
+
+
+def _located(path, bad, keys) -> Located | None:
+    """Located rows of a file: the ``bad`` rows (a mask, or None), and the rows among the
+    others whose ``keys`` (int64) repeat; None when nothing is wrong."""
+    good = np.flatnonzero(~bad) if bad is not None else np.arange(len(keys))
+    order = np.argsort(keys[good], kind="stable")
+    ranked = keys[good][order]
+    same = np.flatnonzero(ranked[1:] == ranked[:-1])
+    if bad is None and not same.size:
+        return None
+    repeats = np.unique(good[order][np.concatenate([same, same + 1])])
+    cells = np.flatnonzero(bad) if bad is not None else np.empty(0, dtype=np.int64)
+    return Located(path, len(keys), cells, repeats)
+
+
+def located_lines(located: Located):
+    """(text, line numbers, lines of bad cells) of the located rows: the header line and
+    each located row's line, the file line number of each, and the set of those with a
+    bad cell; None when the lines of the file cannot be told from its rows (quotes, NUL,
+    lone carriage returns)."""
+    data = located.path.read_bytes()
+    if b'"' in data or b"\x00" in data or data.count(b"\r") != data.count(b"\r\n"):
+        return None
+    lines = data.split(b"\n")
+    rows = [k for k in range(2, len(lines) + 1) if lines[k - 1] not in (b"", b"\r")]
+    if len(rows) != located.rows:
+        return None
+    wanted = np.union1d(located.cells, located.repeats)
+    numbers = [rows[i] for i in wanted]
+    try:
+        text = b"\n".join([lines[0]] + [lines[k - 1] for k in numbers]).decode("utf-8-sig")
+    except UnicodeDecodeError:
+        return None
+    return text + "\n", numbers, {rows[i] for i in located.cells}
+
+
+def read_activity(path: Path, required, optional, kp, kp_sd_range, block_s):
+    """activity.csv column-wise: the ActivityTable; or the rows found wrong (``Located``);
+    or None when only the row-by-row reader can say what is wrong.
 
     ``kp`` is the row reader's Kp cell checker, ``kp_sd_range`` the (low, high) a
     ``kp_sd`` cell may hold (empty: NaN); ``block_s`` the block length in seconds that
@@ -389,31 +483,39 @@ def read_activity(path: Path, required, optional, kp, kp_sd_range, block_s) -> A
     try:
         columns = _columns(path, required, optional,
                            {"start_utc": "time", "kp": "text", "kp_sd": "number"})
-        starts = _times(columns["start_utc"])
-        seconds = starts.astype(np.int64)
-        if np.any(seconds % block_s):
-            return None
-        order = None if np.all(np.diff(seconds) > 0) else np.argsort(seconds, kind="stable")
-        if order is not None and np.any(np.diff(seconds[order]) == 0):
-            return None  # a repeated block: the row reader names both lines
+        starts, bad = _times(columns["start_utc"])
+        seconds = starts.view(np.int64)
+        off_block = seconds % block_s != 0
         values, code = _distinct(columns["kp"], kp)
-        kps = np.array(values, dtype=float)[code]
-        sds = (_within(_numbers(columns["kp_sd"], empty_allowed=True), *kp_sd_range)
-               if "kp_sd" in columns else np.full(len(starts), np.nan))
+        sds, empty = (_numbers(columns["kp_sd"]) if "kp_sd" in columns
+                      else (np.full(len(starts), np.nan), None))
+        for marks in (off_block if off_block.any() else None,
+                      code < 0 if len(values) == 0 or code.min() < 0 else None,
+                      _outside(sds, *kp_sd_range, empty, empty_allowed=True)):
+            if marks is not None:
+                bad = marks if bad is None else bad | marks
     except _NotVouched:
         return None
-    table = ActivityTable(start_utc=starts, kp=kps, kp_sd=sds)
+    order = None
+    if bad is not None or not np.all(np.diff(seconds) > 0):
+        found = _located(path, bad, seconds)
+        if found is not None:
+            return found  # a bad cell or a repeated block: the row reader names them
+        order = np.argsort(seconds, kind="stable")
+    table = ActivityTable(start_utc=starts, kp=np.array(values, dtype=float)[code], kp_sd=sds)
     return table if order is None else table.take(order)
 
 
 def read_clouds(path: Path, required, optional, site_names, unit_of, cloud_range,
-                default_unit="percent") -> CloudTable | None:
-    """clouds.csv column-wise; None when only the row-by-row reader can say what is wrong.
+                default_unit="percent"):
+    """clouds.csv column-wise: the CloudTable; or the rows found wrong (``Located``);
+    or None when only the row-by-row reader can say what is wrong.
 
     ``unit_of(text)`` reads the ``unit`` cell (the row reader's checker);
     ``cloud_range(unit)`` gives (low, high, factor to percent) of a cloud cell in that
-    unit. Sites not in ``site_names``, a repeated site and hour, or a file whose values
-    all look like fractions are left to the row reader, which names them."""
+    unit. Sites not in ``site_names`` and repeated sites and hours are located for the
+    row reader, which names them; a file whose values all look like fractions is left to
+    it whole."""
     if site_names is None or path.stat().st_size < COLUMNWISE_FROM_BYTES:
         return None
     from auroraplan import checks
@@ -436,25 +538,29 @@ def read_clouds(path: Path, required, optional, site_names, unit_of, cloud_range
         columns = _columns(path, required, optional, {
             "site": "text", "time_utc": "time", "cloud_pct": "number", "unit": "text"})
         names, code = _distinct(columns["site"], site, known=site_names)
-        times = _times(columns["time_utc"])
-        given = _numbers(columns["cloud_pct"])
+        times, bad = _times(columns["time_utc"])
+        given, empty = _numbers(columns["cloud_pct"])
         units, unit_code = (_distinct(columns["unit"], unit) if "unit" in columns
                             else ([default_unit], None))
-        def in_percent(values, word):
-            low, high, factor = cloud_range(word)
-            _within(values, low, high)
-            return values * factor if factor != 1 else values
-
-        if len(units) == 1:
-            cloud = in_percent(given, units[0])
+        if len(units) == 1 and (unit_code is None or unit_code.min() >= 0):
+            low, high, factor = cloud_range(units[0])
+            cloud = given * factor if factor != 1 else given
+            marks = [_outside(given, low, high, empty)]
         else:
-            cloud = np.empty(len(given))
+            cloud = np.full(len(given), np.nan)
+            marks = [unit_code < 0]
             for u, word in enumerate(units):
                 rows = unit_code == u
-                cloud[rows] = in_percent(given[rows], word)
+                low, high, factor = cloud_range(word)
+                cloud[rows] = given[rows] * factor
+                marks.append(rows & ~((given >= low) & (given <= high)))
+        marks.append(code < 0 if not names or code.min() < 0 else None)
+        for mark in marks:
+            if mark is not None and mark.any():
+                bad = mark if bad is None else bad | mark
     except _NotVouched:
         return None
-    if not any(said) and 0.0 < cloud.max() <= 1.0:  # every row in percent
+    if bad is None and not any(said) and 0.0 < cloud.max() <= 1.0:  # every row in percent
         return None
     # Rows by site name, then time, as the row reader keeps them: one sort key per row.
     names = np.array(names, dtype=object)
@@ -462,17 +568,16 @@ def read_clouds(path: Path, required, optional, site_names, unit_of, cloud_range
     if np.array_equal(by_name, np.arange(len(names))):
         key = code.astype(np.int64)  # the sites came in name order
     else:
-        rank = np.empty(len(names), dtype=np.int64)
+        rank = np.empty(len(names) + 1, dtype=np.int64)
         rank[by_name] = np.arange(len(names))
+        rank[-1] = -1  # a refused site (code -1): located above
         key = rank[code]
-    seconds = times.view(np.int64)
-    key <<= 34  # 2**34 s: over 500 years, more than the years a file may span
-    key += seconds
-    key -= seconds.min()
-    step = np.diff(key)
-    if not np.all(step > 0):
+    key <<= 34  # 2**34 s: over 500 years, more than FILE_YEARS spans
+    key += times.view(np.int64) - _FIRST_SECOND
+    if bad is not None or not np.all(np.diff(key) > 0):
+        found = _located(path, bad, key)
+        if found is not None:
+            return found  # bad cells or a repeated site and hour: the row reader names them
         order = np.argsort(key, kind="stable")
-        code, times, cloud, step = code[order], times[order], cloud[order], np.diff(key[order])
-        if np.any(step == 0):
-            return None  # a repeated site and hour: the row reader names both lines
+        code, times, cloud = code[order], times[order], cloud[order]
     return CloudTable(site=names[code], time_utc=times, cloud_pct=cloud)

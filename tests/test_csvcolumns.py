@@ -69,17 +69,18 @@ def test_the_column_wise_tables_equal_the_row_readers(big, monkeypatch):
     assert np.all(np.diff(fast.clouds["time_utc"][:72].astype(np.int64)) == 3600)
 
 
-def test_a_file_it_cannot_vouch_for_is_read_row_by_row_with_the_same_result(big, tmp_path,
-                                                                            monkeypatch):
-    # Times with an offset and a percent unit column: the row reader's business.
+def test_times_with_an_offset_and_a_unit_column_give_the_row_readers_table(big, tmp_path,
+                                                                         monkeypatch):
     folder = shutil.copytree(big, tmp_path / "ws")
     text = (folder / "clouds.csv").read_text(encoding="utf-8").splitlines()
     text[0] += ",unit"
     text[1:] = [line.replace("Z,", "+00:00,") + ",%" for line in text[1:]]
     (folder / "clouds.csv").write_text("\n".join(text) + "\n", encoding="utf-8")
-    args = ("site", "time_utc", "cloud_pct"), ("unit",), {"Bench site 001"}, str, str
-    assert csvcolumns.read_clouds(folder / "clouds.csv", *args) is None
-    assert load_workspace(folder).clouds == load_workspace(big).clouds
+    names = {s.name for s in load_workspace(big).sites}
+    fast = csvcolumns.read_clouds(folder / "clouds.csv", *CSV_COLUMNS["clouds"], names,
+                                  _cloud_unit, lambda unit: checks.PERCENT_CELLS[unit][:3])
+    assert isinstance(fast, csvcolumns.CloudTable)  # taken by the fast path itself
+    assert fast == row_by_row(folder, monkeypatch).clouds == load_workspace(big).clouds
 
 
 @pytest.mark.parametrize("line, cell, said", [
@@ -315,3 +316,43 @@ def test_a_remembered_checker_answers_a_repeated_cell_as_the_checker_does():
         with pytest.raises(ValueError, match=r"^130 is outside 0 to 100 %$"):
             remembered("130")
     assert calls == ["40", "130"]  # each distinct cell checked once
+
+
+@pytest.mark.usefixtures("restored_threshold")
+def test_a_cell_only_arrow_refuses_sends_the_whole_file_to_the_row_reader(tmp_path):
+    # Line 4 gives 12:00 again with a lowercase "z", which Python reads and Arrow does
+    # not; line 5 has a bad cloud. Reading only the located lines (4 and 5) would miss
+    # that line 4 repeats line 2: the row reader must read the whole file.
+    path = tmp_path / "clouds.csv"
+    path.write_text("site,time_utc,cloud_pct\n"
+                    "Aspen Knoll,2027-01-11T12:00Z,10\n"
+                    "Aspen Knoll,2027-01-11T13:00Z,20\n"
+                    "Aspen Knoll,2027-01-11T12:00z,30\n"
+                    "Aspen Knoll,2027-01-11T14:00Z,130\n", encoding="utf-8")
+    (fast_problems, fast), (slow_problems, _) = _both_ways(path, "clouds")
+    assert fast is None and fast_problems == slow_problems
+    assert any("line 4" in p and "also on line 2" in p for p in fast_problems)
+    assert any("line 5, cloud_pct" in p for p in fast_problems)
+
+
+@pytest.mark.usefixtures("restored_threshold")
+def test_bad_rows_are_located_column_wise_and_named_as_by_the_whole_file(tmp_path):
+    # A bad cloud, an unknown site (twice), a repeated hour and a bad time: only those
+    # lines (and the line the repeat repeats) go through the row reader.
+    path = tmp_path / "clouds.csv"
+    rows = [f"{site},2027-01-11T{h:02d}:00Z,{h}" for site in SITES for h in range(24)]
+    rows[5] = "Aspen Knoll,2027-01-11T05:00Z,101"
+    rows[30] = rows[30].replace("Birch Flat", "Nowhere Point")
+    rows[31] = rows[31].replace("Birch Flat", "Nowhere Point")
+    rows[50] = rows[49]
+    rows[60] = "Cedar Shore,2027-02-30T12:00Z,5"
+    path.write_text("site,time_utc,cloud_pct\n" + "\n".join(rows) + "\n", encoding="utf-8")
+    csvcolumns.COLUMNWISE_FROM_BYTES = 0
+    found = csvcolumns.read_clouds(path, *CSV_COLUMNS["clouds"], set(SITES), _cloud_unit,
+                                   lambda unit: checks.PERCENT_CELLS[unit][:3])
+    assert isinstance(found, csvcolumns.Located)
+    assert list(found.cells) == [5, 30, 31, 60] and list(found.repeats) == [49, 50]
+    (fast_problems, _), (slow_problems, _) = _both_ways(path, "clouds")
+    assert fast_problems == slow_problems and len(fast_problems) == 4
+    assert any("line 52, time_utc: Cedar Shore at 2027-01-11T01:00Z is also on line 51" in p
+               for p in fast_problems)

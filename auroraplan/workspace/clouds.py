@@ -9,7 +9,7 @@ from auroraplan.workspace.files import (
     CSV_COLUMNS,
     FILE_NAMES,
     _check_field,
-    _table_or_rows,
+    _read_checked,
 )
 
 CLOUD_UNITS = {"%": "percent", "percent": "percent", "pct": "percent", "fraction": "fraction",
@@ -24,19 +24,22 @@ _cloud_value = checks.percent_cell
 
 def _load_clouds(path, label, site_names, problems: ProblemList, default_unit="percent"):
     """CloudTable, or None with the problems added. A large file is read column-wise
-    (auroraplan.csvcolumns); one it cannot vouch for is read row by row, which names
-    each bad row.
+    (auroraplan.csvcolumns); the bad rows it finds, or the whole of a file it cannot
+    split, are read row by row (``_check_rows``), which names each bad row.
 
     ``cloud_pct`` is percent unless the row's ``unit`` column or ``[weather] clouds_unit``
     says fraction. A file whose values all lie within 0-1 (and are not all 0) with no unit
     saying fraction is rejected: 0.7 % is far likelier to be a fraction typed as percent.
     """
-    table, rows = _table_or_rows(
-        csvcolumns.read_clouds(path, *CSV_COLUMNS["clouds"], site_names, _cloud_unit,
-                               lambda unit: checks.PERCENT_CELLS[unit][:3], default_unit),
-        path, label, "clouds", problems)
-    if rows is None:
-        return table
+    found = csvcolumns.read_clouds(path, *CSV_COLUMNS["clouds"], site_names, _cloud_unit,
+                                   lambda unit: checks.PERCENT_CELLS[unit][:3], default_unit)
+    return _read_checked(found, path, label, "clouds", problems,
+                         lambda rows, said: _check_rows(rows, label, site_names, said,
+                                                        default_unit))
+
+
+def _check_rows(rows, label, site_names, problems: ProblemList, default_unit):
+    """The row reader: (CloudTable or None, the lines found wrong), problems added."""
     site_of, unit_of = checks.remembered(checks.text), checks.remembered(_cloud_unit)
     cloud_in = {unit: checks.remembered(_cloud_value(unit)) for unit in ("percent", "fraction")}
     names, times, clouds = [], [], []
@@ -44,6 +47,7 @@ def _load_clouds(path, label, site_names, problems: ProblemList, default_unit="p
     largest = 0.0
     unknown = {}  # site name -> (first line, rows)
     first_line = {}
+    wrong = set()
     for line, row in rows:
         where = f"{label} line {line}"
         before = len(problems)
@@ -61,14 +65,17 @@ def _load_clouds(path, label, site_names, problems: ProblemList, default_unit="p
         if name is not None and site_names is not None and name not in site_names:
             first, count = unknown.get(name, (line, 0))
             unknown[name] = (first, count + 1)
+            wrong.add(line)
             continue
         if len(problems) > before:
+            wrong.add(line)
             continue
         if (name, when) in first_line:
             problems.add(
                 f"{where}, time_utc: {name} at {when:%Y-%m-%dT%H:%MZ} is also on line "
                 f"{first_line[(name, when)]}; give each hour once"
             )
+            wrong.add(line)
             continue
         first_line[(name, when)] = line
         names.append(name)
@@ -87,4 +94,4 @@ def _load_clouds(path, label, site_names, problems: ProblemList, default_unit="p
             "looks like fractions; write percent 0-100, or add a column unit with "
             "'fraction', or set clouds_unit = \"fraction\" in [weather] of operator.toml"
         )
-    return None if problems else CloudTable.from_rows(names, times, clouds)
+    return (None if problems else CloudTable.from_rows(names, times, clouds)), wrong

@@ -58,10 +58,12 @@ def _read_text(path: Path, label: str, problems: ProblemList) -> str | None:
     return text
 
 
-def _read_csv_rows(text: str, label: str, role: str, problems: ProblemList):
+def _read_csv_rows(text: str, label: str, role: str, problems: ProblemList, numbers=None):
     """(line number, {column: text}) for each data row; header problems are added.
 
-    Blank lines are skipped. An empty list when the header is unusable.
+    Blank lines are skipped. An empty list when the header is unusable. ``numbers``: the
+    file line number of each data line of ``text`` (some lines of a file, one record
+    each), to name them as in the whole file.
     """
     required, optional = CSV_COLUMNS[role]
     reader = csv.reader(io.StringIO(text))
@@ -90,6 +92,8 @@ def _read_csv_rows(text: str, label: str, role: str, problems: ProblemList):
         for fields in reader:
             # A quoted value may span lines: a record is named by the line it starts on.
             line, end = end + 1, reader.line_num
+            if numbers is not None:
+                line = numbers[line - 2]
             if not any(f.strip() for f in fields):
                 continue
             if len(fields) > len(header):
@@ -105,13 +109,32 @@ def _read_csv_rows(text: str, label: str, role: str, problems: ProblemList):
     return rows
 
 
-def _table_or_rows(table, path: Path, label: str, role: str, problems: ProblemList):
-    """(table, None) when the column-wise reader vouched for the file (``table`` not None);
-    else (None, the file's rows) for the row reader, or (None, None) with a problem added."""
-    if table is not None:
-        return table, None
+def _read_checked(found, path: Path, label: str, role: str, problems: ProblemList,
+                  check_rows):
+    """The table of a forecast file, or None with its problems added.
+
+    ``found`` is what the column-wise reader gave: the table; ``csvcolumns.Located``
+    rows, which are then read row by row alone; or None, when the whole file is.
+    ``check_rows(rows, problems)`` is the row reader's check: (table or None, the lines
+    it found wrong). Located rows stand for the file only when the row reader finds every
+    located bad cell wrong; else (a cell Arrow refuses and Python reads) the whole file
+    is read, so the problems are always the whole file's.
+    """
+    from auroraplan import csvcolumns
+
+    if found is not None and not isinstance(found, csvcolumns.Located):
+        return found
+    if found is not None and (lines := csvcolumns.located_lines(found)) is not None:
+        text, numbers, cell_lines = lines
+        said = ProblemList()
+        _, wrong = check_rows(_read_csv_rows(text, label, role, said, numbers=numbers), said)
+        if len(said) and cell_lines <= wrong:
+            problems.problems.extend(said.problems)
+            return None
     text = _read_text(path, label, problems)
-    return None, (None if text is None else _read_csv_rows(text, label, role, problems))
+    if text is None:
+        return None
+    return check_rows(_read_csv_rows(text, label, role, problems), problems)[0]
 
 
 def _check_field(problems, where, name, checker, value):
