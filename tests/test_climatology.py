@@ -281,3 +281,19 @@ def test_the_built_climatology_is_kept_in_the_user_cache_and_rebuilt_when_its_fi
     monkeypatch.setattr(clim, "CACHE_VERSION", clim.CACHE_VERSION + 1)
     clim.kept_climatology(source)
     assert len(builds) == 3
+
+
+def test_exceedance_in_blocks_is_the_same_as_in_one_pass(monkeypatch):
+    # Blocks bound the working arrays only; NaN, inf, negative and beyond-9 needs included.
+    rng = np.random.default_rng(6)
+    table = np.sort(rng.uniform(0.0, 1.0, (40, len(clim.K_GRID))), axis=1)[:, ::-1]
+    need = rng.uniform(-1.0, 10.0, (97, 40))
+    need[::9, ::7] = np.nan
+    need[::11, ::5] = np.inf
+    monkeypatch.setattr(clim, "EXCEEDANCE_CELLS", 10**9)
+    whole = clim.interpolate_exceedance(table, need, clim.K_GRID)
+    monkeypatch.setattr(clim, "EXCEEDANCE_CELLS", 3 * 40)
+    np.testing.assert_array_equal(clim.interpolate_exceedance(table, need, clim.K_GRID), whole)
+    assert np.all(whole[need > 9.0] == 0.0) and np.all(whole[~np.isfinite(need)] == 0.0)
+    rows, cols = np.nonzero(need <= 0.0)  # at or below Kp 0: the table's first level
+    np.testing.assert_array_equal(whole[rows, cols], table[cols, 0])

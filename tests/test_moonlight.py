@@ -130,3 +130,21 @@ def test_a_sea_level_site_sees_a_brighter_moonlit_sky_than_mauna_kea():
     sea = sky.moonlit_sky_mag(21.7, 30.0, 180.0, 20.0, 0.0, 0.0, k_v=sky.extinction_k_v(0.0))
     ks = sky.moonlit_sky_mag(21.7, 30.0, 180.0, 20.0, 0.0, 0.0)
     assert 0.15 <= ks - sea <= 0.25
+
+
+def test_moonlit_sky_in_blocks_is_the_same_as_in_one_pass(monkeypatch):
+    # The blocks only bound the working arrays: every value must be the one-pass value,
+    # for a dark sky per site, a phase per time and a zenith dark sky brightened too.
+    rng = np.random.default_rng(4)
+    n, t = 300, 50
+    args = (rng.uniform(20.0, 22.0, (n, 1)), rng.uniform(-30.0, 60.0, (n, t)),
+            rng.uniform(0.0, 360.0, (n, t)), rng.uniform(-5.0, 90.0, (n, t)),
+            rng.uniform(0.0, 360.0, (n, t)), rng.uniform(0.0, 180.0, (1, t)))
+    k_v = rng.uniform(0.1, 0.3, (n, 1))
+    for zenith in (False, True):
+        monkeypatch.setattr(sky, "SKY_CELLS", 10**9)
+        whole = moonlit_sky_mag(*args, k_v=k_v, dark_sky_at_zenith=zenith)
+        monkeypatch.setattr(sky, "SKY_CELLS", 7 * t)
+        blocks = moonlit_sky_mag(*args, k_v=k_v, dark_sky_at_zenith=zenith)
+        np.testing.assert_array_equal(blocks, whole)
+        assert np.isnan(whole).any() and np.isfinite(whole).any()

@@ -221,3 +221,17 @@ def test_fast_sightline_agrees_with_the_reference_scan():
     assert np.nanmax(np.abs(fast["look_elevation_deg"] - ref["look_elevation_deg"])) < 0.1
     assert fast["overhead"].any() and (~fast["overhead"] & np.isfinite(
         fast["look_azimuth_deg"])).any()  # both kinds of step are in the sample
+
+
+def test_kp_needed_at_in_blocks_is_the_same_as_in_one_pass(monkeypatch):
+    # Blocks bound the working arrays only; unreachable columns and 24 h included.
+    table = view.kp_needed_table([69.65, 40.0, 77.47], [18.96, 15.0, -69.23], 0.0, None,
+                                 when=WHEN)
+    rng = np.random.default_rng(8)
+    mlt = rng.uniform(0.0, 24.0, (3, 400))
+    mlt[:, :2] = [0.0, 24.0]
+    monkeypatch.setattr(view, "MLT_CELLS", 10**9)
+    whole = view.kp_needed_at(table, mlt)
+    monkeypatch.setattr(view, "MLT_CELLS", 400)
+    np.testing.assert_array_equal(view.kp_needed_at(table, mlt), whole)
+    assert np.isinf(whole[1]).all() and np.isfinite(whole[0]).all()
