@@ -868,22 +868,25 @@ def summarise_nights(grid: ChanceGrid, nights: int,
         cols = np.flatnonzero(grid.night_index == d)
         if cols.size == 0:
             continue
-        dark = grid.darkness[:, cols]
-        shown = dark * grid.moon[:, cols] * grid.activity[:, cols]
-        c = grid.chance[:, cols]
+        dark_steps = (grid.darkness[:, cols] > 0).any(axis=0)
         out.dark_hours[:, d] = grid.dark_sky[:, cols].sum(axis=1) * grid.step_min / 60.0
         # Worst source over the dark steps; a night without darkness is described by
         # its whole span, so a forecast that covers it is not reported as missing.
-        dark_steps = dark.any(axis=0)
         kinds = set(grid.kind[cols][dark_steps] if dark_steps.any() else grid.kind[cols]) or {"none"}
         out.kind[d] = next(k for k in ("none", "outlook", "forecast") if k in kinds)
+        out.expected_min[:, d] = nan_as_zero(grid.chance[:, cols]).sum(axis=1) * grid.step_min
+        # The rest only over the steps a window can reach (window_steps): outside them
+        # every site is light and its chance 0.
+        reach = window_steps(dark_steps, grid.chance[:, cols], grid.step_min, cfg)
+        cols, dark_steps = cols[reach], dark_steps[reach]
+        dark = grid.darkness[:, cols]
+        shown = dark * grid.moon[:, cols] * grid.activity[:, cols]
         has_data = (~np.isnan(shown) | (dark == 0)).all(axis=1)
         # Steps without darkness at any site add nothing to P (d = 0 there: p_display_seen).
         p = p_display_seen(shown[:, dark_steps], grid.p_clear[:, cols[dark_steps]],
                            grid.step_min, cfg.decorrelation_min)
         out.p_any[:, d] = np.where(has_data, p, np.nan)
-        filled = nan_as_zero(c)
-        out.expected_min[:, d] = filled.sum(axis=1) * grid.step_min
+        filled = nan_as_zero(grid.chance[:, cols])
         lo, hi = best_windows(filled, dark > 0, grid.mlt[:, cols], grid.step_min, cfg)
         peak = np.argmax(np.where(
             (np.arange(cols.size)[None, :] >= lo[:, None]) & (np.arange(cols.size)[None, :] <= hi[:, None]),
@@ -895,6 +898,35 @@ def summarise_nights(grid: ChanceGrid, nights: int,
         out.window_end[:, d] = np.where(any_dark, grid.times_utc[cols[hi]] + step, np.datetime64("NaT"))
         out.limiting[:, d] = limiting_factor(grid, cols, lo, hi, any_dark, cfg)
     return out
+
+
+FAINT_STEP = 1e-10
+"""A site whose largest chance in a step is this small (or smaller) may have a best block
+that ties with an all-light one (``best_windows``: near the best means within 1e-3 of it
+less 1e-12; 1e-10 leaves room for the rounding of the running sums)."""
+
+
+def window_steps(dark_steps, chance, step_min, cfg) -> slice:
+    """The night's steps (a slice of its K) that every step of a best window of
+    :func:`best_windows` lies in: from ``max(window, shortest window)`` steps before the
+    first step dark at any site to as many after the last. The windows found over them
+    are those over the whole night: blocks wholly outside add 0 and are never the best
+    (the trims and the widening to the shortest window stay inside), except when a
+    site's largest step is at most ``FAINT_STEP``, where an all-light block ties with it;
+    then the whole night. ``chance`` (N, K) is the night's chance (NaN counts as 0)."""
+    k = dark_steps.size
+    on = np.flatnonzero(dark_steps)
+    if on.size == 0:
+        return slice(0, k)
+    pad = max(1, int(round(cfg.max_window_min / step_min)),
+              int(np.ceil(cfg.min_window_min / step_min)))
+    first, last = max(0, on[0] - pad + 1), min(k, on[-1] + pad)
+    if first == 0 and last == k:
+        return slice(0, k)
+    top = np.fmax.reduce(chance[:, first:last], axis=1, initial=0.0)
+    if ((top > 0) & (top <= FAINT_STEP)).any():
+        return slice(0, k)
+    return slice(first, last)
 
 
 def best_windows(chance, dark, mlt, step_min, cfg):

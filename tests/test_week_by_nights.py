@@ -59,6 +59,15 @@ def _both(ws, nights, site_steps):
     return grid, summary, over, by_nights, parts
 
 
+def _summaries_equal(got, want):
+    for f in dataclasses.fields(chance.NightSummary):
+        a, b = getattr(want, f.name), getattr(got, f.name)
+        if a.dtype.kind == "f":
+            np.testing.assert_allclose(b, a, rtol=0, atol=1e-12, err_msg=f.name)
+        else:
+            np.testing.assert_array_equal(b, a, err_msg=f.name)
+
+
 @pytest.mark.parametrize("nights_per_run", [1, 3])
 @pytest.mark.parametrize("which", ["demo", "narrow_hours"])
 def test_night_by_night_equals_one_grid(which, nights_per_run, request):
@@ -67,12 +76,7 @@ def test_night_by_night_equals_one_grid(which, nights_per_run, request):
     grid, summary, over, by_nights, parts = _both(ws, nights,
                                                   nights_per_run * 144 * len(ws.sites))
     assert len(parts) == -(-nights // nights_per_run)
-    for f in dataclasses.fields(chance.NightSummary):
-        a, b = getattr(summary, f.name), getattr(by_nights, f.name)
-        if a.dtype.kind == "f":
-            np.testing.assert_allclose(b, a, rtol=0, atol=1e-12, err_msg=f.name)
-        else:
-            np.testing.assert_array_equal(b, a, err_msg=f.name)
+    _summaries_equal(by_nights, summary)
     rows = np.arange(len(ws.sites))[:, None]
     step = np.where(summary.peak_step >= 0, summary.peak_step, 0)
     for key in ("look_azimuth_deg", "look_elevation_deg", "overhead"):
@@ -167,3 +171,34 @@ def test_night_runs_hold_whole_nights_within_the_site_steps():
     assert chance.night_runs(night_index, 10, 300 * 10) == [(0, 2), (2, 4), (4, 5)]
     # a night larger than the limit is one run by itself
     assert chance.night_runs(night_index, 10_000, 10) == [(d, d + 1) for d in range(5)]
+
+
+@pytest.mark.parametrize("which", ["demo", "narrow_hours"])
+def test_night_summaries_over_the_steps_a_window_reaches_equal_the_whole_night(
+        which, request, monkeypatch):
+    # The reference: every step of every night (window_steps giving the whole night).
+    ws = request.getfixturevalue(which)
+    grid, fast = report._grid_for_nights(ws, ws.sites, START, 7, 10,
+                                         report.workspace_climatology(ws))
+    reached = [chance.window_steps((grid.darkness[:, grid.night_index == d] > 0).any(axis=0),
+                                   grid.chance[:, grid.night_index == d], 10, ws.settings.chance)
+               for d in range(7)]
+    assert any(r.stop - r.start < (grid.night_index == d).sum()
+               for d, r in enumerate(reached))  # the fast path is taken
+    # faint chances at two sites, where an all-light block ties with the best one
+    faint = dataclasses.replace(grid, chance=grid.chance.copy())
+    faint.chance[:2] *= 1e-13
+    fast_faint = chance.summarise_nights(faint, 7, ws.settings.chance)
+    # a few dark steps a night, fewer than a window: windows reach past the dark ones
+    darkness = np.zeros_like(grid.darkness)
+    for d in range(7):
+        first = np.flatnonzero(grid.night_index == d)[0] + 60 + 5 * d
+        darkness[:, first:first + 2 + d % 3] = 1.0
+    rng = np.random.default_rng(7)
+    short = dataclasses.replace(grid, darkness=darkness, chance=darkness * rng.uniform(
+        0, 0.2, darkness.shape))
+    fast_short = chance.summarise_nights(short, 7, ws.settings.chance)
+    monkeypatch.setattr(chance, "window_steps", lambda dark, *_: slice(0, dark.size))
+    _summaries_equal(fast, chance.summarise_nights(grid, 7, ws.settings.chance))
+    _summaries_equal(fast_faint, chance.summarise_nights(faint, 7, ws.settings.chance))
+    _summaries_equal(fast_short, chance.summarise_nights(short, 7, ws.settings.chance))
