@@ -356,3 +356,25 @@ def test_bad_rows_are_located_column_wise_and_named_as_by_the_whole_file(tmp_pat
     assert fast_problems == slow_problems and len(fast_problems) == 4
     assert any("line 52, time_utc: Cedar Shore at 2027-01-11T01:00Z is also on line 51" in p
                for p in fast_problems)
+
+
+@pytest.mark.usefixtures("restored_threshold")
+@pytest.mark.parametrize("header, between, end", [
+    ("site,time_utc,cloud_pct\r\n", "\r\n", "\r\n"),  # Windows line ends
+    ("\ufeffsite,time_utc,cloud_pct\n", "\n", ""),  # a byte-order mark, no last line end
+    ("site,time_utc,cloud_pct\n\n", "\n\n", "\n\n"),  # blank lines between the rows
+])
+def test_located_rows_are_named_by_their_lines_in_the_file(tmp_path, header, between, end):
+    rows = [f"{site},2027-01-11T{h:02d}:00Z,{h}" for site in SITES for h in range(24)]
+    rows[7] = "Aspen Knoll,2027-01-11T07:00Z,170"
+    rows[40] = "Nowhere,2027-01-11T01:00Z,5"
+    path = tmp_path / "clouds.csv"
+    path.write_bytes((header + between.join(rows) + end).encode("utf-8"))
+    csvcolumns.COLUMNWISE_FROM_BYTES = 0
+    found = csvcolumns.read_clouds(path, *CSV_COLUMNS["clouds"], set(SITES), _cloud_unit,
+                                   lambda unit: checks.PERCENT_CELLS[unit][:3])
+    assert isinstance(found, csvcolumns.Located) and csvcolumns.located_lines(found)
+    (fast_problems, _), (slow_problems, _) = _both_ways(path, "clouds")
+    assert fast_problems == slow_problems and len(fast_problems) == 2
+    step = 2 if between == "\n\n" else 1
+    assert fast_problems[0].startswith(f"clouds.csv line {2 + step * 7 + (step - 1)},")
