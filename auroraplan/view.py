@@ -812,7 +812,7 @@ def kp_needed_table(lat, lon, height_m, horizons, min_elevation_deg=5.0,
         kp_horizon[rows] = np.where(first_h >= 0, kp_fine[np.maximum(first_h, 0)], np.inf)
         kp_overhead[rows] = np.where(first_o >= 0, kp_fine[np.maximum(first_o, 0)], np.inf)
         k = np.maximum(first_h, 0)
-        az, el, _ = clearance.look(rows, eq[k, cols], pw[k, cols])
+        az, el, _ = clearance.look_fast(rows, eq[k, cols], pw[k, cols])
         look_az[rows] = np.where(first_h >= 0, az, np.nan)
         look_el[rows] = np.where(first_h >= 0, el, np.nan)
     bad = ~np.isfinite(mlat)  # near the magnetic equator AACGM is undefined: never
