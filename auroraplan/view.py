@@ -792,7 +792,8 @@ def kp_needed_table(lat, lon, height_m, horizons, min_elevation_deg=5.0,
             return clearance.visible(rows, eq[k, cols], pw[k, cols])[0]
 
         def under(k, rows=rows):
-            return clearance.visible(rows, eq[k, cols], pw[k, cols])[1]
+            m = clearance.site_mlat_deg[rows][:, None]
+            return (eq[k, cols] <= m) & (m <= pw[k, cols])
 
         def gone(k, rows=rows):
             return ~seen(k) & clearance.passed_equatorward(rows, pw[k, cols])
