@@ -578,8 +578,7 @@ class _StepsAt:
         self.every = bool(self.work.all())
         idx = np.flatnonzero(self.work)
         # One run of steps (a night's dark hours) is a slice: copied, never gathered.
-        self.cols = slice(idx[0], idx[-1] + 1) if idx.size and idx[-1] - idx[0] + 1 == idx.size \
-            else idx
+        self.cols = _as_slice(idx)
 
     def take(self, values):
         """``values`` (..., T) at the steps worked out (..., W), a new contiguous array."""
@@ -868,26 +867,28 @@ def summarise_nights(grid: ChanceGrid, nights: int,
         cols = np.flatnonzero(grid.night_index == d)
         if cols.size == 0:
             continue
-        dark_steps = (grid.darkness[:, cols] > 0).any(axis=0)
-        out.dark_hours[:, d] = grid.dark_sky[:, cols].sum(axis=1) * grid.step_min / 60.0
+        at = _as_slice(cols)  # a night's steps are one run: views, not copies
+        dark_steps = (grid.darkness[:, at] > 0).any(axis=0)
+        out.dark_hours[:, d] = grid.dark_sky[:, at].sum(axis=1) * grid.step_min / 60.0
         # Worst source over the dark steps; a night without darkness is described by
         # its whole span, so a forecast that covers it is not reported as missing.
         kinds = set(grid.kind[cols][dark_steps] if dark_steps.any() else grid.kind[cols]) or {"none"}
         out.kind[d] = next(k for k in ("none", "outlook", "forecast") if k in kinds)
-        out.expected_min[:, d] = nan_as_zero(grid.chance[:, cols]).sum(axis=1) * grid.step_min
+        out.expected_min[:, d] = nan_as_zero(grid.chance[:, at]).sum(axis=1) * grid.step_min
         # The rest only over the steps a window can reach (window_steps): outside them
         # every site is light and its chance 0.
-        reach = window_steps(dark_steps, grid.chance[:, cols], grid.step_min, cfg)
+        reach = window_steps(dark_steps, grid.chance[:, at], grid.step_min, cfg)
         cols, dark_steps = cols[reach], dark_steps[reach]
-        dark = grid.darkness[:, cols]
-        shown = dark * grid.moon[:, cols] * grid.activity[:, cols]
+        at = _as_slice(cols)
+        dark = grid.darkness[:, at]
+        shown = dark * grid.moon[:, at] * grid.activity[:, at]
         has_data = (~np.isnan(shown) | (dark == 0)).all(axis=1)
         # Steps without darkness at any site add nothing to P (d = 0 there: p_display_seen).
         p = p_display_seen(shown[:, dark_steps], grid.p_clear[:, cols[dark_steps]],
                            grid.step_min, cfg.decorrelation_min)
         out.p_any[:, d] = np.where(has_data, p, np.nan)
-        filled = nan_as_zero(grid.chance[:, cols])
-        lo, hi = best_windows(filled, dark > 0, grid.mlt[:, cols], grid.step_min, cfg)
+        filled = nan_as_zero(grid.chance[:, at])
+        lo, hi = best_windows(filled, dark > 0, grid.mlt[:, at], grid.step_min, cfg)
         peak = np.argmax(np.where(
             (np.arange(cols.size)[None, :] >= lo[:, None]) & (np.arange(cols.size)[None, :] <= hi[:, None]),
             filled, -1.0), axis=1)
@@ -896,7 +897,7 @@ def summarise_nights(grid: ChanceGrid, nights: int,
         out.peak_step[:, d] = np.where(any_dark, cols[peak], -1)
         out.window_start[:, d] = np.where(any_dark, grid.times_utc[cols[lo]], np.datetime64("NaT"))
         out.window_end[:, d] = np.where(any_dark, grid.times_utc[cols[hi]] + step, np.datetime64("NaT"))
-        out.limiting[:, d] = limiting_factor(grid, cols, lo, hi, any_dark, cfg)
+        out.limiting[:, d] = limiting_factor(grid, at, lo, hi, any_dark, cfg)
     return out
 
 
@@ -963,9 +964,16 @@ def best_windows(chance, dark, mlt, step_min, cfg):
     return np.where(none, 0, lo), np.where(none, 0, hi)
 
 
+def _as_slice(cols):
+    """``cols`` (increasing step indices) as a slice when they are one run, else as given."""
+    return slice(cols[0], cols[-1] + 1) if cols.size and cols[-1] - cols[0] + 1 == cols.size \
+        else cols
+
+
 def limiting_factor(grid, cols, lo, hi, any_dark, cfg):
-    """Name of the factor with the lowest mean over each row's window."""
-    idx = np.arange(cols.size)[None, :]
+    """Name of the factor with the lowest mean over each row's window; ``cols`` the
+    night's steps (indices or a slice)."""
+    idx = np.arange(grid.times_utc[cols].size)[None, :]
     inside = (idx >= lo[:, None]) & (idx <= hi[:, None])
     count = np.maximum(inside.sum(axis=1), 1)
 
