@@ -94,7 +94,7 @@ def hourly_chances(grid, decorrelation_min: float):
     -------
     (hour_first_step (H,), chance (N, H), dark (N, H) bool)
     """
-    from auroraplan.chance import p_display_seen
+    from auroraplan.chance import as_slice, p_display_seen
 
     per_hour = int(round(60 / grid.step_min))
     n, t = grid.chance.shape
@@ -103,7 +103,7 @@ def hourly_chances(grid, decorrelation_min: float):
     dark = (grid.darkness[:, :cut] > 0).reshape(n, h, per_hour).any(axis=2)
     # An hour without darkness at any site has chance 0 (p_display_seen of d = 0).
     some = np.flatnonzero(dark.any(axis=0))
-    steps = (some[:, None] * per_hour + np.arange(per_hour)).ravel()
+    steps = as_slice((some[:, None] * per_hour + np.arange(per_hour)).ravel())
     shown = (grid.darkness[:, steps] * grid.moon[:, steps] * grid.activity[:, steps]
              ).reshape(n, some.size, per_hour)
     clear = grid.p_clear[:, steps].reshape(n, some.size, per_hour)
@@ -146,7 +146,7 @@ def issued_part(grid, summary, site_names, dates, decorrelation_min) -> IssuedPa
     model's cloud at the start of those hours (CLOUD_FIELDS), packed into one row. Nights
     (and hours) without a forecast or outlook, or without darkness, are not kept.
     """
-    from auroraplan.chance import nan_as_zero
+    from auroraplan.chance import as_slice, nan_as_zero
 
     first_step, hour_chance, hour_dark = hourly_chances(grid, float(decorrelation_min))
     hour_start = grid.times_utc[first_step].astype(np.int64)
@@ -167,7 +167,8 @@ def issued_part(grid, summary, site_names, dates, decorrelation_min) -> IssuedPa
     for d, date in enumerate(dates):
         kind = summary.kind[d]
         cols = np.flatnonzero(grid.night_index == d)
-        if kind == "forecast" and (step_kind[cols][(grid.darkness[:, cols] > 0).any(axis=0)]
+        dark_at = (grid.darkness[:, as_slice(cols)] > 0).any(axis=0)  # (K,) some site dark
+        if kind == "forecast" and (step_kind[cols][dark_at]
                                    == "nowcast").any():
             kind = "nowcast"
         if kind not in KINDS or cols.size == 0:
@@ -179,8 +180,8 @@ def issued_part(grid, summary, site_names, dates, decorrelation_min) -> IssuedPa
         # Every site's packed values at once, site after site, then cut into rows.
         factors = [b""] * sites.size
         if keep_factors:
-            steps = cols[(grid.darkness[:, cols] > 0).any(axis=0)]
-            at = (slice(None), steps) if every else np.ix_(sites, steps)
+            steps = cols[dark_at]
+            at = (slice(None), as_slice(steps)) if every else np.ix_(sites, steps)
             dark = grid.darkness[at] > 0  # (S, K)
             values = np.stack([nan_as_zero(getattr(grid, name)[at])
                                for name in FACTOR_ROWS], axis=1)  # (S, F, K)

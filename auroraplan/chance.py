@@ -578,7 +578,7 @@ class _StepsAt:
         self.every = bool(self.work.all())
         idx = np.flatnonzero(self.work)
         # One run of steps (a night's dark hours) is a slice: copied, never gathered.
-        self.cols = _as_slice(idx)
+        self.cols = as_slice(idx)
 
     def take(self, values):
         """``values`` (..., T) at the steps worked out (..., W), a new contiguous array."""
@@ -867,7 +867,7 @@ def summarise_nights(grid: ChanceGrid, nights: int,
         cols = np.flatnonzero(grid.night_index == d)
         if cols.size == 0:
             continue
-        at = _as_slice(cols)  # a night's steps are one run: views, not copies
+        at = as_slice(cols)  # a night's steps are one run: views, not copies
         dark_steps = (grid.darkness[:, at] > 0).any(axis=0)
         out.dark_hours[:, d] = grid.dark_sky[:, at].sum(axis=1) * grid.step_min / 60.0
         # Worst source over the dark steps; a night without darkness is described by
@@ -879,7 +879,7 @@ def summarise_nights(grid: ChanceGrid, nights: int,
         # every site is light and its chance 0.
         reach = window_steps(dark_steps, grid.chance[:, at], grid.step_min, cfg)
         cols, dark_steps = cols[reach], dark_steps[reach]
-        at = _as_slice(cols)
+        at = as_slice(cols)
         dark = grid.darkness[:, at]
         shown = dark * grid.moon[:, at] * grid.activity[:, at]
         has_data = (~np.isnan(shown) | (dark == 0)).all(axis=1)
@@ -964,7 +964,7 @@ def best_windows(chance, dark, mlt, step_min, cfg):
     return np.where(none, 0, lo), np.where(none, 0, hi)
 
 
-def _as_slice(cols):
+def as_slice(cols):
     """``cols`` (increasing step indices) as a slice when they are one run, else as given."""
     return slice(cols[0], cols[-1] + 1) if cols.size and cols[-1] - cols[0] + 1 == cols.size \
         else cols
