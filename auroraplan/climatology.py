@@ -28,6 +28,7 @@ from pathlib import Path
 
 import numpy as np
 
+from auroraplan.blocks import row_blocks
 from auroraplan.errors import InputError
 
 FORMAT_HELP = (
@@ -552,9 +553,7 @@ def interpolate_exceedance(table: np.ndarray, need: np.ndarray, k_grid: np.ndarr
     flat = np.ascontiguousarray(table, dtype=float).ravel()
     offsets = np.arange(table.shape[0]) * len(k_grid)
     out = np.empty(need.shape)
-    rows = max(1, EXCEEDANCE_CELLS // max(1, need.shape[-1]))
-    for start in range(0, need.shape[0], rows):
-        part = slice(start, start + rows)
+    for part in row_blocks(need.shape[0], need.shape[-1], EXCEEDANCE_CELLS):
         out[part] = _exceedance(flat, offsets, need[part], k_grid)
     return out
 

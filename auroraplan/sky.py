@@ -16,6 +16,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from auroraplan.blocks import row_blocks
 from auroraplan.errors import InputError
 from auroraplan.nights import night_times, zone_of
 
@@ -298,9 +299,7 @@ def sun_moon_altaz(lat_deg, lon_deg, height_m, times_utc, chunk_size=262_144) ->
     phase = np.empty(n_times)
     if n_times:
         geo = _geocentre_for(seconds)
-        step = max(1, chunk_size // max(n_sites, 1))
-        for start in range(0, n_times, step):
-            part = slice(start, start + step)
+        for part in row_blocks(n_times, n_sites, chunk_size):
             sun, moon, gast = geo.at(seconds[part])
             frame = (position, east, north, up)
             out["sa"][:, part], out["sz"][:, part] = _alt_az(_earth_fixed(sun, gast), *frame)
@@ -628,14 +627,14 @@ def moonlit_sky_mag(
     args = (dark_sky_mag, moon_alt_deg, moon_az_deg, target_alt_deg, target_az_deg,
             moon_phase_angle_deg, k_v)
     shape = np.broadcast_shapes(*(np.shape(a) for a in args))
-    rows = max(1, SKY_CELLS // max(1, int(np.prod(shape[1:]))))
-    if len(shape) < 2 or shape[0] <= rows:
+    blocks = list(row_blocks(shape[0], int(np.prod(shape[1:])), SKY_CELLS)) if len(
+        shape) >= 2 else []
+    if len(blocks) <= 1:
         return _moonlit_sky_mag(*args, dark_sky_at_zenith)
     # In blocks of rows, so that the working arrays stay in the processor's cache.
     whole = [np.broadcast_to(np.asarray(a, dtype=float), shape) for a in args]
     out = np.empty(shape)
-    for start in range(0, shape[0], rows):
-        part = slice(start, start + rows)
+    for part in blocks:
         out[part] = _moonlit_sky_mag(*(a[part] for a in whole), dark_sky_at_zenith)
     return out
 

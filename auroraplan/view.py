@@ -60,6 +60,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from auroraplan import checks, magnetic, oval
+from auroraplan.blocks import row_blocks
 from auroraplan.checks import setting
 from auroraplan.errors import InputError
 from auroraplan.sky import DARKNESS_DEG
@@ -653,11 +654,11 @@ def sightline(table: KpNeeded, kp, mlt_h, visible=True, exact=False) -> dict:
     bad = ~np.isfinite(table.mlat)
     if exact:
         equatorward_deg, poleward_deg = _discrete_edges(kp, mlt_h, table.model)
-        chunk = max(1, LOOK_CELLS // max(1, shape[1] * clearance.lat_grid_deg.size))
+        blocks = row_blocks(n, shape[1] * clearance.lat_grid_deg.size, LOOK_CELLS)
     else:
-        chunk = max(1, LOOK_STEPS // max(1, shape[1]))
-    for start in range(0, n, chunk):
-        rows = np.arange(start, min(start + chunk, n))
+        blocks = row_blocks(n, shape[1], LOOK_STEPS)
+    for part in blocks:
+        rows = np.arange(part.start, part.stop)
         if exact:
             eq, pw = equatorward_deg[rows], poleward_deg[rows]
             look = clearance.look
@@ -872,15 +873,13 @@ def _interp_mlt(table: KpNeeded, values, mlt_h, pick):
     # Each row closed by its first column, so the upper neighbour is the next one.
     ring = np.concatenate([values, values[:, :1]], axis=1).ravel()
     out = np.empty(flat_mlt.shape)
-    rows = max(1, MLT_CELLS // max(1, flat_mlt.shape[1]))
-    for start in range(0, n, rows):
-        part = slice(start, start + rows)
+    for part in row_blocks(n, flat_mlt.shape[1], MLT_CELLS):
         f = np.mod(flat_mlt[part], 24.0) / MLT_STEP_H
         f[~(f < m)] = 0.0  # 24 h after rounding, and NaN (whose result is NaN all the same)
         lo = f.astype(np.intp)
         w = f - lo
         w[np.isnan(flat_mlt[part])] = np.nan
-        at = lo + (np.arange(start, start + lo.shape[0]) * (m + 1))[:, None]
+        at = lo + (np.arange(part.start, part.stop) * (m + 1))[:, None]
         a, b = ring[at], ring[at + 1]
         finite = np.isfinite(a) & np.isfinite(b)
         with np.errstate(invalid="ignore"):
