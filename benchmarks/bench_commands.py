@@ -26,6 +26,7 @@ rows whose name holds TEXT).
 from __future__ import annotations
 
 import datetime as dt
+import shutil
 import statistics
 import subprocess
 import sys
@@ -189,8 +190,11 @@ def median_run(argv, repeats: int) -> dict:
 def _workspace_for(case: Case, quick: bool, scratch: Path, made: dict) -> tuple[Path, bool]:
     """The folder the case runs on and whether it is the full-size input."""
     spec = case.quick_workspace if quick and case.quick_workspace else case.workspace
-    if spec is None:
-        return DEMO, True
+    if spec is None:  # a copy: the commands keep their chances in the workspace database
+        demo = scratch / "demo_sites"
+        if not demo.is_dir():
+            shutil.copytree(DEMO, demo, ignore=shutil.ignore_patterns("auroraplan.sqlite*"))
+        return demo, True
     if spec not in made:
         folder = scratch / f"ws{len(made)}"
         make_workspace(folder, spec.sites, spec.trips, spec.first_night, spec.nights,
